@@ -1,0 +1,13 @@
+"""bedflux: stream-aquifer exchange through a streambed.
+
+Field sheets -> checked observations -> a finite-difference model of the section under the
+channel -> calibration with sensitivities -> placement of the next instruments -> figures and a
+report.
+"""
+from __future__ import annotations
+
+__version__ = "0.1.0"
+
+from .errors import InputError  # noqa: E402
+
+__all__ = ["InputError", "__version__"]

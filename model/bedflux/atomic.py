@@ -1,0 +1,66 @@
+"""Write output files atomically: into a temporary file beside the target, then rename.
+
+A reader never sees a half-written file, and a run that fails leaves nothing behind.
+"""
+from __future__ import annotations
+
+import os
+import shutil
+import tempfile
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Callable, Iterator
+
+
+@contextmanager
+def atomic_path(target: str | os.PathLike) -> Iterator[Path]:
+    """Yield a temporary path; on success it replaces ``target``, on error it is removed."""
+    target = Path(target)
+    target.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=target.suffix, dir=target.parent)
+    os.close(fd)
+    tmp_path = Path(tmp)
+    try:
+        yield tmp_path
+        os.replace(tmp_path, target)
+    finally:
+        if tmp_path.exists():
+            tmp_path.unlink()
+
+
+def write_text(target: str | os.PathLike, text: str) -> None:
+    """Write a text file atomically."""
+    with atomic_path(target) as tmp:
+        tmp.write_text(text, encoding="utf-8")
+
+
+def write_with(target: str | os.PathLike, writer: Callable[[Path], None]) -> None:
+    """Call ``writer(tmp_path)`` and move the result onto ``target`` atomically."""
+    with atomic_path(target) as tmp:
+        writer(tmp)
+
+
+@contextmanager
+def staged_directory(outdir: str | os.PathLike) -> Iterator[Path]:
+    """Yield a staging folder whose files are moved into ``outdir`` only when the block succeeds.
+
+    Files already in ``outdir`` that the block does not write are left alone; on an error
+    nothing in ``outdir`` changes.
+    """
+    outdir = Path(outdir)
+    parent = outdir.resolve().parent
+    parent.mkdir(parents=True, exist_ok=True)
+    stage = Path(tempfile.mkdtemp(prefix=f".{outdir.name}.stage.", dir=parent))
+    try:
+        yield stage
+        outdir.mkdir(parents=True, exist_ok=True)
+        for item in sorted(stage.rglob("*")):
+            rel = item.relative_to(stage)
+            dest = outdir / rel
+            if item.is_dir():
+                dest.mkdir(parents=True, exist_ok=True)
+            else:
+                dest.parent.mkdir(parents=True, exist_ok=True)
+                os.replace(item, dest)
+    finally:
+        shutil.rmtree(stage, ignore_errors=True)
