@@ -27,6 +27,7 @@ DIMENSIONS: dict[str, tuple[str, str, str]] = {
     "density": ("[mass] / [length] ** 3", "kg/m^3", "a density"),
     "acceleration": ("[length] / [time] ** 2", "m/s^2", "an acceleration"),
     "area_rate": ("[length] ** 2 / [time]", "m^2/s", "a flow per unit length (length^2/time)"),
+    "per_time": ("1 / [time]", "1/s", "a rate (1/time)"),
 }
 
 #: Tokens that mean "per day" etc. written the way field notes do.

@@ -1,0 +1,86 @@
+"""The result Dataset: variables, their units, locations and meanings declared once."""
+from __future__ import annotations
+
+from typing import Sequence
+
+import numpy as np
+import xarray as xr
+
+from . import __version__
+from .fluxes import BUDGET_LINES, Fluxes
+from .solve.section import Section
+
+#: name -> (units, location, long name). Every output variable carries these attributes.
+VARIABLES: dict[str, tuple[str, str, str]] = {
+    "head": ("m", "cell", "hydraulic head (NaN above the ground)"),
+    "qx": ("m s-1", "cell", "horizontal Darcy flux, positive in +x"),
+    "qz": ("m s-1", "cell", "vertical Darcy flux, positive upward"),
+    "bed_flux": ("m s-1", "column", "flux through the submerged bed, positive upward (gaining); NaN where dry"),
+    "top_flux": ("m s-1", "column", "flux through the top face of each column, positive upward"),
+    "exchange": ("m2 s-1", "section", "net exchange with the stream per metre of channel, positive when gaining"),
+    "stage": ("m", "section", "stream stage (NaN without a stream)"),
+    "ground": ("m", "column", "ground elevation at the column centre"),
+    "kh": ("m s-1", "cell", "horizontal hydraulic conductivity"),
+    "kv": ("m s-1", "cell", "vertical hydraulic conductivity"),
+    "zone": ("1", "cell", "index of the material zone (see attribute zone_names)"),
+    "budget_in": ("m2 s-1", "section", "flow into the aquifer through each boundary, per metre of width"),
+    "budget_out": ("m2 s-1", "section", "flow out of the aquifer through each boundary, per metre of width"),
+    "budget_closure": ("1", "section", "budget imbalance relative to the total inflow"),
+}
+
+
+def _attrs(name: str) -> dict:
+    units, location, long = VARIABLES[name]
+    return {"units": units, "location": location, "long_name": long}
+
+
+def build_dataset(section: Section, states: Sequence[Fluxes], stages: Sequence[float | None],
+                  times: Sequence[float] | None, attrs: dict) -> xr.Dataset:
+    """Assemble the Dataset from one steady state (``times`` None) or a series of states."""
+    g = section.grid
+    m = section.materials
+    steady = times is None
+    lead = () if steady else ("time",)
+
+    def stack(get):
+        arr = np.stack([get(s) for s in states])
+        return arr[0] if steady else arr
+
+    data = {
+        "head": (lead + ("z", "x"), stack(lambda s: s.head)),
+        "qx": (lead + ("z", "x"), stack(lambda s: s.qx)),
+        "qz": (lead + ("z", "x"), stack(lambda s: s.qz)),
+        "bed_flux": (lead + ("x",), stack(lambda s: s.bed_flux)),
+        "top_flux": (lead + ("x",), stack(lambda s: s.top_flux)),
+        "exchange": (lead, stack(lambda s: np.float64(s.exchange))),
+        "stage": (lead, np.array([np.nan if v is None else v for v in stages])[0] if steady
+                  else np.array([np.nan if v is None else v for v in stages])),
+        "budget_in": (lead + ("term",), stack(lambda s: np.array([s.budget_in[k] for k in BUDGET_LINES]))),
+        "budget_out": (lead + ("term",), stack(lambda s: np.array([s.budget_out[k] for k in BUDGET_LINES]))),
+        "budget_closure": (lead, stack(lambda s: np.float64(s.closure))),
+        "ground": (("x",), g.ground),
+        "kh": (("z", "x"), np.where(g.active, m.kh, np.nan)),
+        "kv": (("z", "x"), np.where(g.active, m.kv, np.nan)),
+        "zone": (("z", "x"), np.where(g.active, m.zone, -1).astype(np.int32)),
+    }
+    coords = {
+        "x": ("x", g.xc, {"units": "m", "long_name": "column centre along the section"}),
+        "z": ("z", g.zc, {"units": "m", "long_name": "row centre elevation", "positive": "up"}),
+        "term": ("term", np.array(BUDGET_LINES), {"long_name": "budget line"}),
+        "x_edge": ("x_edge", g.x_edges, {"units": "m", "long_name": "column edges"}),
+        "z_edge": ("z_edge", g.z_edges, {"units": "m", "long_name": "row edges"}),
+    }
+    if not steady:
+        coords["time"] = ("time", np.asarray(times, dtype=float), {"units": "s", "long_name": "time since start"})
+    ds = xr.Dataset({k: (dims, np.asarray(v)) for k, (dims, v) in data.items()}, coords=coords)
+    for name in VARIABLES:
+        ds[name].attrs.update(_attrs(name))
+    ds.attrs.update({
+        "title": section.scenario.title,
+        "source_file": section.scenario.source,
+        "bedflux_version": __version__,
+        "sign_convention": "vertical flux and bed flux positive upward (gaining stream)",
+        "zone_names": ",".join(m.zone_names),
+        **attrs,
+    })
+    return ds

@@ -1,0 +1,352 @@
+"""The discretised section: conductance matrix, boundary faces and their terms at a given time.
+
+Each boundary condition is a *term*: for the cells it touches, an inflow ``r - g u`` (m^2/s per
+metre of section width, positive into the aquifer) where ``u = h - h_ref`` is the head relative to
+a reference head. The matrix is ``L + diag(sum g)``; the right-hand side is ``sum r``. A stage
+change alters only ``r``; a face that changes type (flooded, seepage face, evapotranspiration
+below the extinction depth) alters ``g`` and so the factorization.
+
+Top faces of columns:
+
+- submerged (ground below the stage and inside the channel limits): head = stage + bedform head,
+  through the half cell and the optional bed leakance in series;
+- exposed: recharge, or a seepage face held at the ground elevation where the head would rise
+  above the ground (an active set chosen by the solver).
+
+Riparian evapotranspiration is a head-dependent sink in the cells of the root zone:
+``ET = rate * clip(1 - (ground - h) / extinction_depth, 0, 1)`` per unit of ground area, split over
+the root depth by cell thickness (each cell uses its own head, so the matrix stays symmetric).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Mapping
+
+import numpy as np
+import scipy.sparse as sp
+
+from ..elliott_brooks import bedform_head
+from ..errors import InputError
+from ..forcing import Constant
+from ..grid import Grid, build_grid
+from ..materials import Materials, materials
+from ..scenario import BoundarySpec, Scenario
+from .operator import Faces, conductance_matrix, horizontal_faces, vertical_faces
+
+SECONDS_PER_DAY = 86400.0
+
+
+@dataclass
+class Term:
+    """One boundary or sink term: inflow ``r - g u[cells]`` into the listed cells.
+
+    ``kind`` is its budget line; ``face`` says which face of the cell it crosses (``top``,
+    ``left``, ``right``, ``bottom``; ``cell`` for a volume sink) and ``place`` the column (top,
+    bottom, cell) or row (sides) of each entry.
+    """
+
+    kind: str
+    face: str
+    cells: np.ndarray
+    place: np.ndarray
+    g: np.ndarray
+    r: np.ndarray
+
+    def inflow(self, u: np.ndarray) -> np.ndarray:
+        """Inflow (m^2/s) through each entry for relative heads ``u``."""
+        return self.r - self.g * u[self.cells]
+
+
+@dataclass
+class ActiveSet:
+    """The face states a steady or transient solve chooses: seepage faces and ET branches."""
+
+    seepage: np.ndarray
+    et_mode: np.ndarray
+
+    def copy(self) -> "ActiveSet":
+        return ActiveSet(self.seepage.copy(), self.et_mode.copy())
+
+    def same(self, other: "ActiveSet") -> bool:
+        return bool(np.array_equal(self.seepage, other.seepage) and np.array_equal(self.et_mode, other.et_mode))
+
+
+@dataclass
+class _SideGeometry:
+    cells: np.ndarray
+    place: np.ndarray
+    conductance: np.ndarray
+    area: np.ndarray
+
+
+@dataclass
+class Section:
+    """A scenario discretised on its grid. Build with :func:`discretise`."""
+
+    scenario: Scenario
+    grid: Grid
+    materials: Materials
+    index: np.ndarray
+    hfaces: Faces
+    vfaces: Faces
+    L: sp.csr_matrix
+    h_ref: float
+    top_cells: np.ndarray
+    top_half: np.ndarray
+    channel: np.ndarray
+    bed_head: np.ndarray
+    sides: dict[str, _SideGeometry]
+    et_cells: np.ndarray
+    et_cols: np.ndarray
+    et_rate: np.ndarray
+    et_ext: np.ndarray
+    et_cycle: np.ndarray
+    cell_volume: np.ndarray = field(repr=False)
+
+    @property
+    def n(self) -> int:
+        return self.grid.n_active
+
+    # ---------------------------------------------------------------------------- forcing
+    def stage(self, t: float) -> float | None:
+        """Stream stage (m) at time ``t`` or None without a stream."""
+        s = self.scenario.stream
+        return None if s is None else float(s.stage(t))
+
+    def submerged(self, t: float) -> np.ndarray:
+        """Columns whose top face is under the stream at time ``t``."""
+        st = self.stage(t)
+        if st is None:
+            return np.zeros(self.grid.nx, dtype=bool)
+        return self.channel & (self.grid.ground < st)
+
+    def et_factor(self, t: float, steady: bool) -> float:
+        """Multiplier of the ET rate at time ``t``: 1, or the daily cycle in transient runs.
+
+        The daily cycle has no uptake between 18:00 and 06:00 (the run starts at midnight) and
+        ``pi sin(pi (tau - 6 h) / 12 h)`` in daytime, whose daily mean is 1.
+        """
+        if steady:
+            return 1.0
+        tau = (t % SECONDS_PER_DAY) / 3600.0
+        return float(np.pi * np.sin(np.pi * (tau - 6.0) / 12.0)) if 6.0 <= tau <= 18.0 else 0.0
+
+    # ---------------------------------------------------------------------------- active sets
+    def initial_active_set(self) -> ActiveSet:
+        """No seepage faces; evapotranspiration on its linear branch."""
+        return ActiveSet(np.zeros(self.grid.nx, dtype=bool), np.ones(self.et_cells.size, dtype=np.int8))
+
+    def terms(self, t: float, state: ActiveSet, steady: bool = True) -> list[Term]:
+        """The boundary and sink terms at time ``t`` for the given active set."""
+        g = self.grid
+        cols = np.arange(g.nx)
+        wet = self.submerged(t)
+        out: list[Term] = []
+        dx = g.dx
+        if wet.any():
+            sc = self.scenario.stream
+            half = self.top_half[wet]
+            if sc.leakance is not None:
+                half = half + 1.0 / sc.leakance
+            cond = dx[wet] / half
+            head = self.stage(t) + self.bed_head[wet]
+            out.append(Term("stream", "top", self.top_cells[wet], cols[wet], cond, cond * (head - self.h_ref)))
+        dry = ~wet
+        seep = dry & state.seepage
+        if seep.any():
+            cond = dx[seep] / self.top_half[seep]
+            out.append(Term("seepage_face", "top", self.top_cells[seep], cols[seep], cond,
+                            cond * (g.ground[seep] - self.h_ref)))
+        rech = dry & ~state.seepage
+        if rech.any() and self.scenario.recharge != 0.0:
+            out.append(Term("recharge", "top", self.top_cells[rech], cols[rech], np.zeros(rech.sum()),
+                            self.scenario.recharge * dx[rech]))
+        for side in ("left", "right", "bottom"):
+            spec: BoundarySpec = getattr(self.scenario, side)
+            geo = self.sides.get(side)
+            if geo is None or spec.kind in ("no-flow", "periodic"):
+                continue
+            if spec.kind == "flux":
+                q = float(spec.signal(t))
+                out.append(Term(side, side, geo.cells, geo.place, np.zeros(geo.cells.size), q * geo.area))
+            else:
+                head = self.stage(t) if spec.kind == "stream" else float(spec.signal(t))
+                kind = "stream" if spec.kind == "stream" else side
+                out.append(Term(kind, side, geo.cells, geo.place, geo.conductance,
+                                geo.conductance * (head - self.h_ref)))
+        if self.et_cells.size:
+            f = self.et_factor(t, steady)
+            rate = self.et_rate * f
+            ground = g.ground[self.et_cols]
+            mode = state.et_mode
+            gg = np.where(mode == 1, rate / self.et_ext, 0.0)
+            # ET = rate (1 - (ground - h)/ext) on the linear branch, rate when h >= ground
+            linear_r = -rate * (1.0 - (ground - self.h_ref) / self.et_ext)
+            r = np.where(mode == 1, linear_r, np.where(mode == 2, -rate, 0.0))
+            out.append(Term("evapotranspiration", "cell", self.et_cells, self.et_cols, gg, r))
+        return out
+
+    def update_active_set(self, u: np.ndarray, terms: list[Term], t: float, state: ActiveSet) -> ActiveSet:
+        """The active set implied by the heads ``u``: seepage where the head would rise above the
+        ground, release where a seepage face would draw in more than the recharge; ET branch
+        from the depth to water of each root-zone cell."""
+        new = state.copy()
+        g = self.grid
+        wet = self.submerged(t)
+        h_top = u[self.top_cells] + self.h_ref
+        # face head under recharge: h_cell + R * half-cell resistance
+        face_head = h_top + self.scenario.recharge * self.top_half
+        rise = ~wet & ~state.seepage & (face_head > g.ground)
+        new.seepage[rise] = True
+        for term in terms:
+            if term.kind == "seepage_face":
+                inflow = term.inflow(u) / g.dx[term.place]
+                release = inflow > max(self.scenario.recharge, 0.0) + 1e-15
+                new.seepage[term.place[release]] = False
+        new.seepage[wet] = False
+        if self.et_cells.size:
+            depth = g.ground[self.et_cols] - (u[self.et_cells] + self.h_ref)
+            new.et_mode = np.where(depth <= 0.0, 2, np.where(depth >= self.et_ext, 0, 1)).astype(np.int8)
+        return new
+
+    # ---------------------------------------------------------------------------- storage
+    def storage(self, wet: np.ndarray) -> np.ndarray:
+        """Storage coefficient per unknown (m^2 per m of head per metre of width): specific storage
+        times cell area, plus specific yield times the column width at exposed top cells."""
+        s = self.materials.ss[self.grid.active] * self.cell_volume
+        exposed = ~wet
+        sy = self.materials.sy[self.grid.top_row, np.arange(self.grid.nx)]
+        np.add.at(s, self.top_cells[exposed], sy[exposed] * self.grid.dx[exposed])
+        return s
+
+    # ---------------------------------------------------------------------------- assembly
+    def matrix(self, terms: list[Term], extra_diag: np.ndarray | float = 0.0) -> sp.csr_matrix:
+        """``L + diag(sum g + extra_diag)``."""
+        d = np.zeros(self.n) + extra_diag
+        for term in terms:
+            _bincount_add(d, term.cells, term.g)
+        return (self.L + sp.diags(d, format="csr")).tocsr()
+
+    def rhs(self, terms: list[Term]) -> np.ndarray:
+        """``sum r`` over the terms."""
+        b = np.zeros(self.n)
+        for term in terms:
+            _bincount_add(b, term.cells, term.r)
+        return b
+
+    def diagonal_key(self, terms: list[Term]) -> bytes:
+        """Bytes that identify the boundary diagonal (for reusing a factorization)."""
+        d = np.zeros(self.n)
+        for term in terms:
+            _bincount_add(d, term.cells, term.g)
+        return d.tobytes()
+
+
+def _bincount_add(target: np.ndarray, cells: np.ndarray, values: np.ndarray) -> None:
+    target += np.bincount(cells, weights=values, minlength=target.size)
+
+
+def _side_geometry(grid: Grid, mat: Materials, idx: np.ndarray, side: str) -> _SideGeometry:
+    if side in ("left", "right"):
+        col = 0 if side == "left" else grid.nx - 1
+        rows = np.nonzero(grid.active[:, col])[0]
+        area = grid.thickness[rows, col]
+        cond = area / (grid.dx[col] / (2.0 * mat.kh[rows, col]))
+        return _SideGeometry(idx[rows, col], rows, cond, area)
+    row = grid.nz - 1
+    cols = np.arange(grid.nx)
+    area = grid.dx
+    cond = area / (grid.thickness[row] / (2.0 * mat.kv[row]))
+    return _SideGeometry(idx[row], cols, cond, area)
+
+
+def _reference_head(scenario: Scenario, grid: Grid) -> float:
+    if scenario.stream is not None:
+        return float(scenario.stream.stage(0.0))
+    for spec in (scenario.left, scenario.right, scenario.bottom):
+        if spec.kind == "head":
+            return float(spec.signal(0.0))
+    return float(grid.ground.mean())
+
+
+def _evapotranspiration(scenario: Scenario, grid: Grid, idx: np.ndarray):
+    cells, cols, rate, ext, cyc = [], [], [], [], []
+    zc = grid.z_centre
+    for r in scenario.riparian:
+        inside = np.nonzero((grid.xc >= r.x[0]) & (grid.xc <= r.x[1]))[0]
+        for_cols = inside
+        if for_cols.size == 0:
+            continue
+        if r.root_depth <= 0.0:
+            rows = grid.top_row[for_cols]
+            cells.append(idx[rows, for_cols]); cols.append(for_cols)
+            rate.append(r.rate * grid.dx[for_cols])
+        else:
+            depth = grid.ground[None, for_cols] - zc[:, for_cols]
+            within = grid.active[:, for_cols] & (depth <= r.root_depth)
+            within[grid.top_row[for_cols], np.arange(for_cols.size)] = True
+            w = np.where(within, grid.thickness[:, for_cols], 0.0)
+            w = w / w.sum(axis=0, keepdims=True)
+            rr, cc = np.nonzero(within)
+            cells.append(idx[rr, for_cols[cc]]); cols.append(for_cols[cc])
+            rate.append(r.rate * grid.dx[for_cols[cc]] * w[rr, cc])
+        n = cells[-1].size
+        ext.append(np.full(n, r.extinction_depth)); cyc.append(np.full(n, r.daily_cycle))
+    if not cells:
+        e = np.zeros(0)
+        return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64), e, e, np.zeros(0, dtype=bool)
+    return (np.concatenate(cells), np.concatenate(cols), np.concatenate(rate), np.concatenate(ext),
+            np.concatenate(cyc))
+
+
+def discretise(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = None) -> Section:
+    """Build the grid, the materials, the conductance matrix and the boundary geometry.
+
+    Raises
+    ------
+    InputError
+        If no head is fixed anywhere (the steady problem would have no unique solution).
+    """
+    grid = build_grid(scenario)
+    mat = materials(scenario, grid, fields)
+    idx = grid.index()
+    periodic = scenario.left.kind == "periodic"
+    hf = horizontal_faces(grid, mat, periodic)
+    vf = vertical_faces(grid, mat)
+    L = conductance_matrix(grid.n_active, [hf, vf])
+    cols = np.arange(grid.nx)
+    top_cells = idx[grid.top_row, cols]
+    top_half = grid.thickness[grid.top_row, cols] / (2.0 * mat.kv[grid.top_row, cols])
+    stream = scenario.stream
+    if stream is not None and stream.channel is not None:
+        channel = (grid.xc >= stream.channel[0]) & (grid.xc <= stream.channel[1])
+    else:
+        channel = np.ones(grid.nx, dtype=bool)
+    bed_head = np.zeros(grid.nx)
+    if stream is not None and stream.bedform is not None:
+        bf = stream.bedform
+        bed_head = bedform_head(grid.xc, bf.amplitude, bf.wavelength, bf.phase)
+    sides = {s: _side_geometry(grid, mat, idx, s) for s in ("left", "right", "bottom")}
+    et = _evapotranspiration(scenario, grid, idx)
+    volume = (grid.thickness * grid.dx[None, :])[grid.active]
+    section = Section(scenario, grid, mat, idx, hf, vf, L, _reference_head(scenario, grid), top_cells,
+                      top_half, channel, bed_head, sides, *et, cell_volume=volume)
+    _require_fixed_head(section)
+    return section
+
+
+def _require_fixed_head(section: Section) -> None:
+    s = section.scenario
+    fixed_side = any(b.kind in ("head", "stream") for b in (s.left, s.right, s.bottom))
+    can_flood = s.stream is not None and section.channel.any()
+    if not (fixed_side or can_flood or s.recharge > 0.0):
+        raise InputError("no head is fixed anywhere: add a [stream] stage over the section, a side "
+                         "{head = V} or side = \"stream\"", source=s.source, where="[sides]")
+
+
+def is_constant_forcing(scenario: Scenario) -> bool:
+    """True when the stage and every boundary signal are constants."""
+    sigs = [b.signal for b in (scenario.left, scenario.right, scenario.bottom) if b.signal is not None]
+    if scenario.stream is not None:
+        sigs.append(scenario.stream.stage)
+    return all(isinstance(s, Constant) for s in sigs)
