@@ -8,6 +8,8 @@ from __future__ import annotations
 
 __version__ = "0.1.0"
 
-from .errors import InputError  # noqa: E402
+from .errors import InputError, SolverError  # noqa: E402
+from .scenario import Scenario, load  # noqa: E402
+from .simulate import simulate  # noqa: E402
 
-__all__ = ["InputError", "__version__"]
+__all__ = ["InputError", "SolverError", "Scenario", "load", "simulate", "__version__"]

@@ -1,0 +1,121 @@
+"""The ``bedflux`` command line.
+
+Exit status: 0 on success, 2 for bad input (a message naming the file, key or row and what is
+allowed), 1 when a numerical method fails, 130 when interrupted.
+"""
+from __future__ import annotations
+
+import argparse
+import sys
+from importlib import resources
+from pathlib import Path
+from typing import Sequence
+
+from . import __version__
+from .errors import InputError, SolverError
+
+EXAMPLE = "gaining_channel.toml"
+
+
+def example_path() -> Path:
+    """Path of the built-in example scenario."""
+    return Path(str(resources.files("bedflux") / "examples" / EXAMPLE))
+
+
+def _cmd_run(args: argparse.Namespace) -> int:
+    from .run import run_scenario
+
+    scenario = Path(args.scenario) if args.scenario else example_path()
+    summary = run_scenario(scenario, Path(args.output), unit=args.units, quiet=args.quiet)
+    if not args.quiet:
+        print(summary["text"], end="")
+        print(f"outputs written to {args.output}/")
+    return 130 if summary["partial"] else 0
+
+
+def _cmd_field(args: argparse.Namespace) -> int:
+    from .field import run_field
+
+    summary = run_field(Path(args.sheets), Path(args.output), quiet=args.quiet)
+    if not args.quiet:
+        for line in summary.get("lines", []):
+            print(line)
+        print(f"outputs written to {args.output}/")
+    return 2 if summary.get("untrustworthy") else 0
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser with every verb."""
+    p = argparse.ArgumentParser(
+        prog="bedflux",
+        description="Stream-aquifer exchange through a streambed: reduce field sheets, run a "
+                    "finite-difference model of the section under the channel, fit conductivities, "
+                    "plan the next instruments, and write a report.",
+        epilog="Run 'bedflux VERB --help' for the options of each verb.")
+    p.add_argument("--version", action="version", version=f"bedflux {__version__}")
+    sub = p.add_subparsers(dest="verb", metavar="VERB")
+
+    r = sub.add_parser("run", help="run a scenario (default: the built-in example)",
+                       description="Run a scenario TOML file (steady, or transient when it has a [time] "
+                                   "table). Without a file, runs the built-in example: a gaining sand-bed "
+                                   "channel with a silty clogging patch. Writes result.nc, summary.txt, "
+                                   "summary.json and figures into OUTDIR.")
+    r.add_argument("scenario", nargs="?", help="scenario TOML file (omit for the built-in example)")
+    r.add_argument("-o", "--output", default="bedflux-out", help="output folder (default: bedflux-out)")
+    r.add_argument("--units", default="m/d", choices=["m/d", "mm/d", "cm/d", "cm/s", "m/s"],
+                   help="display unit of fluxes in figures (files stay SI)")
+    r.add_argument("-q", "--quiet", action="store_true", help="no progress bar or summary on screen")
+    r.set_defaults(func=_cmd_run)
+
+    f = sub.add_parser("field", help="reduce field sheets to checked observations",
+                       description="Read the CSV field sheets in SHEETS (sites, seepage meters, "
+                                   "manometers, slug tests, permeameters, velocity heads), compute fluxes, "
+                                   "gradients and conductivities with uncertainties and flags, and write "
+                                   "observations.csv for calibration with tables and figures into OUTDIR.")
+    f.add_argument("sheets", help="folder with the field sheets")
+    f.add_argument("-o", "--output", default="bedflux-field", help="output folder (default: bedflux-field)")
+    f.add_argument("-q", "--quiet", action="store_true", help="no summary on screen")
+    f.set_defaults(func=_cmd_field)
+    for extra in _EXTRA_VERBS:
+        extra(sub)
+    return p
+
+
+def _register_optional() -> list:
+    verbs = []
+    for name in ("fit", "plan", "report"):
+        try:
+            mod = __import__(f"bedflux.{name}.command", fromlist=["register"])
+        except ModuleNotFoundError as err:
+            if err.name and err.name.startswith("bedflux"):
+                continue
+            raise
+        verbs.append(mod.register)
+    return verbs
+
+
+_EXTRA_VERBS = _register_optional()
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Entry point of the console script."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "func", None):
+        parser.print_help()
+        return 0
+    try:
+        return args.func(args)
+    except InputError as err:
+        print(f"bedflux {args.verb}: error: {err.render()}", file=sys.stderr)
+        return 2
+    except SolverError as err:
+        print(f"bedflux {args.verb}: the solver failed: {err}", file=sys.stderr)
+        return 1
+    except KeyboardInterrupt:
+        print(f"bedflux {args.verb}: interrupted", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":
+    sys.exit(main())

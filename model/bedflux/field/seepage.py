@@ -1,0 +1,238 @@
+"""Seepage meters: bag volume (or mass) change over pan area and time, meter statistics, transects.
+
+Sign: a positive flux is upward, groundwater discharging into the stream (the bag gained water);
+a bag that lost water shows recharge (negative flux).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+from numpy.typing import ArrayLike
+
+from ..errors import InputError
+from .flags import Flags
+from .kinds import WATER_DENSITY
+from .sheets import Rejected, Sheet, reject_duplicates, reject_where
+from .sites import Sites
+from .stats import robust_outliers, summarise
+
+#: Net bag change below which a reading sits near the detection floor (Cable et al. 1997), m^3.
+DETECTION_VOLUME = 150e-6
+#: Bag fill fractions outside which meter efficiency is unreliable (Rosenberry et al. 2020).
+FILL_LOW, FILL_HIGH = 0.20, 0.65
+#: Repeat scatter above which a meter is flagged (common practice).
+CV_LIMIT = 0.30
+#: Relative error given to a meter read once: replicate meters agree within about 20 %
+#: relative RMS error (Belanger & Montgomery 1992).
+SINGLE_READING_RELATIVE_ERROR = 0.20
+
+
+def _positive(name: str, value: np.ndarray, strict: bool = True) -> None:
+    bad = ~(value > 0) if strict else ~(value >= 0)
+    if np.any(bad):
+        raise InputError(f"{name} must be {'> 0' if strict else '>= 0'}; got {value[bad].ravel()[0]!r}")
+
+
+def seepage_flux(
+    volume_change: ArrayLike, duration: ArrayLike, area: ArrayLike, efficiency: ArrayLike = 1.0
+) -> np.ndarray:
+    """Bed flux from a seepage meter: q = dV / (A dt) / efficiency.
+
+    Parameters
+    ----------
+    volume_change
+        Water gained by the bag, m^3 (negative when the bag lost water).
+    duration
+        Bag attachment time, s (> 0).
+    area
+        Bed area covered by the pan, m^2 (> 0).
+    efficiency
+        Fraction of the true flux the meter captures (> 0); 1 returns the metered flux.
+
+    Returns
+    -------
+    numpy.ndarray
+        Flux in m/s, positive upward (discharge into the stream).
+    """
+    dv = np.asarray(volume_change, dtype=float)
+    dt = np.asarray(duration, dtype=float)
+    a = np.asarray(area, dtype=float)
+    e = np.asarray(efficiency, dtype=float)
+    _positive("duration", dt)
+    _positive("area", a)
+    _positive("efficiency", e)
+    return dv / (a * dt) / e
+
+
+def volume_from_mass(mass: ArrayLike, water_density: ArrayLike = WATER_DENSITY) -> np.ndarray:
+    """Volume of water (m^3) of a mass (kg) at the given density (kg/m^3)."""
+    rho = np.asarray(water_density, dtype=float)
+    _positive("water_density", rho)
+    return np.asarray(mass, dtype=float) / rho
+
+
+def pan_area(diameter: ArrayLike) -> np.ndarray:
+    """Bed area covered by a round pan of the given inner diameter: pi D^2 / 4 (m^2)."""
+    d = np.asarray(diameter, dtype=float)
+    _positive("pan diameter", d)
+    return np.pi * d**2 / 4.0
+
+
+def detection_flux(duration: ArrayLike, area: ArrayLike, efficiency: ArrayLike = 1.0) -> np.ndarray:
+    """Smallest flux a reading resolves: 150 mL net bag change (Cable et al. 1997) over A dt."""
+    return seepage_flux(DETECTION_VOLUME, duration, area, efficiency)
+
+
+@dataclass
+class SeepageResult:
+    """Reduced seepage sheet: per reading, per meter and per transect tables (SI)."""
+
+    readings: pd.DataFrame
+    meters: pd.DataFrame
+    transects: pd.DataFrame
+
+
+def _volumes(sheet: Sheet, rejected: Rejected) -> tuple[Sheet, np.ndarray, np.ndarray]:
+    vol = sheet.has("volume_start") or sheet.has("volume_end")
+    mass = sheet.has("mass_start") or sheet.has("mass_end")
+    pair = ("volume_start", "volume_end") if vol else ("mass_start", "mass_end")
+    if vol == mass or not all(sheet.has(c) for c in pair):
+        raise InputError(
+            "give the bag contents either as volume_start and volume_end or as mass_start and "
+            "mass_end (with water_density); not a mix and not neither",
+            sheet.source,
+        )
+    for c in pair:
+        empty = ~np.isfinite(sheet.numbers[c])
+        sheet = reject_where(sheet, empty, c, f"empty cell; '{c}' is required", rejected)
+    start, end = (sheet.numbers[c] for c in pair)
+    if mass:
+        rho = sheet.numbers["water_density"]
+        start, end = volume_from_mass(start, rho), volume_from_mass(end, rho)
+    return sheet, start, end
+
+
+def reduce_seepage(sheet: Sheet, sites: Sites, rejected: Rejected, flags: Flags) -> SeepageResult:
+    """Fluxes per reading, repeat statistics per meter, profiles and robust outliers per transect.
+
+    Parameters
+    ----------
+    sheet
+        A read seepage sheet (unknown sites already rejected).
+    sites
+        The campaign's sites.
+    rejected, flags
+        Collect rejected rows and raised flags.
+    """
+    sheet = reject_duplicates(sheet, ("site", "time"), rejected)
+    sheet, v_start, v_end = _volumes(sheet, rejected)
+    n = sheet.numbers
+    area = pan_area(n["pan_diameter"]) if sheet.has("pan_diameter") else n["pan_area"]
+    dv = v_end - v_start
+    q = seepage_flux(dv, n["duration"], area, n["efficiency"])
+    res = n["volume_resolution"] / np.sqrt(6.0) / (area * n["duration"] * n["efficiency"])
+    fill = v_end / n["bag_capacity"]
+    site = sheet.texts["site"]
+    readings = pd.DataFrame(
+        {
+            "line": sheet.line,
+            "site": site,
+            "time [s]": n["time"],
+            "duration [s]": n["duration"],
+            "volume_change [m^3]": dv,
+            "pan_area [m^2]": area,
+            "efficiency [1]": n["efficiency"],
+            "metered_flux [m/s]": dv / (area * n["duration"]),
+            "flux [m/s]": q,
+            "resolution_sigma [m/s]": res,
+            "fill_fraction [1]": fill,
+        }
+    )
+    low = np.abs(dv) < DETECTION_VOLUME
+    for k in np.flatnonzero(low):
+        flags.add("seepage_readings", f"{site[k]} line {sheet.line[k]}", "near_detection_floor",
+                  f"net bag change {dv[k] * 1e6:.0f} mL < 150 mL (Cable et al. 1997)")
+    bad_fill = np.isfinite(fill) & ((fill > FILL_HIGH) | (fill < FILL_LOW))
+    for k in np.flatnonzero(bad_fill):
+        flags.add("seepage_readings", f"{site[k]} line {sheet.line[k]}", "bag_fill",
+                  f"bag {100 * fill[k]:.0f} % full at removal, outside {100 * FILL_LOW:.0f}-"
+                  f"{100 * FILL_HIGH:.0f} % (Rosenberry et al. 2020)")
+    readings["flags"] = np.where(low, "near_detection_floor", "")
+    readings.loc[bad_fill, "flags"] = (readings.loc[bad_fill, "flags"] + " bag_fill").str.strip()
+    meters = _meters(readings, sites, flags)
+    return SeepageResult(readings, meters, _transects(meters, flags))
+
+
+def _meters(readings: pd.DataFrame, sites: Sites, flags: Flags) -> pd.DataFrame:
+    rows = []
+    for site_id, g in readings.groupby("site", sort=True):
+        s = summarise(g["flux [m/s]"].to_numpy())
+        res2 = float(np.mean(g["resolution_sigma [m/s]"].to_numpy() ** 2))
+        if s.n >= 2:
+            sigma = np.sqrt(s.stderr**2 + res2 / s.n)
+        else:
+            sigma = np.sqrt((SINGLE_READING_RELATIVE_ERROR * s.mean) ** 2 + res2)
+        mid = float(np.mean(g["time [s]"] + g["duration [s]"] / 2))
+        flag = ""
+        if s.n >= 2 and not (s.cv <= CV_LIMIT):
+            flag = "repeat_scatter"
+            flags.add("seepage_meters", site_id, flag,
+                      f"coefficient of variation {s.cv:.2f} > {CV_LIMIT:.2f} over {s.n} readings")
+        i = sites.index(site_id)
+        rows.append(
+            {
+                "site": site_id,
+                "x [m]": sites.x[i],
+                "y [m]": sites.y[i],
+                "transect": sites.transect[i],
+                "time [s]": mid,
+                "n": s.n,
+                "mean [m/s]": s.mean,
+                "std [m/s]": s.std,
+                "cv [1]": s.cv,
+                "stderr [m/s]": s.stderr,
+                "ci95_low [m/s]": s.low,
+                "ci95_high [m/s]": s.high,
+                "sigma [m/s]": sigma,
+                "flags": flag,
+            }
+        )
+    return pd.DataFrame(rows)
+
+
+def _transects(meters: pd.DataFrame, flags: Flags) -> pd.DataFrame:
+    meters["robust_outlier"] = False
+    rows = []
+    for label, g in meters[meters["transect"] != ""].groupby("transect", sort=True):
+        g = g.sort_values("y [m]")
+        out = robust_outliers(g["mean [m/s]"].to_numpy())
+        meters.loc[g.index[out], "robust_outlier"] = True
+        for site_id in g["site"].to_numpy()[out]:
+            flags.add("seepage_meters", site_id, "robust_outlier",
+                      f"|modified z| > 3.5 among the meters of transect {label} (Iglewicz & Hoaglin 1993)")
+        s = summarise(g["mean [m/s]"].to_numpy()[~out])
+        rows.append(
+            {
+                "transect": label,
+                "meters": len(g),
+                "outliers": int(out.sum()),
+                "n": s.n,
+                "mean [m/s]": s.mean,
+                "std [m/s]": s.std,
+                "cv [1]": s.cv,
+                "stderr [m/s]": s.stderr,
+                "ci95_low [m/s]": s.low,
+                "ci95_high [m/s]": s.high,
+                "x [m]": float(g["x [m]"].mean()),
+            }
+        )
+    meters["flags"] = np.where(
+        meters["robust_outlier"], (meters["flags"] + " robust_outlier").str.strip(), meters["flags"]
+    )
+    return pd.DataFrame(
+        rows,
+        columns=["transect", "meters", "outliers", "n", "mean [m/s]", "std [m/s]", "cv [1]",
+                 "stderr [m/s]", "ci95_low [m/s]", "ci95_high [m/s]", "x [m]"],
+    )

@@ -1,0 +1,87 @@
+"""Statistics of repeated field readings: mean, spread, t interval, robust outliers."""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import stats as _st
+
+#: Modified z-score above which a value is a robust outlier (Iglewicz & Hoaglin 1993).
+MODIFIED_Z_LIMIT = 3.5
+#: 0.6745 = the 0.75 quantile of the standard normal, which scales the MAD to a standard deviation.
+_MAD_SCALE = 0.6745
+
+
+@dataclass(frozen=True)
+class Summary:
+    """Repeat statistics of one set of values (SI)."""
+
+    n: int
+    mean: float
+    std: float
+    cv: float
+    stderr: float
+    half_width: float
+
+    @property
+    def low(self) -> float:
+        """Lower end of the 95 % interval of the mean."""
+        return self.mean - self.half_width
+
+    @property
+    def high(self) -> float:
+        """Upper end of the 95 % interval of the mean."""
+        return self.mean + self.half_width
+
+
+def summarise(values: np.ndarray, level: float = 0.95) -> Summary:
+    """n, mean, sample standard deviation, coefficient of variation, standard error, t interval.
+
+    Parameters
+    ----------
+    values
+        The repeat values; NaN entries are ignored.
+    level
+        Confidence level of the two-sided t interval of the mean.
+
+    Returns
+    -------
+    Summary
+        ``std``, ``cv``, ``stderr`` and ``half_width`` are NaN for fewer than two values; ``cv``
+        is ``std / |mean|`` (NaN for a zero mean).
+    """
+    v = np.asarray(values, dtype=float)
+    v = v[np.isfinite(v)]
+    n = int(v.size)
+    if n == 0:
+        return Summary(0, np.nan, np.nan, np.nan, np.nan, np.nan)
+    mean = float(v.mean())
+    if n < 2:
+        return Summary(n, mean, np.nan, np.nan, np.nan, np.nan)
+    std = float(v.std(ddof=1))
+    se = std / np.sqrt(n)
+    cv = std / abs(mean) if mean != 0 else np.nan
+    half = float(_st.t.ppf(0.5 + level / 2, n - 1) * se)
+    return Summary(n, mean, std, cv, float(se), half)
+
+
+def modified_z(values: np.ndarray) -> np.ndarray:
+    """Modified z-scores 0.6745 (x - median) / MAD (Iglewicz & Hoaglin 1993).
+
+    Returns zeros when the MAD is zero (more than half the values equal), where the score is
+    undefined and no value is called an outlier.
+    """
+    v = np.asarray(values, dtype=float)
+    med = np.median(v)
+    mad = np.median(np.abs(v - med))
+    if mad == 0:
+        return np.zeros_like(v)
+    return _MAD_SCALE * (v - med) / mad
+
+
+def robust_outliers(values: np.ndarray, limit: float = MODIFIED_Z_LIMIT) -> np.ndarray:
+    """Boolean mask of values whose |modified z| exceeds ``limit``; none for fewer than 3 values."""
+    v = np.asarray(values, dtype=float)
+    if v.size < 3:
+        return np.zeros(v.size, dtype=bool)
+    return np.abs(modified_z(v)) > limit

@@ -1,0 +1,32 @@
+"""Writing and reading run outputs: result.nc, summary.txt, summary.json."""
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import xarray as xr
+
+from .atomic import write_text, write_with
+from .summary import summarise, summary_text
+
+
+def write_result(ds: xr.Dataset, path: str | Path) -> Path:
+    """Write the Dataset as netCDF (classic format, readable by ``xarray.open_dataset``)."""
+    path = Path(path)
+    write_with(path, lambda tmp: ds.to_netcdf(tmp, engine="scipy"))
+    return path
+
+
+def read_result(path: str | Path) -> xr.Dataset:
+    """Read a result written by :func:`write_result` (fully loaded, file closed)."""
+    with xr.open_dataset(path, engine="scipy") as ds:
+        return ds.load()
+
+
+def write_summary(ds: xr.Dataset, outdir: str | Path) -> dict:
+    """Write summary.txt and summary.json into ``outdir``; return the summary."""
+    outdir = Path(outdir)
+    s = summarise(ds)
+    write_text(outdir / "summary.txt", summary_text(s))
+    write_text(outdir / "summary.json", json.dumps(s, indent=2, allow_nan=True) + "\n")
+    return s

@@ -1,0 +1,175 @@
+"""Figures of model results, in one style.
+
+Colour maps read in greyscale and for colour-blind readers (cividis for heads, a purple-orange
+diverging map centred on zero for fluxes). Fluxes are drawn in a selectable display unit while
+files stay SI. Every figure is written atomically.
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+import matplotlib
+
+matplotlib.use("Agg")
+import matplotlib.pyplot as plt  # noqa: E402
+import numpy as np  # noqa: E402
+import xarray as xr  # noqa: E402
+from matplotlib.colors import TwoSlopeNorm  # noqa: E402
+
+from .atomic import write_with  # noqa: E402
+
+#: display unit -> factor from m/s
+FLUX_UNITS = {"m/d": 86400.0, "mm/d": 86400e3, "cm/d": 8.64e6, "cm/s": 100.0, "m/s": 1.0}
+GAINING = "#5e3c99"
+LOSING = "#e66101"
+HEAD_MAP = "cividis"
+FLUX_MAP = "PuOr_r"
+ZONE_GREYS = ["#f2f2f2", "#d0d0d0", "#b0b0b0", "#909090", "#e0e0e0", "#c0c0c0"]
+
+
+def flux_factor(unit: str) -> float:
+    """Factor from m/s to a display unit (``m/d``, ``mm/d``, ``cm/d``, ``cm/s``, ``m/s``)."""
+    if unit not in FLUX_UNITS:
+        raise ValueError(f"display unit {unit!r} not one of {', '.join(FLUX_UNITS)}")
+    return FLUX_UNITS[unit]
+
+
+def apply_style() -> None:
+    """The shared figure style."""
+    plt.rcParams.update({
+        "figure.dpi": 110, "savefig.dpi": 110, "font.size": 9, "axes.titlesize": 10,
+        "axes.grid": False, "axes.spines.top": False, "axes.spines.right": False,
+        "legend.frameon": False,
+    })
+
+
+def save(fig: plt.Figure, path: str | Path) -> Path:
+    """Write a figure atomically and close it."""
+    path = Path(path)
+    write_with(path, lambda tmp: fig.savefig(tmp, format=path.suffix.lstrip(".") or "png",
+                                             bbox_inches="tight"))
+    plt.close(fig)
+    return path
+
+
+def _streamlines(ax, ds: xr.Dataset) -> None:
+    """Flow paths from qx, qz interpolated to a regular grid (streamplot needs one)."""
+    x = ds["x"].values
+    z = ds["z"].values[::-1]
+    qx = ds["qx"].values[::-1]
+    qz = ds["qz"].values[::-1]
+    if x.size < 3 or z.size < 3:
+        return
+    zi = np.linspace(z[0], z[-1], max(z.size, 40))
+    xi = np.linspace(x[0], x[-1], max(x.size, 40))
+
+    def regrid(a):
+        by_col = np.array([np.interp(zi, z, a[:, j], left=np.nan, right=np.nan) for j in range(x.size)]).T
+        return np.array([np.interp(xi, x, row, left=np.nan, right=np.nan) for row in by_col])
+
+    u, w = regrid(qx), regrid(qz)
+    speed = np.hypot(u, w)
+    if not np.isfinite(speed).any() or np.nanmax(speed) == 0:
+        return
+    # equal visual weight for slow and fast flow: directions only
+    with np.errstate(invalid="ignore", divide="ignore"):
+        un, wn = u / speed, w / speed
+    ax.streamplot(xi, zi, np.ma.masked_invalid(un), np.ma.masked_invalid(wn), color="k", linewidth=0.6,
+                  density=1.0, arrowsize=0.7, broken_streamlines=True)
+
+
+def section_figure(ds: xr.Dataset, path: str | Path, unit: str = "m/d", time_index: int | None = None) -> Path:
+    """Head contours and flow paths over the zones, with the bed-flux profile beneath."""
+    apply_style()
+    if "time" in ds.dims:
+        ds = ds.isel(time=-1 if time_index is None else time_index)
+    fac = flux_factor(unit)
+    fig, (ax, axf) = plt.subplots(2, 1, figsize=(8, 6), sharex=True, gridspec_kw={"height_ratios": [2.2, 1]})
+    xe, ze = ds["x_edge"].values, ds["z_edge"].values
+    zone = np.ma.masked_less(ds["zone"].values.astype(float), 0)
+    from matplotlib.colors import ListedColormap
+
+    names = ds.attrs.get("zone_names", "").split(",")
+    ax.pcolormesh(xe, ze, zone, cmap=ListedColormap(ZONE_GREYS[: max(len(names), 1)]), vmin=-0.5,
+                  vmax=len(ZONE_GREYS[: max(len(names), 1)]) - 0.5, shading="flat")
+    head = ds["head"].values
+    if np.isfinite(head).sum() > 4 and np.nanmax(head) > np.nanmin(head) and min(head.shape) > 1:
+        cs = ax.contour(ds["x"].values, ds["z"].values, np.ma.masked_invalid(head), levels=12, cmap=HEAD_MAP,
+                        linewidths=1.0)
+        ax.clabel(cs, fontsize=6, fmt="%.3f")
+    _streamlines(ax, ds)
+    ax.plot(ds["x"].values, ds["ground"].values, color="#4d3319", lw=1.5, label="ground")
+    stage = float(ds["stage"].values)
+    if np.isfinite(stage):
+        wet = np.isfinite(ds["bed_flux"].values)
+        ax.plot(ds["x"].values, np.where(wet, stage, np.nan), color="#2166ac", lw=2, label="stage")
+    ax.set_ylabel("elevation (m)")
+    ax.set_title(ds.attrs.get("title", "section"))
+    for i, n in enumerate(names):
+        ax.plot([], [], "s", color=ZONE_GREYS[i % len(ZONE_GREYS)], label=f"zone {n}", mec="0.4")
+    ax.legend(loc="lower left", fontsize=7, ncol=3)
+    bed_profile(axf, ds, fac, unit)
+    axf.set_xlabel("x (m)")
+    fig.tight_layout()
+    return save(fig, path)
+
+
+def bed_profile(ax, ds: xr.Dataset, fac: float, unit: str) -> None:
+    """Bed flux along x with gaining (positive) and losing (negative) reaches shaded."""
+    x = ds["x"].values
+    q = ds["bed_flux"].values * fac
+    ax.axhline(0.0, color="0.5", lw=0.8)
+    ax.plot(x, q, color="k", lw=1.2)
+    ax.fill_between(x, q, 0, where=np.nan_to_num(q) > 0, color=GAINING, alpha=0.45, label="gaining", step=None)
+    ax.fill_between(x, q, 0, where=np.nan_to_num(q) < 0, color=LOSING, alpha=0.45, label="losing")
+    ax.set_ylabel(f"bed flux ({unit})\nup = gaining")
+    ax.legend(loc="best", fontsize=7)
+
+
+def bed_flux_map(ds: xr.Dataset, path: str | Path, unit: str = "m/d") -> Path:
+    """Bed flux as a colour map over time and x, with the stage hydrograph above it."""
+    apply_style()
+    fac = flux_factor(unit)
+    t_h = ds["time"].values / 3600.0
+    fig, (ax_s, ax) = plt.subplots(2, 1, figsize=(8, 5.5), sharex=True, gridspec_kw={"height_ratios": [1, 2.5]})
+    ax_s.plot(t_h, ds["stage"].values, color="#2166ac")
+    ax_s.set_ylabel("stage (m)")
+    ax_s.set_title(ds.attrs.get("title", ""))
+    q = ds["bed_flux"].values * fac
+    lim = np.nanmax(np.abs(q)) if np.isfinite(q).any() else 1.0
+    lim = lim if lim > 0 else 1.0
+    m = ax.pcolormesh(t_h, ds["x"].values, np.ma.masked_invalid(q.T), cmap=FLUX_MAP,
+                      norm=TwoSlopeNorm(0.0, -lim, lim), shading="nearest")
+    fig.colorbar(m, ax=[ax_s, ax], label=f"bed flux ({unit}), up = gaining", shrink=0.8)
+    ax.set_xlabel("time (h)")
+    ax.set_ylabel("x (m)")
+    return save(fig, path)
+
+
+def exchange_figure(ds: xr.Dataset, path: str | Path) -> Path:
+    """Net exchange per metre of channel with the stage hydrograph."""
+    apply_style()
+    t_h = ds["time"].values / 3600.0
+    ex = ds["exchange"].values * 86400.0
+    fig, ax = plt.subplots(figsize=(8, 3.5))
+    ax.axhline(0.0, color="0.5", lw=0.8)
+    ax.plot(t_h, ex, color="k", label="net exchange")
+    ax.fill_between(t_h, ex, 0, where=ex > 0, color=GAINING, alpha=0.4, label="gaining")
+    ax.fill_between(t_h, ex, 0, where=ex < 0, color=LOSING, alpha=0.4, label="losing (into bank storage)")
+    ax.set_xlabel("time (h)")
+    ax.set_ylabel("net exchange (m3/d per m)")
+    ax2 = ax.twinx()
+    ax2.plot(t_h, ds["stage"].values, color="#2166ac", ls="--", label="stage")
+    ax2.set_ylabel("stage (m)")
+    ax.legend(loc="upper right", fontsize=7)
+    return save(fig, path)
+
+
+def run_figures(ds: xr.Dataset, outdir: str | Path, unit: str = "m/d") -> list[Path]:
+    """Every figure of a run: the section; for transient runs also the flux map and exchange."""
+    outdir = Path(outdir)
+    paths = [section_figure(ds, outdir / "section.png", unit)]
+    if "time" in ds.dims and ds.sizes["time"] > 1:
+        paths.append(bed_flux_map(ds, outdir / "bed_flux_map.png", unit))
+        paths.append(exchange_figure(ds, outdir / "exchange.png"))
+    return paths

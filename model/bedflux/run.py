@@ -1,0 +1,65 @@
+"""``bedflux run``: load a scenario, simulate, and write result.nc, the summary and figures.
+
+All outputs are staged and moved into the output folder only when everything has been written,
+so bad input or a failed solve leaves nothing behind. An interrupted transient run keeps the
+outputs computed so far, marked as partial.
+"""
+from __future__ import annotations
+
+import hashlib
+import json
+import shutil
+from pathlib import Path
+
+from . import __version__
+from .atomic import staged_directory, write_text
+from .io import write_result, write_summary
+from .progress import ProgressBar
+from .scenario import Scenario, load
+from .simulate import simulate
+from .summary import summary_text
+
+
+def input_files(scenario: Scenario) -> list[Path]:
+    """The scenario file and every CSV it reads."""
+    files = [Path(scenario.source)]
+    base = Path(scenario.base_dir)
+    raw = scenario.raw
+    stream = raw.get("stream", {}) or {}
+    if "stage_csv" in stream:
+        files.append(base / stream["stage_csv"])
+    for side in (raw.get("sides", {}) or {}).values():
+        if isinstance(side, dict) and "head_csv" in side:
+            files.append(base / side["head_csv"])
+    return files
+
+
+def sha256(path: Path) -> str:
+    """Hex SHA-256 of a file."""
+    return hashlib.sha256(path.read_bytes()).hexdigest()
+
+
+def run_scenario(path: Path, outdir: Path, unit: str = "m/d", quiet: bool = False) -> dict:
+    """Run one scenario file and write its outputs; return the summary with its text."""
+    from .plots import run_figures
+
+    scenario = load(path)
+    bar = ProgressBar(enabled=not quiet, label="time steps")
+    ds = simulate(scenario, progress=bar.update if scenario.transient else None)
+    bar.close()
+    with staged_directory(outdir) as stage:
+        write_result(ds, stage / "result.nc")
+        summary = write_summary(ds, stage)
+        run_figures(ds, stage, unit)
+        inputs = stage / "inputs"
+        inputs.mkdir()
+        prov = {"bedflux_version": __version__, "inputs": {}}
+        for f in input_files(scenario):
+            shutil.copy2(f, inputs / f.name)
+            prov["inputs"][f.name] = sha256(f)
+        write_text(stage / "provenance.json", json.dumps(prov, indent=2) + "\n")
+    summary["text"] = summary_text(summary)
+    summary["partial"] = ds.attrs.get("partial", "")
+    if summary["partial"]:
+        summary["text"] += f"PARTIAL RESULT: {summary['partial']}\n"
+    return summary
