@@ -128,8 +128,13 @@ def reduce_seepage(sheet: Sheet, sites: Sites, rejected: Rejected, flags: Flags)
     """
     sheet = reject_duplicates(sheet, ("site", "time"), rejected)
     sheet, v_start, v_end = _volumes(sheet, rejected)
+    pan = "pan_diameter" if sheet.has("pan_diameter") else "pan_area"
+    empty = ~np.isfinite(sheet.numbers[pan])
+    keep = ~empty
+    sheet = reject_where(sheet, empty, pan, f"empty cell; '{pan}' is required", rejected)
+    v_start, v_end = v_start[keep], v_end[keep]
     n = sheet.numbers
-    area = pan_area(n["pan_diameter"]) if sheet.has("pan_diameter") else n["pan_area"]
+    area = pan_area(n[pan]) if pan == "pan_diameter" else n[pan]
     dv = v_end - v_start
     q = seepage_flux(dv, n["duration"], area, n["efficiency"])
     res = n["volume_resolution"] / np.sqrt(6.0) / (area * n["duration"] * n["efficiency"])

@@ -136,8 +136,14 @@ class Section:
         """No seepage faces; evapotranspiration on its linear branch."""
         return ActiveSet(np.zeros(self.grid.nx, dtype=bool), np.ones(self.et_cells.size, dtype=np.int8))
 
-    def terms(self, t: float, state: ActiveSet, steady: bool = True) -> list[Term]:
-        """The boundary and sink terms at time ``t`` for the given active set."""
+    def terms(self, t: float, state: ActiveSet, steady: bool = True,
+              u_lag: np.ndarray | None = None) -> list[Term]:
+        """The boundary and sink terms at time ``t`` for the given active set.
+
+        With a daily ET cycle in a transient run the linear ET branch is split: the daily-mean
+        part implicit (a constant matrix) and the cycle's departure from it taken at the heads
+        ``u_lag`` of the start of the step.
+        """
         g = self.grid
         cols = np.arange(g.nx)
         wet = self.submerged(t)
@@ -175,13 +181,17 @@ class Section:
                 out.append(Term(kind, side, geo.cells, geo.place, geo.conductance,
                                 geo.conductance * (head - self.h_ref)))
         if self.et_cells.size:
-            f = self.et_factor(t, steady)
+            f = np.where(self.et_cycle, self.et_factor(t, steady), 1.0)
             rate = self.et_rate * f
             ground = g.ground[self.et_cols]
             mode = state.et_mode
-            gg = np.where(mode == 1, rate / self.et_ext, 0.0)
-            # ET = rate (1 - (ground - h)/ext) on the linear branch, rate when h >= ground
+            # ET = f rate (1 - (ground - h)/ext) on the linear branch, f rate when h >= ground
             linear_r = -rate * (1.0 - (ground - self.h_ref) / self.et_ext)
+            if u_lag is None:
+                gg = np.where(mode == 1, rate / self.et_ext, 0.0)
+            else:
+                gg = np.where(mode == 1, self.et_rate / self.et_ext, 0.0)
+                linear_r = linear_r - (f - 1.0) * self.et_rate / self.et_ext * u_lag[self.et_cells]
             r = np.where(mode == 1, linear_r, np.where(mode == 2, -rate, 0.0))
             out.append(Term("evapotranspiration", "cell", self.et_cells, self.et_cols, gg, r))
         return out

@@ -1,0 +1,124 @@
+"""Slug-test and permeameter sheets to one row per test: time lag, fit quality, K, flags."""
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from ..errors import InputError
+from .flags import Flags
+from .sheets import Rejected, Sheet, reject_duplicates, reject_where
+from .slug import (bouwer_rice_k_from_lag, falling_head_fit, fit_recovery, hvorslev_k_from_lag,
+                   permeameter_kv_from_lag)
+
+
+def _test_constants(sheet: Sheet, names: tuple[str, ...], optional: tuple[str, ...],
+                    rejected: Rejected) -> tuple[Sheet, dict[str, dict[str, float]]]:
+    """Per test, the one value of each geometry column (blank cells take the test's value).
+
+    A test whose required geometry is missing or differs between its rows, or whose rows name
+    more than one site, is rejected whole.
+    """
+    tests = sheet.texts["test"]
+    bad = np.zeros(len(sheet), dtype=bool)
+    reasons: dict[str, str] = {}
+    out: dict[str, dict[str, float]] = {}
+    for test in dict.fromkeys(tests.tolist()):
+        rows = tests == test
+        values: dict[str, float] = {}
+        sites = set(sheet.texts["site"][rows].tolist())
+        if len(sites) > 1:
+            reasons[test] = f"test '{test}' names more than one site ({', '.join(sorted(sites))})"
+        for name in names + optional:
+            col = sheet.numbers[name][rows]
+            found = np.unique(col[np.isfinite(col)])
+            if found.size > 1 and not np.allclose(found, found[0], rtol=1e-9):
+                reasons[test] = f"'{name}' differs between the rows of test '{test}'"
+            elif found.size == 0 and name in names:
+                reasons[test] = f"'{name}' is not given on any row of test '{test}'"
+            values[name] = float(found[0]) if found.size else np.nan
+        if test in reasons:
+            bad |= rows
+        else:
+            out[test] = values
+    row_reasons = [reasons[t] for t in tests[bad]]
+    return reject_where(sheet, bad, "test", row_reasons, rejected), out
+
+
+def _reject_test(sheet: Sheet, test: str, reason: str, rejected: Rejected) -> None:
+    for line in sheet.line[sheet.texts["test"] == test]:
+        rejected.add(sheet.source, line, "test", reason)
+
+
+def reduce_slug(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.DataFrame:
+    """One row per slug test: T0, R^2, Hvorslev K and, where the geometry allows, Bouwer & Rice K."""
+    sheet = reject_duplicates(sheet, ("test", "time"), rejected)
+    sheet, geometry = _test_constants(
+        sheet, ("casing_radius", "screen_radius", "screen_length"),
+        ("anisotropy", "well_depth", "saturated_thickness"), rejected)
+    rows = []
+    for test, geo in geometry.items():
+        rows_of = sheet.texts["test"] == test
+        try:
+            fit = fit_recovery(sheet.numbers["time"][rows_of], sheet.numbers["displacement"][rows_of])
+        except InputError as err:
+            _reject_test(sheet, test, err.message, rejected)
+            continue
+        m = geo["anisotropy"] if np.isfinite(geo["anisotropy"]) else 1.0
+        k_h = hvorslev_k_from_lag(fit.time_lag, geo["casing_radius"], geo["screen_radius"],
+                                  geo["screen_length"], anisotropy=m)
+        k_br = np.nan
+        if np.isfinite(geo["well_depth"]) and np.isfinite(geo["saturated_thickness"]):
+            try:
+                k_br = bouwer_rice_k_from_lag(fit.time_lag, geo["casing_radius"], geo["screen_radius"],
+                                              geo["screen_length"], geo["well_depth"],
+                                              geo["saturated_thickness"])
+            except InputError as err:
+                flags.add("slug_tests", test, "bouwer_rice_refused", err.message)
+        if not fit.log_linear:
+            flags.add("slug_tests", test, "not_log_linear",
+                      f"recovery is not log-linear (R^2 = {fit.r2:.3f}, or early and late slopes differ "
+                      "by more than 25 %)")
+        rows.append({
+            "test": test,
+            "site": sheet.texts["site"][rows_of][0],
+            "n": fit.n,
+            "time_lag [s]": fit.time_lag,
+            "r2 [1]": fit.r2,
+            "k_hvorslev [m/s]": k_h,
+            "k_bouwer_rice [m/s]": k_br,
+            "flags": "" if fit.log_linear else "not_log_linear",
+        })
+    return pd.DataFrame(rows, columns=["test", "site", "n", "time_lag [s]", "r2 [1]", "k_hvorslev [m/s]",
+                                       "k_bouwer_rice [m/s]", "flags"])
+
+
+def reduce_permeameter(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.DataFrame:
+    """One row per falling-head standpipe test: time lag, R^2 and vertical K (Chen 2000)."""
+    sheet = reject_duplicates(sheet, ("test", "time"), rejected)
+    sheet, geometry = _test_constants(sheet, ("diameter", "sediment_length"), ("anisotropy",), rejected)
+    rows = []
+    for test, geo in geometry.items():
+        rows_of = sheet.texts["test"] == test
+        t, h = sheet.numbers["time"][rows_of], sheet.numbers["head"][rows_of]
+        try:
+            fit = falling_head_fit(t, h)
+        except InputError as err:
+            _reject_test(sheet, test, err.message, rejected)
+            continue
+        lag, r2, ok = fit.time_lag, fit.r2, fit.log_linear
+        m = geo["anisotropy"] if np.isfinite(geo["anisotropy"]) else 1.0
+        kv = permeameter_kv_from_lag(lag, geo["diameter"], geo["sediment_length"], m)
+        if not ok:
+            flags.add("permeameter_tests", test, "not_log_linear",
+                      f"head decline is not log-linear (R^2 = {r2:.3f}, or early and late slopes differ "
+                      "by more than 25 %)")
+        rows.append({
+            "test": test,
+            "site": sheet.texts["site"][rows_of][0],
+            "n": fit.n,
+            "time_lag [s]": lag,
+            "r2 [1]": r2,
+            "kv [m/s]": kv,
+            "flags": "" if ok else "not_log_linear",
+        })
+    return pd.DataFrame(rows, columns=["test", "site", "n", "time_lag [s]", "r2 [1]", "kv [m/s]", "flags"])

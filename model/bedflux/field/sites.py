@@ -1,0 +1,61 @@
+"""The sites sheet: where each instrument stands (x along the reach, y across, bed elevation)."""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import InputError
+from .kinds import SITES
+from .sheets import Rejected, read_sheet
+
+
+@dataclass(frozen=True)
+class Sites:
+    """Site ids with their coordinates (m) and optional transect and station labels."""
+
+    ids: np.ndarray
+    x: np.ndarray
+    y: np.ndarray
+    bed_elevation: np.ndarray
+    transect: np.ndarray
+    station: np.ndarray
+
+    def index(self, site_id: str) -> int:
+        """Position of ``site_id`` in the arrays."""
+        return int(np.flatnonzero(self.ids == site_id)[0])
+
+    def known(self) -> set[str]:
+        """The set of site ids."""
+        return set(self.ids.tolist())
+
+
+def read_sites(path: str | Path) -> Sites:
+    """Read and check the sites sheet.
+
+    Raises
+    ------
+    InputError
+        For any bad row or a repeated site id: every reading hangs on its site, so a wrong site
+        row would misplace readings silently.
+    """
+    rejected = Rejected()
+    sheet = read_sheet(path, SITES, rejected)
+    if rejected.rows:
+        _, line, column, reason = rejected.rows[0]
+        raise InputError(
+            f"{reason} (every site must be valid: readings are placed by their site; "
+            f"{len(rejected.rows)} bad row(s) in all)",
+            sheet.source,
+            f"line {line}" + (f", column '{column}'" if column else ""),
+        )
+    ids = sheet.texts["site"]
+    seen: dict[str, int] = {}
+    for k, s in enumerate(ids):
+        if s in seen:
+            raise InputError(f"site '{s}' is listed twice (first at line {seen[s]}); site ids must be unique",
+                             sheet.source, f"line {sheet.line[k]}")
+        seen[s] = int(sheet.line[k])
+    n = sheet.numbers
+    return Sites(ids, n["x"], n["y"], n["bed_elevation"], sheet.texts["transect"], sheet.texts["station"])
