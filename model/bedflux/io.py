@@ -24,9 +24,19 @@ def read_result(path: str | Path) -> xr.Dataset:
 
 
 def write_summary(ds: xr.Dataset, outdir: str | Path) -> dict:
-    """Write summary.txt and summary.json into ``outdir``; return the summary."""
+    """Write summary.txt and summary.json into ``outdir`` (with the exchange events of a
+    transient run, also events.csv); return the summary with its ``text``."""
     outdir = Path(outdir)
     s = summarise(ds)
-    write_text(outdir / "summary.txt", summary_text(s))
+    text = summary_text(s)
+    if "time" in ds.dims and ds.sizes["time"] > 1:
+        from .events import events_text, exchange_events
+
+        table, reach = exchange_events(ds)
+        write_with(outdir / "events.csv", lambda tmp: table.to_csv(tmp, index=False))
+        s["events"] = {k: (v if k != "reversals" else [list(r) for r in v]) for k, v in reach.items()}
+        text += events_text(reach, table)
+    write_text(outdir / "summary.txt", text)
     write_text(outdir / "summary.json", json.dumps(s, indent=2, allow_nan=True) + "\n")
+    s["text"] = text
     return s

@@ -15,17 +15,18 @@ from .errors import InputError
 from .grid import Grid
 from .scenario import K_MAX, K_MIN, Scenario
 
-PROPERTIES = ("kh", "kv", "ss", "sy")
+PROPERTIES = ("kh", "kv", "ss", "sy", "porosity")
 
 
 @dataclass(frozen=True)
 class Materials:
-    """``(nz, nx)`` arrays of kh, kv (m/s), ss (1/m), sy (-) and the zone index of each cell."""
+    """``(nz, nx)`` arrays of kh, kv (m/s), ss (1/m), sy, porosity (-) and the zone of each cell."""
 
     kh: np.ndarray
     kv: np.ndarray
     ss: np.ndarray
     sy: np.ndarray
+    porosity: np.ndarray
     zone: np.ndarray
     zone_names: tuple[str, ...]
 
@@ -80,8 +81,8 @@ def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] |
         if name in ("kh", "kv") and (vals.min() < K_MIN or vals.max() > K_MAX):
             raise InputError(f"field '{name}' must lie in [{K_MIN:g}, {K_MAX:g}] m/s; got "
                              f"{vals.min():.3g} to {vals.max():.3g}", where="fields")
-        if name in ("ss", "sy") and vals.min() < 0:
+        if name in ("ss", "sy", "porosity") and vals.min() < 0:
             raise InputError(f"field '{name}' must be >= 0", where="fields")
         arrays[name] = np.where(grid.active, a, arrays[name])
-    return Materials(arrays["kh"], arrays["kv"], arrays["ss"], arrays["sy"], owner,
+    return Materials(arrays["kh"], arrays["kv"], arrays["ss"], arrays["sy"], arrays["porosity"], owner,
                      tuple(z.name for z in scenario.zones))

@@ -22,6 +22,7 @@ VARIABLES: dict[str, tuple[str, str, str]] = {
     "ground": ("m", "column", "ground elevation at the column centre"),
     "kh": ("m s-1", "cell", "horizontal hydraulic conductivity"),
     "kv": ("m s-1", "cell", "vertical hydraulic conductivity"),
+    "porosity": ("1", "cell", "effective porosity (for pore velocities)"),
     "zone": ("1", "cell", "index of the material zone (see attribute zone_names)"),
     "budget_in": ("m2 s-1", "section", "flow into the aquifer through each boundary, per metre of width"),
     "budget_out": ("m2 s-1", "section", "flow out of the aquifer through each boundary, per metre of width"),
@@ -61,6 +62,7 @@ def build_dataset(section: Section, states: Sequence[Fluxes], stages: Sequence[f
         "ground": (("x",), g.ground),
         "kh": (("z", "x"), np.where(g.active, m.kh, np.nan)),
         "kv": (("z", "x"), np.where(g.active, m.kv, np.nan)),
+        "porosity": (("z", "x"), np.where(g.active, m.porosity, np.nan)),
         "zone": (("z", "x"), np.where(g.active, m.zone, -1).astype(np.int32)),
     }
     coords = {

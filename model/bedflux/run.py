@@ -17,7 +17,6 @@ from .io import write_result, write_summary
 from .progress import ProgressBar
 from .scenario import Scenario, load
 from .simulate import simulate
-from .summary import summary_text
 
 
 def input_files(scenario: Scenario) -> list[Path]:
@@ -58,7 +57,6 @@ def run_scenario(path: Path, outdir: Path, unit: str = "m/d", quiet: bool = Fals
             shutil.copy2(f, inputs / f.name)
             prov["inputs"][f.name] = sha256(f)
         write_text(stage / "provenance.json", json.dumps(prov, indent=2) + "\n")
-    summary["text"] = summary_text(summary)
     summary["partial"] = ds.attrs.get("partial", "")
     if summary["partial"]:
         summary["text"] += f"PARTIAL RESULT: {summary['partial']}\n"

@@ -58,6 +58,7 @@ class ZoneSpec:
     depth: float | None = None
     x: tuple[float, float] | None = None
     z: tuple[float, float] | None = None
+    porosity: float = 0.3
 
 
 @dataclass(frozen=True)
@@ -295,11 +296,12 @@ def _zones(zs: Any, grid: GridSpec) -> tuple[ZoneSpec, ...]:
         if "." in name or name in _TOP_KEYS or name == "sides" or not name.strip():
             raise InputError(f"name {name!r} is not allowed (no dots, not a table name)", where=where)
         seen.add(name)
-        checks.reject_unknown(z, ["name", "kh", "kv", "ss", "sy", "depth", "x", "z"], where=where)
+        checks.reject_unknown(z, ["name", "kh", "kv", "ss", "sy", "porosity", "depth", "x", "z"], where=where)
         kh = _conductivity(z, "kh", where)
         kv = _conductivity(z, "kv", where, default=kh)
         ss = checks.quantity(z, "ss", "per_length", where, default=1e-5, low=0.0, high=SS_MAX, high_hint="1/km")
         sy = checks.number(z, "sy", where, default=0.2, low=0.0, high=0.5)
+        porosity = checks.number(z, "porosity", where, default=0.3, low=0.01, high=0.7)
         depth = checks.quantity(z, "depth", "length", where, default=None, low=0.0, low_inclusive=False)
         xr = checks.interval(z, "x", where, default=None)
         zr = checks.interval(z, "z", where, default=None)
@@ -313,7 +315,7 @@ def _zones(zs: Any, grid: GridSpec) -> tuple[ZoneSpec, ...]:
                 raise InputError("give either depth (a layer) or z (a box), not both", where=where)
             if zr is not None and xr is None:
                 raise InputError("a box needs x = [a, b] as well as z", where=where)
-        out.append(ZoneSpec(name, kh, kv, ss, sy, depth, xr, zr))
+        out.append(ZoneSpec(name, kh, kv, ss, sy, depth, xr, zr, porosity))
     return tuple(out)
 
 
@@ -489,8 +491,8 @@ def _locate(raw: dict, path: str, source: str) -> tuple[Any, Any]:
     zones = raw.get("zone") or []
     names = [z.get("name") for z in zones if isinstance(z, Mapping)]
     if len(parts) == 2 and parts[0] in names:
-        if parts[1] not in ("kh", "kv", "ss", "sy", "depth"):
-            raise InputError(f"zone property '{parts[1]}' cannot be set; use kh, kv, ss, sy or depth",
+        if parts[1] not in ("kh", "kv", "ss", "sy", "porosity", "depth"):
+            raise InputError(f"zone property '{parts[1]}' cannot be set; use kh, kv, ss, sy, porosity or depth",
                              source=source, where=path)
         return zones[names.index(parts[0])], parts[1]
     node: Any = raw

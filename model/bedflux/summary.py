@@ -57,5 +57,8 @@ def summary_text(s: dict) -> str:
     if "exchange_min_m2_per_s" in s:
         lines.append(f"net exchange over the run: {s['exchange_min_m2_per_s'] * day:.4g} to "
                      f"{s['exchange_max_m2_per_s'] * day:.4g} m3/d per metre")
+    et = s["budget_out_m2_per_s"]["evapotranspiration"]
+    if et > 0:
+        lines.append(f"riparian evapotranspiration from groundwater: {et * day:.4g} m3/d per metre")
     lines.append(f"water budget closure: {s['budget_closure']:.2e} of the inflow")
     return "\n".join(lines) + "\n"

@@ -223,10 +223,18 @@ class Section:
     def storage(self, wet: np.ndarray) -> np.ndarray:
         """Storage coefficient per unknown (m^2 per m of head per metre of width): specific storage
         times cell area, plus specific yield times the column width at exposed top cells."""
-        s = self.materials.ss[self.grid.active] * self.cell_volume
+        return self.elastic_storage() + self.water_table_storage(wet)
+
+    def elastic_storage(self) -> np.ndarray:
+        """Specific storage times cell area, per unknown."""
+        return self.materials.ss[self.grid.active] * self.cell_volume
+
+    def water_table_storage(self, wet: np.ndarray) -> np.ndarray:
+        """Specific yield times column width at the top cell of each exposed column, per unknown."""
+        s = np.zeros(self.n)
         exposed = ~wet
         sy = self.materials.sy[self.grid.top_row, np.arange(self.grid.nx)]
-        np.add.at(s, self.top_cells[exposed], sy[exposed] * self.grid.dx[exposed])
+        s[self.top_cells[exposed]] = sy[exposed] * self.grid.dx[exposed]
         return s
 
     # ---------------------------------------------------------------------------- assembly

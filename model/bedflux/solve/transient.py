@@ -178,8 +178,22 @@ def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: f
     release per cell and the step's water budget."""
     t1 = t0 + dt
     wet = section.submerged(t1)
-    S = section.storage(wet)
-    base = S / dt * u0
+    was_wet = section.submerged(t0)
+    S_el = section.elastic_storage()
+    S_wt = section.water_table_storage(wet)
+    S = S_el + S_wt
+    # the water table stores water only below the ground: above it the head is ponding, not storage
+    ground_u = np.full(section.n, np.inf)
+    ground_u[section.top_cells] = section.grid.ground - section.h_ref
+    u0_wt = np.minimum(u0, ground_u)
+    # a column flooded during the step first fills its pore space up to the ground
+    fill = np.zeros(section.n)
+    newly = wet & ~was_wet
+    if newly.any():
+        top = section.top_cells[newly]
+        sy = section.materials.sy[section.grid.top_row[newly], np.nonzero(newly)[0]]
+        fill[top] = sy * section.grid.dx[newly] * np.maximum(ground_u[top] - u0[top], 0.0) / dt
+    base = S_el / dt * u0 + S_wt / dt * u0_wt - fill
     if theta != 1.0:
         base = base - (1.0 - theta) * (_apply(terms0, u0, section) - section.rhs(terms0))
     for _ in range(STEP_PASSES):
@@ -193,7 +207,7 @@ def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: f
     else:
         raise SolverError(f"seepage faces / evapotranspiration branches did not settle in the step to "
                           f"t = {t1:g} s; shorten [time] step")
-    storage_in = -S * (u1 - u0) / dt
+    storage_in = -(S_el * (u1 - u0) + S_wt * (u1 - u0_wt)) / dt - fill
     budget = _budget(section, terms1, u1, storage_in, weight=theta)
     if theta != 1.0:
         budget = _budget(section, terms0, u0, storage_in, weight=1.0 - theta, into=budget)
