@@ -495,6 +495,8 @@ def _locate(raw: dict, path: str, source: str) -> tuple[Any, Any]:
             raise InputError(f"zone property '{parts[1]}' cannot be set; use kh, kv, ss, sy, porosity or depth",
                              source=source, where=path)
         return zones[names.index(parts[0])], parts[1]
+    if parts == ["recharge", "rate"] and "recharge" not in raw:
+        raw["recharge"] = {}
     node: Any = raw
     for i, p in enumerate(parts[:-1]):
         if isinstance(node, list) and p.isdigit() and int(p) < len(node):

@@ -89,3 +89,31 @@ def test_scatter_detection_and_fill_flags(campaign, tmp_path):
     assert ("bag_fill", "A3 line 6") in got
     m = pd.read_csv(out / "seepage_meters.csv").set_index("site")
     assert m.loc["A3", "mean [m/s]"] < 0  # the bag lost water: recharge
+
+
+def test_velocity_head_and_sign_flags(campaign, tmp_path):
+    # Sickbert & Peterson (2014): flow over the bed lowers the pressure the stream leg sees, so a
+    # head difference smaller than the velocity head does not resolve the gradient's sign.
+    # A1: 2 mm of head (0.3 cm reading on air ~ 3 mm), velocity head 10 mm.
+    campaign("manometer.csv", "site,time [h],depth [cm],reading [cm],fluid_density [kg/m^3],resolution [mm]\n"
+                              "A1,1,30,0.3,1.2,0.1\nA2,1,30,-5,820,0.1\n")
+    campaign("velocity.csv", "site,time [h],head_difference [mm]\nA1,1,10\n")
+    out = tmp_path / "out"
+    run_field(campaign.folder, out, quiet=True)
+    flags = pd.read_csv(out / "flags.csv")
+    got = set(zip(flags["flag"], flags["item"]))
+    assert ("velocity_head", "A1 at 0.3 m") in got
+    # A2's meter gains while its gradient points down: the signs disagree.
+    assert ("sign_disagrees", "A2 at 0.3 m") in got
+    v = pd.read_csv(out / "velocity_readings.csv")
+    assert v["velocity [m/s]"].iloc[0] == pytest.approx(np.sqrt(2 * 9.80665 * 0.010), rel=1e-9)
+
+
+def test_too_few_meters_for_a_map(campaign, tmp_path):
+    rows = ["site,time [h],duration [min],volume_start [mL],volume_end [mL],pan_area [m^2]",
+            "A1,1,60,1000,1400,0.25", "A2,1,60,1000,1500,0.25", "B1,1,60,1000,1300,0.25"]
+    campaign("seepage.csv", "\n".join(rows) + "\n")
+    out = tmp_path / "out"
+    summary = run_field(campaign.folder, out, quiet=True)
+    assert "no map" in summary["reach"]["note"]
+    assert not (out / "bed_flux_map.png").exists()

@@ -162,6 +162,7 @@ def reduce_manometer(sheet: Sheet, sites: Sites, rejected: Rejected, flags: Flag
                 "x [m]": sites.x[i],
                 "y [m]": sites.y[i],
                 "depth [m]": depth,
+                "opening_elevation [m]": sites.bed_elevation[i] - depth,
                 "time [s]": float(g["time [s]"].mean()),
                 "n": s_v.n,
                 "head_difference [m]": dh_mean,

@@ -29,10 +29,10 @@ CV_LIMIT = 0.30
 SINGLE_READING_RELATIVE_ERROR = 0.20
 
 
-def _positive(name: str, value: np.ndarray, strict: bool = True) -> None:
-    bad = ~(value > 0) if strict else ~(value >= 0)
+def _positive(name: str, value: np.ndarray) -> None:
+    bad = ~(value > 0)
     if np.any(bad):
-        raise InputError(f"{name} must be {'> 0' if strict else '>= 0'}; got {value[bad].ravel()[0]!r}")
+        raise InputError(f"{name} must be > 0; got {value[bad].ravel()[0]!r}")
 
 
 def seepage_flux(
@@ -191,7 +191,9 @@ def _meters(readings: pd.DataFrame, sites: Sites, flags: Flags) -> pd.DataFrame:
                 "site": site_id,
                 "x [m]": sites.x[i],
                 "y [m]": sites.y[i],
+                "bed_elevation [m]": sites.bed_elevation[i],
                 "transect": sites.transect[i],
+                "station": sites.station[i],
                 "time [s]": mid,
                 "n": s.n,
                 "mean [m/s]": s.mean,

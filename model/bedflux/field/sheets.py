@@ -58,10 +58,6 @@ class SheetSpec:
     columns: tuple[Column, ...]
     one_of: tuple[tuple[str, ...], ...] = ()
 
-    def column(self, name: str) -> Column:
-        """The column called ``name``."""
-        return next(c for c in self.columns if c.name == name)
-
 
 @dataclass
 class Rejected:
