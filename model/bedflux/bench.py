@@ -137,7 +137,7 @@ def _case_column() -> dict:
 
     d = {"grid": {"x": [0, 1], "bottom": -20.0, "dx": 1.0, "dz": 0.01}, "ground": {"elevation": 0.0},
          "zone": [{"name": "sand", "kh": 1e-4, "ss": 1e-4}],
-         "stream": {"wave": {"mean": 0.0, "amplitude": 0.3, "period": "1 d"}},
+         "stream": {"wave": {"mean": 0.5, "amplitude": 0.3, "period": "1 d"}},
          "time": {"end": "10000 min", "step": "1 min", "output_every": "1000 min"}}
     s = bedflux.Scenario.from_dict(d)
     t0 = time.perf_counter()

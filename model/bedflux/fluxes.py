@@ -67,11 +67,11 @@ def derive(section: Section, u: np.ndarray, terms: list[Term], storage_inflow: n
     left = np.zeros(shape); right = np.zeros(shape); lower = np.zeros(shape); upper = np.zeros(shape)
     hf, vf = section.hfaces, section.vfaces
     vx = hf.conductance * (u[hf.lo] - u[hf.hi]) / hf.area
-    right[hf.lo_rc] = vx
-    left[hf.hi_rc] = vx
+    right.flat[hf.lo_pos] = vx
+    left.flat[hf.hi_pos] = vx
     vz = vf.conductance * (u[vf.lo] - u[vf.hi]) / vf.area
-    upper[vf.lo_rc] = vz
-    lower[vf.hi_rc] = vz
+    upper.flat[vf.lo_pos] = vz
+    lower.flat[vf.hi_pos] = vz
 
     top_flux = np.zeros(g.nx)
     budget_in = {k: 0.0 for k in BUDGET_LINES}

@@ -24,66 +24,81 @@ class Faces:
     """Interior faces: unknown numbers of the two cells, conductance and face area.
 
     ``lo``/``hi`` are the left/right cells for horizontal faces and the lower/upper cells for
-    vertical faces; the flow ``C (h_lo - h_hi)`` is then in +x or +z.
+    vertical faces; the flow ``C (h_lo - h_hi)`` is then in +x or +z. ``lo_pos``/``hi_pos`` are
+    the cells' flat positions in the ``(nz, nx)`` grid.
     """
 
     lo: np.ndarray
     hi: np.ndarray
     conductance: np.ndarray
     area: np.ndarray
-    lo_rc: tuple[np.ndarray, np.ndarray]
-    hi_rc: tuple[np.ndarray, np.ndarray]
+    lo_pos: np.ndarray
+    hi_pos: np.ndarray
+
+
+def _pairs(active: np.ndarray, offset_rows: int, offset_cols: int) -> tuple[np.ndarray, np.ndarray]:
+    """Flat positions (a, b) of active cell pairs with b = a + (offset_rows, offset_cols)."""
+    nz, nx = active.shape
+    a_mask = active[: nz - offset_rows, : nx - offset_cols] & active[offset_rows:, offset_cols:]
+    f = np.flatnonzero(a_mask)
+    width = nx - offset_cols
+    a = (f // width) * nx + (f % width)
+    return a, a + offset_rows * nx + offset_cols
 
 
 def horizontal_faces(grid: Grid, mat: Materials, periodic: bool) -> Faces:
     """Faces between side-by-side active cells (and the wrap-around faces when periodic)."""
-    idx = grid.index()
-    dx = grid.dx[None, :]
-    half = np.where(grid.active, dx / (2.0 * mat.kh), np.inf)
-    top = np.nan_to_num(grid.cell_top, nan=-np.inf)
-    bot = np.broadcast_to(grid.cell_bottom, idx.shape)
-    left = slice(None, -1)
-    right = slice(1, None)
-    pairs = [(np.s_[:, left], np.s_[:, right])]
-    if periodic and grid.nx > 1:
-        pairs.append((np.s_[:, -1:], np.s_[:, :1]))
-    lo, hi, cond, area, lrc, hrc = [], [], [], [], [], []
-    rows, cols = np.indices(idx.shape)
-    for a, b in pairs:
-        both = grid.active[a] & grid.active[b]
-        with np.errstate(invalid="ignore", divide="ignore"):
-            ar = np.minimum(top[a], top[b]) - np.maximum(bot[a], bot[b])
-            c = ar / (half[a] + half[b])
-        lo.append(idx[a][both]); hi.append(idx[b][both])
-        cond.append(c[both]); area.append(ar[both])
-        lrc.append((rows[a][both], cols[a][both])); hrc.append((rows[b][both], cols[b][both]))
-    return Faces(np.concatenate(lo), np.concatenate(hi), np.concatenate(cond), np.concatenate(area),
-                 (np.concatenate([p[0] for p in lrc]), np.concatenate([p[1] for p in lrc])),
-                 (np.concatenate([p[0] for p in hrc]), np.concatenate([p[1] for p in hrc])))
+    nx = grid.nx
+    a, b = _pairs(grid.active, 0, 1)
+    if periodic and nx > 1:
+        rows = np.flatnonzero(grid.active[:, -1] & grid.active[:, 0])
+        a = np.concatenate([a, rows * nx + nx - 1])
+        b = np.concatenate([b, rows * nx])
+    idx = grid.index().ravel()
+    kh = mat.kh.ravel()
+    dx = np.broadcast_to(grid.dx[None, :], grid.active.shape).ravel()
+    bottom = np.broadcast_to(grid.z_edges[1:, None], grid.active.shape).ravel()
+    top = bottom + grid.thickness.ravel()
+    area = np.minimum(top[a], top[b]) - np.maximum(bottom[a], bottom[b])
+    c = area / (dx[a] / (2.0 * kh[a]) + dx[b] / (2.0 * kh[b]))
+    return Faces(idx[a], idx[b], c, area, a, b)
 
 
 def vertical_faces(grid: Grid, mat: Materials) -> Faces:
     """Faces between a cell and the one above it (``lo`` is the lower cell)."""
-    idx = grid.index()
-    half = np.where(grid.active, grid.thickness / (2.0 * mat.kv), np.inf)
-    upper = np.s_[:-1, :]
-    lower = np.s_[1:, :]
-    both = grid.active[upper] & grid.active[lower]
-    dx = np.broadcast_to(grid.dx[None, :], idx.shape)[lower]
-    with np.errstate(invalid="ignore", divide="ignore"):
-        c = dx / (half[upper] + half[lower])
-    rows, cols = np.indices(idx.shape)
-    return Faces(idx[lower][both], idx[upper][both], c[both], dx[both],
-                 (rows[lower][both], cols[lower][both]), (rows[upper][both], cols[upper][both]))
+    upper, lower = _pairs(grid.active, 1, 0)
+    idx = grid.index().ravel()
+    kv = mat.kv.ravel()
+    t = grid.thickness.ravel()
+    dx = np.broadcast_to(grid.dx[None, :], grid.active.shape).ravel()[lower]
+    c = dx / (t[upper] / (2.0 * kv[upper]) + t[lower] / (2.0 * kv[lower]))
+    return Faces(idx[lower], idx[upper], c, dx, lower, upper)
 
 
 def conductance_matrix(n: int, faces: list[Faces]) -> sp.csr_matrix:
-    """The symmetric matrix ``L`` (diagonal ``sum C``, off-diagonal ``-C``) of ``n`` unknowns."""
-    lo = np.concatenate([f.lo for f in faces])
-    hi = np.concatenate([f.hi for f in faces])
-    c = np.concatenate([f.conductance for f in faces])
-    diag = np.bincount(lo, weights=c, minlength=n) + np.bincount(hi, weights=c, minlength=n)
-    rows = np.concatenate([lo, hi, np.arange(n)])
-    cols = np.concatenate([hi, lo, np.arange(n)])
-    vals = np.concatenate([-c, -c, diag])
-    return sp.csr_matrix((vals, (rows, cols)), shape=(n, n))
+    """The symmetric matrix ``L`` (diagonal ``sum C``, off-diagonal ``-C``) of ``n`` unknowns.
+
+    Built directly in CSR form: each cell has at most five slots (up, left, self, right, down),
+    filled from the face lists without sorting.
+    """
+    h, v = faces
+    cols = np.full((n, 5), -1, dtype=np.int32)
+    vals = np.zeros((n, 5))
+    cols[:, 2] = np.arange(n, dtype=np.int32)
+    # slot 0: the cell above (vertical face, this cell is lo); slot 4: the cell below
+    cols[v.lo, 0], vals[v.lo, 0] = v.hi, -v.conductance
+    cols[v.hi, 4], vals[v.hi, 4] = v.lo, -v.conductance
+    # slot 1: the cell to the left (this cell is hi); slot 3: the cell to the right
+    cols[h.hi, 1], vals[h.hi, 1] = h.lo, -h.conductance
+    cols[h.lo, 3], vals[h.lo, 3] = h.hi, -h.conductance
+    vals[:, 2] = -vals.sum(axis=1)
+    present = cols >= 0
+    indptr = np.zeros(n + 1, dtype=np.int32)
+    np.cumsum(present.sum(axis=1, dtype=np.int32), out=indptr[1:])
+    A = sp.csr_matrix((vals[present], cols[present], indptr), shape=(n, n))
+    # without wrap-around faces the slots are in column order already
+    wraps = bool(np.any(h.lo > h.hi))
+    A.has_sorted_indices = not wraps
+    if wraps:
+        A.sort_indices()
+    return A
