@@ -109,7 +109,7 @@ def _case_transient_step(n: float) -> dict:
     backsub = (time.perf_counter() - t0) / reps
     stamps = []
     t0 = time.perf_counter()
-    ds = run_transient(sec, record=lambda t, u: stamps.append(time.perf_counter()))
+    ds = run_transient(sec, on_step=lambda info: stamps.append(time.perf_counter()))
     total = time.perf_counter() - t0
     steps = int(ds.attrs["steps"])
     per_step = float(np.median(np.diff(stamps)))

@@ -78,6 +78,13 @@ class StreamSpec:
     channel: tuple[float, float] | None = None
     leakance: float | None = None
     bedform: BedformSpec | None = None
+    slope: float = 0.0
+
+    def local_stage(self, t: float, x: "np.ndarray | float") -> "np.ndarray":
+        """Stage at positions ``x``: the stage signal (which holds at x = 0) plus slope x."""
+        import numpy as np
+
+        return float(self.stage(t)) + self.slope * np.asarray(x, dtype=float)
 
 
 @dataclass(frozen=True)
@@ -381,7 +388,7 @@ def _stream(t: dict, base_dir: Path, grid: GridSpec, t_end: float) -> StreamSpec
         return None
     where = "[stream]"
     checks.reject_unknown(t, ["stage", "stage_csv", "pulse", "flood_wave", "wave", "channel", "leakance",
-                              "bedform"], where=where)
+                              "bedform", "slope"], where=where)
     stage = _signal_stage(t, base_dir, grid, t_end)
     channel = checks.interval(t, "channel", where, default=None)
     leak = checks.quantity(t, "leakance", "per_time", where, default=None, low=0.0, low_inclusive=False,
@@ -389,7 +396,12 @@ def _stream(t: dict, base_dir: Path, grid: GridSpec, t_end: float) -> StreamSpec
     bedform = None
     if "bedform" in t:
         bedform = _bedform(checks.table(t, "bedform", where))
-    return StreamSpec(stage, channel, leak, bedform)
+    slope = checks.number(t, "slope", where, default=0.0, low=-0.1, high=0.1)
+    low = min(stage.bounds(t_end)[0] + slope * x for x in (grid.x0, grid.x1))
+    if low < grid.bottom:
+        raise InputError(f"with slope = {slope:g} the stage falls to {low:g} m, below the model base "
+                         f"bottom = {grid.bottom:g} m", where=where)
+    return StreamSpec(stage, channel, leak, bedform, slope)
 
 
 def _bedform(b: dict) -> BedformSpec:

@@ -101,6 +101,7 @@ class Section:
     et_rate: np.ndarray
     et_ext: np.ndarray
     et_cycle: np.ndarray
+    et_zone: np.ndarray
     cell_volume: np.ndarray = field(repr=False)
 
     @property
@@ -115,10 +116,13 @@ class Section:
 
     def submerged(self, t: float) -> np.ndarray:
         """Columns whose top face is under the stream at time ``t``."""
-        st = self.stage(t)
-        if st is None:
+        if self.scenario.stream is None:
             return np.zeros(self.grid.nx, dtype=bool)
-        return self.channel & (self.grid.ground < st)
+        return self.channel & (self.grid.ground < self.local_stage(t))
+
+    def local_stage(self, t: float) -> np.ndarray:
+        """Stage above each column at time ``t`` (the stage plus the water-surface slope)."""
+        return self.scenario.stream.local_stage(t, self.grid.xc)
 
     def et_factor(self, t: float, steady: bool) -> float:
         """Multiplier of the ET rate at time ``t``: 1, or the daily cycle in transient runs.
@@ -155,7 +159,7 @@ class Section:
             if sc.leakance is not None:
                 half = half + 1.0 / sc.leakance
             cond = dx[wet] / half
-            head = self.stage(t) + self.bed_head[wet]
+            head = self.local_stage(t)[wet] + self.bed_head[wet]
             out.append(Term("stream", "top", self.top_cells[wet], cols[wet], cond, cond * (head - self.h_ref)))
         dry = ~wet
         seep = dry & state.seepage
@@ -176,7 +180,11 @@ class Section:
                 q = float(spec.signal(t))
                 out.append(Term(side, side, geo.cells, geo.place, np.zeros(geo.cells.size), q * geo.area))
             else:
-                head = self.stage(t) if spec.kind == "stream" else float(spec.signal(t))
+                if spec.kind == "stream":
+                    x_side = g.x_edges[0] if side == "left" else g.x_edges[-1]
+                    head = float(self.scenario.stream.local_stage(t, x_side))
+                else:
+                    head = float(spec.signal(t))
                 kind = "stream" if spec.kind == "stream" else side
                 out.append(Term(kind, side, geo.cells, geo.place, geo.conductance,
                                 geo.conductance * (head - self.h_ref)))
@@ -288,9 +296,9 @@ def _reference_head(scenario: Scenario, grid: Grid) -> float:
 
 
 def _evapotranspiration(scenario: Scenario, grid: Grid, idx: np.ndarray):
-    cells, cols, rate, ext, cyc = [], [], [], [], []
+    cells, cols, rate, ext, cyc, zone = [], [], [], [], [], []
     zc = grid.z_centre
-    for r in scenario.riparian:
+    for iz, r in enumerate(scenario.riparian):
         inside = np.nonzero((grid.xc >= r.x[0]) & (grid.xc <= r.x[1]))[0]
         for_cols = inside
         if for_cols.size == 0:
@@ -310,11 +318,13 @@ def _evapotranspiration(scenario: Scenario, grid: Grid, idx: np.ndarray):
             rate.append(r.rate * grid.dx[for_cols[cc]] * w[rr, cc])
         n = cells[-1].size
         ext.append(np.full(n, r.extinction_depth)); cyc.append(np.full(n, r.daily_cycle))
+        zone.append(np.full(n, iz))
     if not cells:
         e = np.zeros(0)
-        return np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64), e, e, np.zeros(0, dtype=bool)
+        i = np.zeros(0, dtype=np.int64)
+        return i, i, e, e, np.zeros(0, dtype=bool), i
     return (np.concatenate(cells), np.concatenate(cols), np.concatenate(rate), np.concatenate(ext),
-            np.concatenate(cyc))
+            np.concatenate(cyc), np.concatenate(zone))
 
 
 def discretise(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = None) -> Section:

@@ -17,6 +17,7 @@ Steps are shortened where needed so that outputs fall exactly on the requested t
 from __future__ import annotations
 
 from collections import OrderedDict
+from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
@@ -35,6 +36,27 @@ CACHE_SIZE = 8
 RANNACHER_STEPS = 2
 #: Passes allowed per step for seepage faces and ET branches to settle.
 STEP_PASSES = 8
+
+
+@dataclass
+class StepInfo:
+    """Everything one step used: for sensitivities and tests (see :func:`run_transient`)."""
+
+    t0: float
+    t1: float
+    dt: float
+    theta: float
+    u0: np.ndarray
+    u1: np.ndarray
+    u0_wt: np.ndarray
+    terms0: list[Term]
+    terms1: list[Term]
+    factor: Factor
+    elastic: np.ndarray
+    water_table: np.ndarray
+    fill: np.ndarray
+    flooded: np.ndarray
+    state: ActiveSet
 
 
 class FactorCache:
@@ -91,7 +113,8 @@ def _apply(terms: list[Term], u: np.ndarray, section: Section) -> np.ndarray:
 
 
 def run_transient(section: Section, progress: Callable[[float], None] | None = None,
-                  record: Callable[[float, np.ndarray], None] | None = None) -> xr.Dataset:
+                  on_start: Callable[[np.ndarray, list[Term], object], None] | None = None,
+                  on_step: Callable[[StepInfo], None] | None = None) -> xr.Dataset:
     """Run a transient scenario and return the Dataset with a ``time`` dimension.
 
     Parameters
@@ -100,8 +123,11 @@ def run_transient(section: Section, progress: Callable[[float], None] | None = N
         The discretised transient scenario.
     progress
         Called with the fraction of the run done.
-    record
-        Called with ``(t, u)`` after every step (sensitivity and test hooks).
+    on_start
+        Called with ``(u, terms, steady_solution)`` of the initial state (the steady solution is
+        None when ``[initial] head`` is given).
+    on_step
+        Called with the :class:`StepInfo` of every step (sensitivities, timing).
 
     An interrupt (Ctrl-C) ends the run cleanly: the Dataset holds the outputs so far and its
     ``partial`` attribute says where it stopped.
@@ -110,6 +136,7 @@ def run_transient(section: Section, progress: Callable[[float], None] | None = N
     ts = sc.time
     theta = 0.5 if ts.scheme == "crank-nicolson" else 1.0
     times = output_times(ts.end, ts.output_every)
+    init = None
     if sc.initial_head is None:
         init = solve_steady(section, 0.0, method="direct")
         u, state = init.u, init.state
@@ -120,6 +147,8 @@ def run_transient(section: Section, progress: Callable[[float], None] | None = N
     cache = FactorCache(section)
     t = 0.0
     terms0 = section.terms(t, state, steady=False, u_lag=u)
+    if on_start is not None:
+        on_start(u, terms0, init)
     # at t = 0 storage takes up whatever the boundaries bring in (zero for a steady start)
     release0 = _apply(terms0, u, section) - section.rhs(terms0)
     states: list[Fluxes] = [derive(section, u, terms0, release0, wet=section.submerged(0.0))]
@@ -135,16 +164,16 @@ def run_transient(section: Section, progress: Callable[[float], None] | None = N
                     dt = t_out - t
                 if theta != 1.0 and steps < RANNACHER_STEPS:
                     # damp the undamped high modes of Crank-Nicolson after the start (Rannacher 1984)
-                    for _ in range(2):
-                        u, state, terms0, storage_in, budget = _step(section, cache, u, t, dt / 2, 1.0,
-                                                                     state, terms0)
-                        t += dt / 2
+                    parts = [(dt / 2, 1.0), (dt / 2, 1.0)]
                 else:
-                    u, state, terms0, storage_in, budget = _step(section, cache, u, t, dt, theta, state, terms0)
-                    t += dt
+                    parts = [(dt, theta)]
+                for h, th in parts:
+                    info, storage_in, budget = _step(section, cache, u, t, h, th, state, terms0)
+                    u, state, terms0 = info.u1, info.state, info.terms1
+                    t += h
+                    if on_step is not None:
+                        on_step(info)
                 steps += 1
-                if record is not None:
-                    record(t, u)
                 if progress is not None:
                     progress(t / ts.end)
             fl = derive(section, u, terms0, storage_in, wet=section.submerged(t))
@@ -174,8 +203,8 @@ def _budget(section: Section, terms: list[Term], u: np.ndarray, storage_in: np.n
 
 def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: float, theta: float,
           state: ActiveSet, terms0: list[Term]):
-    """One step from ``t0`` to ``t0 + dt``; returns the new heads, active set, terms, storage
-    release per cell and the step's water budget."""
+    """One step from ``t0`` to ``t0 + dt``; returns its :class:`StepInfo`, the storage release
+    per cell and the step's water budget."""
     t1 = t0 + dt
     wet = section.submerged(t1)
     was_wet = section.submerged(t0)
@@ -214,4 +243,5 @@ def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: f
     bin_, bout = budget
     bin_["storage"] = float(storage_in[storage_in > 0].sum())
     bout["storage"] = -float(storage_in[storage_in < 0].sum())
-    return u1, state, terms1, storage_in, (bin_, bout)
+    info = StepInfo(t0, t1, dt, theta, u0, u1, u0_wt, terms0, terms1, factor, S_el, S_wt, fill, newly, state)
+    return info, storage_in, (bin_, bout)
