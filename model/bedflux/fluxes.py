@@ -18,7 +18,12 @@ BUDGET_LINES = ("stream", "recharge", "seepage_face", "evapotranspiration", "lef
 
 @dataclass
 class Fluxes:
-    """Derived fields of one solved state (all SI)."""
+    """Derived fields of one solved state (all SI).
+
+    ``exchange`` is the net exchange with the stream per metre of channel (m^2/s, positive when
+    gaining) at the instant of the state. In transient runs the budget lines are means over the
+    step that ended at that instant (so that they close with the storage change of the step).
+    """
 
     head: np.ndarray
     qx: np.ndarray
@@ -27,11 +32,7 @@ class Fluxes:
     bed_flux: np.ndarray
     budget_in: dict[str, float]
     budget_out: dict[str, float]
-
-    @property
-    def exchange(self) -> float:
-        """Net exchange with the stream per metre of channel (m^2/s), positive when gaining."""
-        return self.budget_out["stream"] - self.budget_in["stream"]
+    exchange: float
 
     @property
     def closure(self) -> float:
@@ -77,8 +78,11 @@ def derive(section: Section, u: np.ndarray, terms: list[Term], storage_inflow: n
     budget_in = {k: 0.0 for k in BUDGET_LINES}
     budget_out = {k: 0.0 for k in BUDGET_LINES}
     stream_cols = np.zeros(g.nx, dtype=bool)
+    exchange = 0.0
     for term in terms:
         q = term.inflow(u)
+        if term.kind == "stream":
+            exchange -= float(q.sum())
         budget_in[term.kind] += float(q[q > 0].sum())
         budget_out[term.kind] -= float(q[q < 0].sum())
         if term.face == "top":
@@ -100,4 +104,4 @@ def derive(section: Section, u: np.ndarray, terms: list[Term], storage_inflow: n
     qz = np.where(g.active, 0.5 * (lower + upper), np.nan)
     mask = stream_cols if wet is None else wet
     bed_flux = np.where(mask, top_flux, np.nan)
-    return Fluxes(head, qx, qz, top_flux, bed_flux, budget_in, budget_out)
+    return Fluxes(head, qx, qz, top_flux, bed_flux, budget_in, budget_out, exchange)

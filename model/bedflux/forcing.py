@@ -7,8 +7,9 @@ Every signal maps elapsed time t (s since the start of the run) to a value (m). 
 ``Pulse`` (base, peak, start, rise, fall)
     base before ``start``; a half-cosine rise to ``peak`` over ``rise``:
     ``base + (peak - base) (1 - cos(pi s / rise)) / 2`` with ``s = t - start``; then an exponential
-    recession ``base + (peak - base) exp(-(s - rise) / fall)``. The stage and its first
-    derivative are continuous at the start and at the peak.
+    recession ``base + (peak - base) exp(-(s - rise) / fall)``. The stage is continuous; its
+    slope is continuous at the start and at the peak from below, and drops to
+    ``-(peak - base) / fall`` at the start of the recession.
 ``FloodWave`` (base, amplitude N0, duration tau, decay delta, start)
     ``base + N0 exp(-delta s) (1 - cos(2 pi s / tau))`` for ``0 <= s <= tau``, base otherwise: the
     flood hydrograph of Cooper & Rorabaugh (1963).

@@ -419,18 +419,16 @@ class Forward:
         return d, J
 
 
-def _lag_derivative(section: Section, terms: list[Term], t: float) -> np.ndarray:
-    """``dR/du_lag`` per unknown: the lagged daily-cycle ET correction (zero without one)."""
+def _lag_derivative(section: Section, terms: list[Term], t: float, u_lag: np.ndarray) -> np.ndarray:
+    """``dR/du_lag`` per unknown: ET of a daily cycle taken at the heads of the step's start."""
     out = np.zeros(section.n)
-    if not section.et_cells.size:
+    if not section.et_cells.size or not section.et_cycle.any():
         return out
-    for term in terms:
-        if term.kind == "evapotranspiration":
-            f = np.where(section.et_cycle, section.et_factor(t, steady=False), 1.0)
-            lin = term.g > 0
-            coef = np.where(lin, -(f - 1.0) * section.et_rate / section.et_ext, 0.0)
-            out += np.bincount(term.cells, weights=coef, minlength=section.n)
-    return out
+    depth = section.grid.ground[section.et_cols] - (u_lag[section.et_cells] + section.h_ref)
+    linear = section.et_cycle & (depth > 0.0) & (depth < section.et_ext)
+    f = section.et_factor(t, steady=False)
+    coef = np.where(linear, -f * section.et_rate / section.et_ext, 0.0)
+    return np.bincount(section.et_cells, weights=coef, minlength=section.n)
 
 
 def _step_sensitivity(section: Section, info, s0: np.ndarray, s_prev: np.ndarray, kinds: list[_Kind],
@@ -443,25 +441,25 @@ def _step_sensitivity(section: Section, info, s0: np.ndarray, s_prev: np.ndarray
     """
     th, dt = info.theta, info.dt
     g = section.grid
-    clipped = info.u0_wt < info.u0  # water table above the ground at the start: no storage change there
+    clipped = info.u0_wt != info.u0  # water table held at the ground at the start: fixed there
     s0_wt = np.where(clipped[:, None], 0.0, s0)
     rhs = (info.elastic / dt)[:, None] * s0 + (info.water_table / dt)[:, None] * s0_wt
-    lag1 = _lag_derivative(section, info.terms1, info.t1)[:, None]
+    lag1 = _lag_derivative(section, info.terms1, info.t1, info.u0)[:, None]
     rhs += th * lag1 * s0
-    if info.flooded.any():
-        top = section.top_cells[info.flooded]
-        sy = section.materials.sy[g.top_row[info.flooded], np.nonzero(info.flooded)[0]]
-        ground_u = g.ground[info.flooded] - section.h_ref
+    if info.filled.any():
+        top = section.top_cells[info.filled]
+        sy = section.materials.sy[g.top_row[info.filled], np.nonzero(info.filled)[0]]
+        ground_u = g.ground[info.filled] - section.h_ref
         below = (ground_u - info.u0[top]) > 0
         coef = np.zeros(section.n)
-        coef[top] = np.where(below, sy * g.dx[info.flooded] / dt, 0.0)
+        coef[top] = np.where(below, sy * g.dx[info.filled] / dt, 0.0)
         rhs += coef[:, None] * s0
     if th != 1.0:
         diag0 = np.zeros(section.n)
         for t in info.terms0:
             diag0 += np.bincount(t.cells, weights=t.g, minlength=section.n)
         A0s = section.L @ s0 + diag0[:, None] * s0
-        lag0 = _lag_derivative(section, info.terms0, info.t0)[:, None]
+        lag0 = _lag_derivative(section, info.terms0, info.t0, info.u_prev)[:, None]
         rhs += (1.0 - th) * (-A0s + lag0 * s_prev)
     for j, (k, v) in enumerate(zip(kinds, values)):
         col = th * residual_derivative(section, info.terms1, info.u1, k, v)[0]
@@ -477,8 +475,8 @@ def _step_sensitivity(section: Section, info, s0: np.ndarray, s_prev: np.ndarray
             sel = top_in & (wt[section.top_cells] > 0)
             dS[section.top_cells[sel]] = g.dx[sel]
             col -= dS * (info.u1 - info.u0_wt) / dt
-            if info.flooded.any():
-                fz = info.flooded & top_in
+            if info.filled.any():
+                fz = info.filled & top_in
                 if fz.any():
                     cells = section.top_cells[fz]
                     col[cells] -= info.fill[cells] / v

@@ -298,13 +298,19 @@ def test_column_reversal_vs_convolution():
         assert abs(tm - te) <= COL_OUT, f"reversal at {tm / HOUR:.3f} h, convolution predicts {te / HOUR:.3f} h"
 
 
-def test_pulse_derivative_continuous_at_peak_as_documented():
-    """bedflux.forcing documents the pulse as C1 at the start and at the peak."""
+def test_pulse_slopes_as_documented():
+    """bedflux.forcing documents the pulse: slope continuous at the start (zero on both sides),
+    zero at the peak from below, and -(peak - base) / fall at the start of the recession."""
     p = PULSE
     eps = 1.0
     sig = flood_scenario("backward-euler").stream.stage
     scale = (p["peak"] - p["base"]) / min(p["rise"], p["fall"])
-    for t0 in (p["start"], p["start"] + p["rise"]):
-        l2 = (float(sig(t0)) - float(sig(t0 - eps))) / eps
-        r2 = (float(sig(t0 + eps)) - float(sig(t0))) / eps
-        assert abs(r2 - l2) <= 1e-3 * scale, f"stage slope jumps at t = {t0 / HOUR:g} h: {l2:.3g} -> {r2:.3g} m/s"
+    t0 = p["start"]
+    left = (float(sig(t0)) - float(sig(t0 - eps))) / eps
+    right = (float(sig(t0 + eps)) - float(sig(t0))) / eps
+    assert abs(right - left) <= 1e-3 * scale, f"stage slope jumps at the start: {left:.3g} -> {right:.3g} m/s"
+    tp = p["start"] + p["rise"]
+    below = (float(sig(tp)) - float(sig(tp - eps))) / eps
+    above = (float(sig(tp + eps)) - float(sig(tp))) / eps
+    assert abs(below) <= 1e-3 * scale
+    assert above == pytest.approx(-(p["peak"] - p["base"]) / p["fall"], rel=1e-3)

@@ -144,9 +144,8 @@ class Section:
               u_lag: np.ndarray | None = None) -> list[Term]:
         """The boundary and sink terms at time ``t`` for the given active set.
 
-        With a daily ET cycle in a transient run the linear ET branch is split: the daily-mean
-        part implicit (a constant matrix) and the cycle's departure from it taken at the heads
-        ``u_lag`` of the start of the step.
+        With a daily ET cycle in a transient run, ET is taken at the heads ``u_lag`` of the start
+        of the step (explicit); otherwise it is implicit on the branch of the active set.
         """
         g = self.grid
         cols = np.arange(g.nx)
@@ -189,32 +188,38 @@ class Section:
                 out.append(Term(kind, side, geo.cells, geo.place, geo.conductance,
                                 geo.conductance * (head - self.h_ref)))
         if self.et_cells.size:
-            f = np.where(self.et_cycle, self.et_factor(t, steady), 1.0)
-            rate = self.et_rate * f
             ground = g.ground[self.et_cols]
-            mode = state.et_mode
+            mode = state.et_mode.copy()
+            explicit = self.et_cycle & (u_lag is not None) & (not steady)
+            f = np.where(explicit, self.et_factor(t, steady), 1.0)
+            rate = self.et_rate * f
+            if explicit.any():
+                # daily cycle: ET taken at the heads of the start of the step (explicit); its
+                # dependence on head is weak (rate / extinction depth), so this is stable
+                depth = ground - (u_lag[self.et_cells] + self.h_ref)
+                mode = np.where(explicit, np.where(depth <= 0.0, 2, np.where(depth >= self.et_ext, 0, 1)), mode)
             # ET = f rate (1 - (ground - h)/ext) on the linear branch, f rate when h >= ground
+            implicit = (mode == 1) & ~explicit
+            gg = np.where(implicit, rate / self.et_ext, 0.0)
             linear_r = -rate * (1.0 - (ground - self.h_ref) / self.et_ext)
-            if u_lag is None:
-                gg = np.where(mode == 1, rate / self.et_ext, 0.0)
-            else:
-                gg = np.where(mode == 1, self.et_rate / self.et_ext, 0.0)
-                linear_r = linear_r - (f - 1.0) * self.et_rate / self.et_ext * u_lag[self.et_cells]
+            if explicit.any():
+                lagged = -rate * (1.0 - (ground - self.h_ref - u_lag[self.et_cells]) / self.et_ext)
+                linear_r = np.where(explicit, lagged, linear_r)
             r = np.where(mode == 1, linear_r, np.where(mode == 2, -rate, 0.0))
             out.append(Term("evapotranspiration", "cell", self.et_cells, self.et_cols, gg, r))
         return out
 
     def update_active_set(self, u: np.ndarray, terms: list[Term], t: float, state: ActiveSet) -> ActiveSet:
-        """The active set implied by the heads ``u``: seepage where the head would rise above the
-        ground, release where a seepage face would draw in more than the recharge; ET branch
+        """The active set implied by the heads ``u``: seepage where the top cell's head rises above
+        the ground, release where a seepage face would draw in more than the recharge; ET branch
         from the depth to water of each root-zone cell."""
         new = state.copy()
         g = self.grid
         wet = self.submerged(t)
         h_top = u[self.top_cells] + self.h_ref
-        # face head under recharge: h_cell + R * half-cell resistance
-        face_head = h_top + self.scenario.recharge * self.top_half
-        rise = ~wet & ~state.seepage & (face_head > g.ground)
+        # the top cell's head rising above the ground makes a seepage face; with the release rule
+        # below this is complementary (no cycling), in steady and in transient steps
+        rise = ~wet & ~state.seepage & (h_top > g.ground)
         new.seepage[rise] = True
         for term in terms:
             if term.kind == "seepage_face":

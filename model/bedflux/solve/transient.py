@@ -49,13 +49,14 @@ class StepInfo:
     u0: np.ndarray
     u1: np.ndarray
     u0_wt: np.ndarray
+    u_prev: np.ndarray
     terms0: list[Term]
     terms1: list[Term]
     factor: Factor
     elastic: np.ndarray
     water_table: np.ndarray
     fill: np.ndarray
-    flooded: np.ndarray
+    filled: np.ndarray
     state: ActiveSet
 
 
@@ -156,23 +157,36 @@ def run_transient(section: Section, progress: Callable[[float], None] | None = N
     done_times = [0.0]
     partial = ""
     steps = 0
+    damp = RANNACHER_STEPS if theta != 1.0 else 0
+    u_prev = u
+    last_key = None
     try:
         for t_out in times[1:]:
             while t < t_out - 1e-9 * max(t_out, 1.0):
                 dt = min(ts.step, t_out - t)
                 if t_out - (t + dt) < 1e-6 * ts.step:
                     dt = t_out - t
-                if theta != 1.0 and steps < RANNACHER_STEPS:
-                    # damp the undamped high modes of Crank-Nicolson after the start (Rannacher 1984)
+                if damp > 0:
+                    # damp the undamped high modes of Crank-Nicolson after the start and after every
+                    # change of the face states (Rannacher 1984): two backward-Euler half steps
                     parts = [(dt / 2, 1.0), (dt / 2, 1.0)]
+                    damp -= 1
                 else:
                     parts = [(dt, theta)]
+                pieces = []
                 for h, th in parts:
-                    info, storage_in, budget = _step(section, cache, u, t, h, th, state, terms0)
+                    info, storage_part, budget_part = _step(section, cache, u, t, h, th, state, terms0, u_prev)
+                    pieces.append((h / dt, storage_part, budget_part))
+                    u_prev = u
                     u, state, terms0 = info.u1, info.state, info.terms1
                     t += h
                     if on_step is not None:
                         on_step(info)
+                storage_in, budget = _combine(pieces)
+                key = (section.submerged(t).tobytes(), state.seepage.tobytes(), state.et_mode.tobytes())
+                if theta != 1.0 and last_key is not None and key != last_key:
+                    damp = RANNACHER_STEPS
+                last_key = key
                 steps += 1
                 if progress is not None:
                     progress(t / ts.end)
@@ -191,6 +205,16 @@ def run_transient(section: Section, progress: Callable[[float], None] | None = N
     return build_dataset(section, states, stages, done_times, attrs)
 
 
+def _combine(pieces: list) -> tuple[np.ndarray, tuple[dict, dict]]:
+    """Time-weighted mean of the storage release and budget of the parts of one step."""
+    if len(pieces) == 1:
+        return pieces[0][1], pieces[0][2]
+    storage = sum(w * st for w, st, _ in pieces)
+    bin_ = {k: sum(w * b[0][k] for w, _, b in pieces) for k in BUDGET_LINES}
+    bout = {k: sum(w * b[1][k] for w, _, b in pieces) for k in BUDGET_LINES}
+    return storage, (bin_, bout)
+
+
 def _budget(section: Section, terms: list[Term], u: np.ndarray, storage_in: np.ndarray,
             weight: float = 1.0, into: tuple[dict, dict] | None = None) -> tuple[dict, dict]:
     bin_, bout = into if into is not None else ({k: 0.0 for k in BUDGET_LINES}, {k: 0.0 for k in BUDGET_LINES})
@@ -202,30 +226,39 @@ def _budget(section: Section, terms: list[Term], u: np.ndarray, storage_in: np.n
 
 
 def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: float, theta: float,
-          state: ActiveSet, terms0: list[Term]):
+          state: ActiveSet, terms0: list[Term], u_prev: np.ndarray):
     """One step from ``t0`` to ``t0 + dt``; returns its :class:`StepInfo`, the storage release
-    per cell and the step's water budget."""
+    per cell and the step's water budget.
+
+    Water-table storage acts only below the ground: a column whose top face is a seepage face or
+    is flooded at the end of the step has its water table at the ground, so its pore space above
+    the start head fills by ``sy dx max(ground - h0, 0)`` (a known amount) and it has no
+    specific-yield term in the matrix; other exposed columns store ``sy dx (h1 - min(h0, ground))``.
+    """
     t1 = t0 + dt
+    g = section.grid
     wet = section.submerged(t1)
     was_wet = section.submerged(t0)
     S_el = section.elastic_storage()
-    S_wt = section.water_table_storage(wet)
-    S = S_el + S_wt
-    # the water table stores water only below the ground: above it the head is ponding, not storage
     ground_u = np.full(section.n, np.inf)
-    ground_u[section.top_cells] = section.grid.ground - section.h_ref
+    ground_u[section.top_cells] = g.ground - section.h_ref
+    # the water table at the start: the top cell's head, but never above the ground, and at the
+    # ground under a column that was flooded (its pores are full whatever the head at the centre)
     u0_wt = np.minimum(u0, ground_u)
-    # a column flooded during the step first fills its pore space up to the ground
-    fill = np.zeros(section.n)
-    newly = wet & ~was_wet
-    if newly.any():
-        top = section.top_cells[newly]
-        sy = section.materials.sy[section.grid.top_row[newly], np.nonzero(newly)[0]]
-        fill[top] = sy * section.grid.dx[newly] * np.maximum(ground_u[top] - u0[top], 0.0) / dt
-    base = S_el / dt * u0 + S_wt / dt * u0_wt - fill
+    u0_wt[section.top_cells[was_wet]] = ground_u[section.top_cells[was_wet]]
+    sy_top = section.materials.sy[g.top_row, np.arange(g.nx)]
+    explicit0 = np.zeros(section.n)
     if theta != 1.0:
-        base = base - (1.0 - theta) * (_apply(terms0, u0, section) - section.rhs(terms0))
+        explicit0 = (1.0 - theta) * (_apply(terms0, u0, section) - section.rhs(terms0))
     for _ in range(STEP_PASSES):
+        filled = (wet & ~was_wet) | (~wet & state.seepage)
+        S_wt = section.water_table_storage(wet | state.seepage)
+        fill = np.zeros(section.n)
+        if filled.any():
+            top = section.top_cells[filled]
+            fill[top] = sy_top[filled] * g.dx[filled] * np.maximum(ground_u[top] - u0[top], 0.0) / dt
+        S = S_el + S_wt
+        base = S_el / dt * u0 + S_wt / dt * u0_wt - fill - explicit0
         terms1 = section.terms(t1, state, steady=False, u_lag=u0)
         factor = cache.get(_state_key(section, wet, state, dt), terms1, S / dt, theta)
         u1 = factor.solve(base + theta * section.rhs(terms1))
@@ -243,5 +276,6 @@ def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: f
     bin_, bout = budget
     bin_["storage"] = float(storage_in[storage_in > 0].sum())
     bout["storage"] = -float(storage_in[storage_in < 0].sum())
-    info = StepInfo(t0, t1, dt, theta, u0, u1, u0_wt, terms0, terms1, factor, S_el, S_wt, fill, newly, state)
+    info = StepInfo(t0, t1, dt, theta, u0, u1, u0_wt, u_prev, terms0, terms1, factor, S_el, S_wt, fill,
+                    filled, state)
     return info, storage_in, (bin_, bout)
