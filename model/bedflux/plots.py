@@ -173,3 +173,70 @@ def run_figures(ds: xr.Dataset, outdir: str | Path, unit: str = "m/d") -> list[P
         paths.append(bed_flux_map(ds, outdir / "bed_flux_map.png", unit))
         paths.append(exchange_figure(ds, outdir / "exchange.png"))
     return paths
+
+
+_KIND_UNITS = {"head": ("head (m)", 1.0), "vhg": ("vertical gradient (-), up > 0", 1.0),
+               "seepage": ("seepage flux (m/d), up > 0", 86400.0)}
+
+
+def observed_vs_simulated(residuals, path: str | Path) -> Path:
+    """Observed against simulated values with error bars (2 sigma), one panel per kind."""
+    apply_style()
+    kinds = [k for k in ("head", "vhg", "seepage") if (residuals["kind"] == k).any()]
+    fig, axes = plt.subplots(1, len(kinds), figsize=(3.6 * len(kinds), 3.4), squeeze=False)
+    for ax, k in zip(axes[0], kinds):
+        r = residuals[residuals["kind"] == k]
+        label, f = _KIND_UNITS[k]
+        ax.errorbar(r["simulated"] * f, r["value"] * f, yerr=2 * r["sigma"] * f, fmt="o", ms=3.5,
+                    color="k", ecolor="0.5", capsize=2)
+        lo = float(min(r["simulated"].min(), r["value"].min())) * f
+        hi = float(max(r["simulated"].max(), r["value"].max())) * f
+        pad = 0.05 * (hi - lo if hi > lo else abs(hi) + 1e-12)
+        ax.plot([lo - pad, hi + pad], [lo - pad, hi + pad], color=GAINING, lw=1)
+        ax.set_xlabel(f"simulated {label}")
+        ax.set_ylabel(f"observed {label}")
+        ax.set_title(k)
+    fig.tight_layout()
+    return save(fig, path)
+
+
+def residual_figure(residuals, path: str | Path) -> Path:
+    """Weighted residuals against x and against time."""
+    apply_style()
+    fig, (a, b) = plt.subplots(1, 2, figsize=(8, 3.2), sharey=True)
+    markers = {"head": "s", "vhg": "^", "seepage": "o"}
+    for k, r in residuals.groupby("kind"):
+        a.plot(r["x"], r["weighted_residual"], markers.get(k, "o"), ms=4, label=k, mfc="none", color="k")
+        b.plot(r["time"] / 3600.0, r["weighted_residual"], markers.get(k, "o"), ms=4, mfc="none", color="k")
+    for ax in (a, b):
+        ax.axhline(0, color="0.5", lw=0.8)
+        ax.axhspan(-2, 2, color="0.92", zorder=0)
+    a.set_xlabel("x (m)")
+    b.set_xlabel("time (h)")
+    a.set_ylabel("(observed - simulated) / sigma")
+    a.legend(fontsize=7)
+    fig.tight_layout()
+    return save(fig, path)
+
+
+def parameter_intervals(result, path: str | Path) -> Path:
+    """Best values and 95 % intervals, relative to the best value (log scale)."""
+    apply_style()
+    paths = result.paths
+    fig, ax = plt.subplots(figsize=(6, 0.5 + 0.45 * len(paths)))
+    for i, p in enumerate(paths):
+        best = result.best[p]
+        lo, hi = result.ci95[p]
+        if best > 0 and lo > 0:
+            ax.plot([lo / best, hi / best], [i, i], color="k", lw=2)
+        else:
+            ax.plot([1 - abs((best - lo) / best) if best else 0, 1 + abs((hi - best) / best) if best else 0],
+                    [i, i], color="k", lw=2)
+        ax.plot([1], [i], "o", color=GAINING)
+        ax.text(1.02, i + 0.18, f"{best:.3g}", fontsize=7)
+    ax.set_yticks(range(len(paths)), paths)
+    ax.set_xscale("log")
+    ax.axvline(1, color="0.6", lw=0.8)
+    ax.set_xlabel("95 % interval / best value")
+    fig.tight_layout()
+    return save(fig, path)

@@ -24,8 +24,6 @@ from scipy import optimize, stats
 from ..errors import SolverError
 from ..sensitivity import LN10, Forward
 
-#: A parameter with a composite scaled sensitivity below this fraction of the largest is not seen.
-CSS_FLOOR = 0.01
 #: Correlations above this are reported as parameters the data cannot tell apart.
 CORRELATION_LIMIT = 0.95
 
@@ -160,7 +158,9 @@ def summarise(forward: Forward, m: np.ndarray, evaluate=None) -> FitResult:
     paths = [q.path for q in forward.free]
     best = {q.path: q.natural(v) for q, v in zip(forward.free, m)}
     ci = {q.path: (q.natural(v - tq * s), q.natural(v + tq * s)) for q, v, s in zip(forward.free, m, sdm)}
-    scale = np.array([1.0 / LN10 if q.log else q.natural(v) for q, v in zip(forward.free, m)])
+    # Hill & Tiedeman scale by the value (b dy/db); a head has an arbitrary datum, so per metre
+    scale = np.array([1.0 / LN10 if q.log else (1.0 if _is_head(q.path) else abs(q.natural(v)) or 1.0)
+                      for q, v in zip(forward.free, m)])
     css = np.sqrt(np.mean((Jw * scale[None, :]) ** 2, axis=0))
     css_d = dict(zip(paths, css.tolist()))
     stats_d = {
@@ -180,41 +180,65 @@ def summarise(forward: Forward, m: np.ndarray, evaluate=None) -> FitResult:
                      verdicts, paths, np.asarray(m))
 
 
+def _is_head(path: str) -> bool:
+    return path.endswith(".head") or path == "stream.stage"
+
+
 def _verdicts(forward: Forward, m, css, corr, sdm, sv, Vt, J, info, s2) -> dict[str, str]:
+    """Plain-language verdict per parameter.
+
+    - not identifiable: the 95 % interval (estimation space) covers more than 80 % of the range
+      between the bounds, or the parameter loads on a (numerically) null direction of the
+      weighted Jacobian, or the observations do not respond to it at all;
+    - correlated: |correlation| with another parameter >= 0.95;
+    - well determined: the 95 % interval spans less than a factor of 3 (log parameters) or less
+      than the value itself (others); poorly determined otherwise.
+    """
     paths = [q.path for q in forward.free]
     out = {}
-    cmax = float(css.max()) if css.size else 0.0
     null = sv <= 1e-8 * (sv.max() if sv.size else 1.0)
+    tq = 1.96
     for j, q in enumerate(forward.free):
+        span = q.internal(q.high) - q.internal(q.low)
         weak_combination = any(null[k] and abs(Vt[k, j]) > 0.3 for k in range(sv.size))
-        if cmax == 0.0 or css[j] < CSS_FLOOR * cmax or weak_combination and q.prior is None:
-            out[q.path] = ("not identifiable: the observations are insensitive to it "
-                           f"(composite scaled sensitivity {css[j]:.2g}, {css[j] / cmax if cmax else 0:.1%} of the "
-                           "largest); fix it or add observations that respond to it")
+        if css[j] == 0.0 or 2 * tq * sdm[j] > 0.8 * span or (weak_combination and q.prior is None):
+            out[q.path] = ("not identifiable: the observations barely respond to it (its 95 % interval "
+                           "would cover most of the allowed range); fix it or add observations that respond to it")
             continue
         partners = [(abs(corr[j, k]), k) for k in range(len(paths)) if k != j]
         strongest = max(partners) if partners else (0.0, -1)
         if strongest[0] >= CORRELATION_LIMIT:
             k = strongest[1]
-            where = suggest_seepage_site(forward, m, j, k, info, s2)
-            out[q.path] = (f"correlated with {paths[k]} at {corr[j, k]:.2f}: fix one" +
-                           (f" or add a seepage meter near x = {where:.3g} m" if where is not None else ""))
+            where = suggest_instrument(forward, m, j, k, info, s2)
+            out[q.path] = f"correlated with {paths[k]} at {corr[j, k]:.2f}: fix one" + (f" or {where}" if where else "")
             continue
-        lo, hi = (q.natural(m[j] - 1.96 * sdm[j]), q.natural(m[j] + 1.96 * sdm[j]))
-        spread = hi / lo if q.log and lo > 0 else (hi - lo) / max(abs(q.natural(m[j])), 1e-300)
-        good = spread < 3.0 if q.log else spread < 1.0
-        out[q.path] = "well determined" if good else (
-            f"poorly determined: the 95 % interval spans a factor of {spread:.2g}" if q.log
-            else f"poorly determined: the 95 % interval is {spread:.0%} of the value wide")
+        lo, hi = (q.natural(m[j] - tq * sdm[j]), q.natural(m[j] + tq * sdm[j]))
+        if q.log:
+            spread = hi / lo
+            out[q.path] = ("well determined" if spread < 3.0 else
+                           f"poorly determined: the 95 % interval spans a factor of {spread:.2g}")
+        else:
+            width = hi - lo
+            ref = 1.0 if _is_head(q.path) else max(abs(q.natural(m[j])), 1e-300)
+            good = width < (0.2 if _is_head(q.path) else 1.0) * ref
+            out[q.path] = ("well determined" if good else
+                           f"poorly determined: the 95 % interval is {width:.3g} wide")
     return out
 
 
-def suggest_seepage_site(forward: Forward, m: np.ndarray, j: int, k: int, info: np.ndarray, s2: float,
-                         relative_sd: float = 0.3) -> float | None:
-    """The x of a new seepage meter (over the submerged bed) that most reduces the correlation
-    of parameters ``j`` and ``k``; its scatter is ``relative_sd`` of the simulated flux
-    (common practice: about 30 % for careful repeat measurements)."""
-    from ..observe import predict  # noqa: F401  (kept to document the operator used)
+#: Candidate piezometer depths for suggestions (m below the bed).
+SUGGEST_DEPTHS = (0.3, 1.0, 3.0)
+
+
+def suggest_instrument(forward: Forward, m: np.ndarray, j: int, k: int, info: np.ndarray, s2: float,
+                       relative_sd: float = 0.3, head_resolution: float = 1e-4) -> str | None:
+    """The new instrument that most reduces the correlation of parameters ``j`` and ``k``.
+
+    Candidates: a seepage meter over every submerged column (scatter ``relative_sd`` of the
+    flux, about 30 % for careful repeat measurements: common practice) and piezometers at
+    :data:`SUGGEST_DEPTHS` over the bed (gradient uncertainty = manometer resolution / depth,
+    0.1 mm of head by default: common practice).
+    """
     from ..sensitivity import Forward as _F
     from ..solve.section import discretise
 
@@ -223,20 +247,30 @@ def suggest_seepage_site(forward: Forward, m: np.ndarray, j: int, k: int, info: 
     wet = sec.submerged(scen.time.end if scen.transient else 0.0)
     if not wet.any():
         return None
-    xs = sec.grid.xc[wet]
+    xs = sec.grid.xc[wet][:: max(1, int(wet.sum()) // 40)]
     t_obs = float(forward.observations["time"].max()) if scen.transient else 0.0
-    cand = pd.DataFrame({"kind": "seepage", "x": xs, "depth": 0.0, "time": t_obs, "value": 0.0, "sigma": 1.0})
+    rows = [("seepage", x, 0.0) for x in xs] + [("vhg", x, dep) for dep in SUGGEST_DEPTHS for x in xs]
+    cand = pd.DataFrame({"kind": [r[0] for r in rows], "x": [r[1] for r in rows], "depth": [r[2] for r in rows],
+                         "time": t_obs, "value": 0.0, "sigma": 1.0})
+    base_z = sec.grid.z_edges[-1]
+    ground = np.interp(cand["x"], sec.grid.xc, sec.grid.ground)
+    cand = cand[(cand["kind"] == "seepage") | (ground - cand["depth"] > base_z)].reset_index(drop=True)
     probe = _F(forward.scenario, cand, forward.free, forward.pan_diameter)
     d, Jc = probe.predict_and_jacobian(m)
-    sig = relative_sd * np.abs(d) + 1e-9
-    best_x, best_c = None, None
-    for i in range(xs.size):
+    sig = np.where(cand["kind"] == "seepage", relative_sd * np.abs(d) + 1e-10,
+                   head_resolution / np.maximum(cand["depth"].to_numpy(), 1e-6))
+    best_i, best_c = None, None
+    for i in range(len(cand)):
         row = Jc[i] / sig[i]
-        new = np.linalg.pinv(info + np.outer(row, row) / 1.0, rcond=1e-12) * s2
+        new = np.linalg.pinv(info + np.outer(row, row), rcond=1e-12) * s2
         c = abs(new[j, k] / math.sqrt(max(new[j, j] * new[k, k], 1e-300)))
         if best_c is None or c < best_c:
-            best_x, best_c = float(xs[i]), c
-    return best_x
+            best_i, best_c = i, c
+    r = cand.iloc[best_i]
+    if r["kind"] == "seepage":
+        return f"add a seepage meter near x = {r['x']:.3g} m (correlation would fall to {best_c:.2f})"
+    return (f"add a piezometer at x = {r['x']:.3g} m, {r['depth']:.2g} m below the bed "
+            f"(correlation would fall to {best_c:.2f})")
 
 
 def sample_posterior(forward: Forward, result: FitResult, steps: int = 2000, walkers: int | None = None,

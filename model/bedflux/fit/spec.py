@@ -1,0 +1,136 @@
+"""Fit files (TOML): the scenario, the observation table and the free parameters.
+
+```
+scenario = "reach.toml"            # relative to the fit file
+observations = "field"             # an observations CSV, or a folder of field sheets
+pan_diameter = "57 cm"             # seepage-meter footprint (default 0.57 m)
+starts = 3                         # starting points (default 1)
+seed = 1
+sample = 0                         # posterior samples per walker with emcee (0: none)
+
+[[free]]
+path = "bed.kv"                    # a scenario parameter path
+low = "0.01 m/d"
+high = "50 m/d"
+start = "1 m/d"                    # default: the scenario's value
+log = true                         # default: true for kh, kv, ss, leakance
+prior = "2 m/d"                    # optional Gaussian prior and its spread (both or neither)
+prior_sd = "1 m/d"
+```
+"""
+from __future__ import annotations
+
+import tempfile
+import tomllib
+from dataclasses import dataclass
+from pathlib import Path
+
+import pandas as pd
+
+from .. import checks
+from ..errors import InputError
+from ..observe import DEFAULT_PAN_DIAMETER, check_observations, read_observations
+from ..scenario import Scenario, load
+from ..sensitivity import FreeParameter, free_parameters
+
+_KEYS = ["scenario", "observations", "pan_diameter", "starts", "seed", "sample", "free"]
+_FREE_KEYS = ["path", "low", "high", "start", "log", "prior", "prior_sd"]
+
+
+@dataclass
+class FitSpec:
+    """A validated fit file."""
+
+    source: str
+    scenario_path: Path
+    scenario: Scenario
+    observations: pd.DataFrame
+    observations_source: str
+    free: list[FreeParameter]
+    pan_diameter: float
+    starts: int
+    seed: int
+    sample: int
+
+
+def dimension_of(path: str) -> str:
+    """The dimension word of a parameter path's values (for unit strings in fit files)."""
+    last = path.rsplit(".", 1)[-1]
+    if last in ("kh", "kv", "rate", "flux"):
+        return "velocity"
+    if last == "ss":
+        return "per_length"
+    if last == "leakance":
+        return "per_time"
+    if last in ("sy", "porosity", "phase"):
+        return "dimensionless"
+    return "length"
+
+
+def observations_from(path: Path, source: str) -> pd.DataFrame:
+    """An observation table from a CSV file, or reduced from a folder of field sheets."""
+    if path.is_dir():
+        from ..field import run_field
+
+        with tempfile.TemporaryDirectory() as tmp:
+            run_field(path, Path(tmp) / "field", quiet=True)
+            return read_observations(Path(tmp) / "field" / "observations.csv")
+    if not path.exists():
+        raise InputError(f"observations '{path}' not found (a CSV table or a folder of field sheets)",
+                         source=source, where="observations")
+    return read_observations(path)
+
+
+def load_fit(path: str | Path) -> FitSpec:
+    """Read and check a fit file.
+
+    Raises
+    ------
+    InputError
+        Naming the fit file and key: unknown keys, missing scenario or observations, unknown
+        parameter paths, bounds that exclude the start.
+    """
+    path = Path(path)
+    source = str(path)
+    if not path.is_file():
+        raise InputError("fit file not found", source=source)
+    try:
+        d = tomllib.loads(path.read_text(encoding="utf-8"))
+    except tomllib.TOMLDecodeError as err:
+        raise InputError(f"not valid TOML: {err}", source=source) from None
+    try:
+        checks.reject_unknown(d, _KEYS, where="top level")
+        scen_name = checks.text(d, "scenario", "top level")
+        obs_name = checks.text(d, "observations", "top level")
+        pan = checks.quantity(d, "pan_diameter", "length", "top level", default=DEFAULT_PAN_DIAMETER,
+                              low=0.0, low_inclusive=False, high=5.0)
+        starts = int(checks.number(d, "starts", "top level", default=1, low=1, high=100))
+        seed = int(checks.number(d, "seed", "top level", default=0, low=0))
+        sample = int(checks.number(d, "sample", "top level", default=0, low=0, high=1e6))
+    except InputError as err:
+        raise err.located(source=source) from None
+    scenario = load(path.parent / scen_name)
+    observations = observations_from(path.parent / obs_name, source)
+    free_raw = d.get("free")
+    if not isinstance(free_raw, list) or not free_raw:
+        raise InputError("at least one [[free]] parameter is required", source=source, where="top level")
+    free_si = []
+    for i, f in enumerate(free_raw):
+        if not isinstance(f, dict) or "path" not in f:
+            raise InputError("each [[free]] needs a path", source=source, where=f"free parameter {i + 1}")
+        where = f"free parameter '{f['path']}'"
+        try:
+            checks.reject_unknown(f, _FREE_KEYS, where=where)
+            dim = dimension_of(str(f["path"]))
+            item = {"path": str(f["path"])}
+            for key in ("low", "high", "start", "prior", "prior_sd"):
+                if key in f:
+                    item[key] = checks.quantity(f, key, dim, where)
+            if "log" in f:
+                item["log"] = checks.flag(f, "log", where)
+        except InputError as err:
+            raise err.located(source=source) from None
+        free_si.append(item)
+    free = free_parameters(scenario, free_si, source)
+    return FitSpec(source, path.parent / scen_name, scenario, check_observations(observations, obs_name),
+                   str(path.parent / obs_name), free, pan, starts, seed, sample)
