@@ -240,3 +240,77 @@ def parameter_intervals(result, path: str | Path) -> Path:
     ax.set_xlabel("95 % interval / best value")
     fig.tight_layout()
     return save(fig, path)
+
+
+def plan_map(table, scenario, path: str | Path) -> Path:
+    """The section with the picks, and the expected spread along x after one instrument there."""
+    from .solve.section import discretise
+
+    apply_style()
+    sec = discretise(scenario)
+    g = sec.grid
+    fig, (ax, axs) = plt.subplots(2, 1, figsize=(8, 5.5), sharex=True, gridspec_kw={"height_ratios": [1.6, 1]})
+    zone = np.ma.masked_less(np.where(g.active, sec.materials.zone, -1).astype(float), 0)
+    from matplotlib.colors import ListedColormap
+
+    nz = len(scenario.zones)
+    ax.pcolormesh(g.x_edges, g.z_edges, zone, cmap=ListedColormap(ZONE_GREYS[:nz]), vmin=-0.5, vmax=nz - 0.5)
+    ax.plot(g.xc, g.ground, color="#4d3319", lw=1.5)
+    wet = sec.submerged(0.0)
+    if wet.any():
+        ax.plot(g.xc, np.where(wet, sec.local_stage(0.0), np.nan), color="#2166ac", lw=2, label="stage")
+    ground_at = np.interp(table["x"], g.xc, g.ground)
+    seep = table["kind"] == "seepage"
+    ax.plot(table["x"][seep], ground_at[seep], "v", color=GAINING, ms=9, label="seepage meter")
+    ax.plot(table["x"][~seep], ground_at[~seep] - table["depth"][~seep], "o", color=LOSING, ms=7,
+            label="piezometer opening")
+    for _, r in table.iterrows():
+        ax.annotate(str(int(r["rank"])), (r["x"], np.interp(r["x"], g.xc, g.ground) - r["depth"]),
+                    textcoords="offset points", xytext=(4, 6), fontsize=8)
+    top = float(np.max(g.ground))
+    depth_shown = max(2.0, 6 * float(table["depth"].max() if len(table) else 0.3))
+    ax.set_ylim(top - depth_shown, top + 0.5 + (float(np.nanmax(sec.local_stage(0.0))) - top if wet.any() else 0))
+    ax.set_ylabel("elevation (m)")
+    ax.set_title(f"next instruments for: {table.attrs.get('target', '')}")
+    ax.legend(loc="lower left", fontsize=7, ncol=3)
+    sx = np.asarray(table.attrs.get("single_x", []))
+    sk = np.asarray(table.attrs.get("single_kind", []))
+    sd = np.asarray(table.attrs.get("single_sd", []), dtype=float)
+    sdep = np.asarray(table.attrs.get("single_depth", []), dtype=float)
+    if sx.size:
+        s = sk == "seepage"
+        if s.any():
+            axs.plot(sx[s], sd[s], color=GAINING, label="one seepage meter at x")
+        for dep in np.unique(sdep[~s]):
+            sel = (~s) & (sdep == dep)
+            axs.plot(sx[sel], sd[sel], color=LOSING, alpha=0.4 + 0.6 * dep / max(sdep.max(), 1e-9),
+                     label=f"one piezometer {dep:.2g} m deep")
+    prior = table.attrs.get("prior_sd")
+    if prior is not None:
+        axs.axhline(prior, color="0.5", ls="--", lw=0.8, label="before")
+    axs.set_ylabel("expected spread")
+    axs.set_xlabel("x (m)")
+    axs.legend(fontsize=7)
+    fig.tight_layout()
+    return save(fig, path)
+
+
+def detectability_map(piezo, seep, path: str | Path) -> Path:
+    """How long a reversal is detectable: by manometer over x and depth, by seepage meter along x."""
+    apply_style()
+    fig, (a, b) = plt.subplots(2, 1, figsize=(8, 5), sharex=True)
+    if len(piezo):
+        xs = np.unique(piezo["x"])
+        ds_ = np.unique(piezo["depth"])
+        grid = piezo.pivot_table(index="depth", columns="x", values="detectable_duration").reindex(index=ds_, columns=xs)
+        m = a.pcolormesh(xs, ds_, grid.values / 3600.0, cmap=HEAD_MAP, shading="nearest")
+        fig.colorbar(m, ax=a, label="detectable reversal (h)")
+        a.invert_yaxis()
+    a.set_ylabel("piezometer depth (m)")
+    a.set_title("reversal seen by a manometer (beyond its reading resolution)")
+    if len(seep):
+        b.plot(seep["x"], seep["detectable_duration"] / 3600.0, color=GAINING)
+    b.set_ylabel("detectable by meter (h)")
+    b.set_xlabel("x (m)")
+    fig.tight_layout()
+    return save(fig, path)

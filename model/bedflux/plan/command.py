@@ -1,0 +1,50 @@
+"""``bedflux plan PLAN.toml -o OUTDIR``."""
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+
+import numpy as np
+
+from ..atomic import staged_directory
+
+
+def _run(args: argparse.Namespace) -> int:
+    from . import plan
+    from .detect import detectability
+    from .outputs import summary_text, write_plan
+    from .spec import load_plan
+
+    spec = load_plan(args.planfile)
+    table = plan(spec.scenario, spec.free, spec.candidates, spec.n, spec.target, existing=spec.existing,
+                 instruments=spec.instruments, min_spacing=spec.min_spacing,
+                 max_per_transect=spec.max_per_transect, length=spec.length, pan_diameter=spec.pan_diameter)
+    detect = None
+    if spec.scenario.transient:
+        from ..simulate import simulate
+
+        ds = simulate(spec.scenario)
+        detect = detectability(ds, np.asarray(spec.depths), spec.instruments.head_resolution,
+                               spec.instruments.seepage_floor)
+    with staged_directory(args.output) as stage:
+        write_plan(table, spec.scenario, stage, detect)
+        inputs = stage / "inputs"
+        inputs.mkdir()
+        (inputs / Path(args.planfile).name).write_bytes(Path(args.planfile).read_bytes())
+    if not args.quiet:
+        print(summary_text(table), end="")
+        print(f"outputs written to {args.output}/")
+    return 0
+
+
+def register(sub) -> None:
+    """Add the ``plan`` verb."""
+    p = sub.add_parser("plan", help="choose where the next seepage meters and piezometers go",
+                       description="Rank candidate seepage meters and piezometers by how much each is expected "
+                                   "to reduce the uncertainty of the target (the parameters, one of them, or a "
+                                   "prediction), by linear Bayesian data worth with the model's sensitivities; "
+                                   "map the picks and, for transient scenarios, where a reversal is detectable.")
+    p.add_argument("planfile", help="plan file (TOML)")
+    p.add_argument("-o", "--output", default="bedflux-plan", help="output folder (default: bedflux-plan)")
+    p.add_argument("-q", "--quiet", action="store_true", help="no summary on screen")
+    p.set_defaults(func=_run)

@@ -1,0 +1,121 @@
+"""What a plan should make certain: the parameters, one parameter, or a prediction.
+
+Targets (names as in plan files and ``bedflux.plan(..., target=...)``):
+
+``"parameters"``
+    all free parameters together (D-optimal: the information determinant);
+a parameter path, e.g. ``"bed.kv"``
+    that parameter (its spread reported in SI, to first order ``value ln(10) sd(log10)`` for a
+    log parameter);
+``"exchange"``
+    the net exchange per metre of channel (m^2/s; time mean for a transient run);
+``"reach_total"``
+    the net exchange times ``length`` (m^3/s over that length of channel);
+``"reversal:X"``
+    the duration (s) of the bed-flux reversal at the column nearest x = X during the transient
+    run (e.g. ``"reversal:2.5"``).
+
+A prediction's gradient with respect to the parameters is taken by central differences of the
+forward model (two runs per parameter).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import InputError
+from ..sensitivity import Forward
+
+
+@dataclass(frozen=True)
+class Target:
+    """A parsed target."""
+
+    kind: str  # parameters | parameter | exchange | reach_total | reversal
+    path: str = ""
+    x: float = 0.0
+    length: float = 1.0
+
+    def label(self) -> str:
+        return {"parameters": "all free parameters (D-optimal)", "parameter": self.path,
+                "exchange": "net exchange (m2/s per m)", "reach_total": f"reach total over {self.length:g} m (m3/s)",
+                "reversal": f"reversal duration at x = {self.x:g} m (s)"}[self.kind]
+
+
+def parse_target(text: str, paths: list[str], length: float | None = None, source: str = "plan") -> Target:
+    """Read a target name (see module doc)."""
+    if text == "parameters":
+        return Target("parameters")
+    if text in paths:
+        return Target("parameter", path=text)
+    if text == "exchange":
+        return Target("exchange")
+    if text == "reach_total":
+        if length is None or length <= 0:
+            raise InputError("target \"reach_total\" needs length = the metres of channel (> 0)", source=source,
+                             where="target")
+        return Target("reach_total", length=length)
+    if text.startswith("reversal:"):
+        try:
+            return Target("reversal", x=float(text.split(":", 1)[1]))
+        except ValueError:
+            pass
+    raise InputError(f"target {text!r} is not allowed; use \"parameters\", a free parameter path "
+                     f"({', '.join(paths)}), \"exchange\", \"reach_total\" or \"reversal:X\"", source=source,
+                     where="target")
+
+
+def prediction(forward: Forward, target: Target, m: np.ndarray) -> float:
+    """The predicted quantity at parameters ``m``."""
+    from ..events import exchange_events
+    from ..simulate import simulate
+
+    ds = simulate(forward.scenario_at(m))
+    if target.kind in ("exchange", "reach_total"):
+        ex = ds["exchange"].values
+        if "time" in ds.dims:
+            t = ds["time"].values
+            value = float(np.sum(0.5 * (ex[1:] + ex[:-1]) * np.diff(t)) / (t[-1] - t[0]))
+        else:
+            value = float(ex)
+        return value * (target.length if target.kind == "reach_total" else 1.0)
+    if target.kind == "reversal":
+        if "time" not in ds.dims:
+            raise InputError("a reversal target needs a transient scenario (a [time] table)", where="target")
+        table, _ = exchange_events(ds)
+        if table.empty:
+            raise InputError("the scenario has no submerged bed: no reversal to predict", where="target")
+        row = table.iloc[int(np.argmin(np.abs(table["x"].to_numpy() - target.x)))]
+        return float(row["reversed_duration"])
+    raise ValueError(target.kind)
+
+
+def target_gradient(forward: Forward, target: Target, m: np.ndarray, step: float = 1e-3) -> tuple[np.ndarray | None, float]:
+    """The target's gradient in the estimation space (None for D-optimal) and its value."""
+    P = forward.n_params
+    if target.kind == "parameters":
+        return None, float("nan")
+    if target.kind == "parameter":
+        j = [p.path for p in forward.free].index(target.path)
+        g = np.zeros(P)
+        g[j] = 1.0
+        return g, forward.free[j].natural(m[j])
+    value = prediction(forward, target, m)
+    g = np.zeros(P)
+    for j, p in enumerate(forward.free):
+        h = step if p.log else step * (abs(m[j]) if m[j] else (p.high - p.low))
+        up, dn = m.copy(), m.copy()
+        up[j] += h
+        dn[j] -= h
+        g[j] = (prediction(forward, target, up) - prediction(forward, target, dn)) / (2 * h)
+    return g, value
+
+
+def to_natural(forward: Forward, target: Target, m: np.ndarray, spread: float) -> float:
+    """A spread in the estimation space expressed in the target's natural units."""
+    if target.kind == "parameter":
+        j = [p.path for p in forward.free].index(target.path)
+        p = forward.free[j]
+        return spread * p.dnatural(m[j])
+    return spread
