@@ -128,6 +128,9 @@ def render_frames(ds: xr.Dataset, unit: str = "m/d", max_frames: int = MAX_FRAME
     axf.set_ylabel(f"bed flux ({unit})\nup = gaining", fontsize=7)
     axf.set_xlabel("x (m)", fontsize=7)
     shading: list = []
+    levels = np.linspace(h_lo, h_hi, 14)[1:-1]
+    zc = ds["z"].values
+    contours = None
 
     axs.plot(t_h, stage, color="#2166ac", lw=1.2)
     (marker,) = axs.plot([t_h[0]], [stage[0]], "o", color="k", ms=4)
@@ -139,6 +142,12 @@ def render_frames(ds: xr.Dataset, unit: str = "m/d", max_frames: int = MAX_FRAME
     frames = []
     for i in idx:
         mesh.set_array(np.ma.masked_invalid(head[i]).ravel())
+        if contours is not None:
+            contours.remove()
+            contours = None
+        if min(head[i].shape) > 1 and np.isfinite(head[i]).sum() > 4:
+            contours = ax.contour(x, zc, np.ma.masked_invalid(head[i]), levels=levels, colors="w",
+                                  linewidths=0.5, alpha=0.8)
         q = flux[i]
         wet = np.isfinite(q)
         stage_line.set_ydata(np.where(wet, stage[i], np.nan))
@@ -216,7 +225,12 @@ def animate(ds: xr.Dataset, path_without_suffix: str | Path, unit: str = "m/d",
 
     def write_gif(tmp: Path) -> None:
         # one shared palette keeps the colours steady from frame to frame
-        palette = frames[len(frames) // 2].quantize(colors=192, method=Image.Quantize.MEDIANCUT)
+        picks = [frames[i] for i in np.unique(np.linspace(0, len(frames) - 1, 12).astype(int))]
+        w, h = picks[0].size
+        montage = Image.new("RGB", (w, h * len(picks)))
+        for k, f in enumerate(picks):
+            montage.paste(f, (0, h * k))
+        palette = montage.quantize(colors=255, method=Image.Quantize.MEDIANCUT)
         paletted = [f.quantize(palette=palette, dither=Image.Dither.NONE) for f in frames]
         paletted[0].save(tmp, format="GIF", save_all=True, append_images=paletted[1:],
                          duration=duration, loop=0, disposal=1)
