@@ -12,6 +12,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Mapping
 
+import numpy as np
+
 from . import checks
 from .elliott_brooks import dynamic_head_amplitude
 from .errors import InputError
@@ -80,10 +82,8 @@ class StreamSpec:
     bedform: BedformSpec | None = None
     slope: float = 0.0
 
-    def local_stage(self, t: float, x: "np.ndarray | float") -> "np.ndarray":
+    def local_stage(self, t: float, x: np.ndarray | float) -> np.ndarray:
         """Stage at positions ``x``: the stage signal (which holds at x = 0) plus slope x."""
-        import numpy as np
-
         return float(self.stage(t)) + self.slope * np.asarray(x, dtype=float)
 
 

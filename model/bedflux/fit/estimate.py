@@ -156,8 +156,9 @@ def summarise(forward: Forward, m: np.ndarray, evaluate=None) -> FitResult:
     np.fill_diagonal(corr, 1.0)
     tq = stats.t.ppf(0.975, dof)
     paths = [q.path for q in forward.free]
-    best = {q.path: q.natural(v) for q, v in zip(forward.free, m)}
-    ci = {q.path: (q.natural(v - tq * s), q.natural(v + tq * s)) for q, v, s in zip(forward.free, m, sdm)}
+    best = {q.path: float(q.natural(v)) for q, v in zip(forward.free, m)}
+    ci = {q.path: (float(q.natural(v - tq * s)), float(q.natural(v + tq * s)))
+          for q, v, s in zip(forward.free, m, sdm)}
     # Hill & Tiedeman scale by the value (b dy/db); a head has an arbitrary datum, so per metre
     scale = np.array([1.0 / LN10 if q.log else (1.0 if _is_head(q.path) else abs(q.natural(v)) or 1.0)
                       for q, v in zip(forward.free, m)])

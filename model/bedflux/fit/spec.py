@@ -81,6 +81,42 @@ def observations_from(path: Path, source: str) -> pd.DataFrame:
     return read_observations(path)
 
 
+def read_toml(path: Path, what: str) -> dict:
+    """A TOML file as a dict, or an InputError naming the file."""
+    if not path.is_file():
+        raise InputError(f"{what} not found", source=str(path))
+    try:
+        return tomllib.loads(path.read_text(encoding="utf-8"))
+    except tomllib.TOMLDecodeError as err:
+        raise InputError(f"not valid TOML: {err}", source=str(path)) from None
+    except UnicodeDecodeError:
+        raise InputError("not a text file (expected UTF-8 TOML)", source=str(path)) from None
+
+
+def free_tables(d: dict, source: str) -> list[dict]:
+    """The ``[[free]]`` tables of a fit or plan file as SI dicts (units parsed by parameter)."""
+    raw = d.get("free")
+    if not isinstance(raw, list) or not raw:
+        raise InputError("at least one [[free]] parameter is required", source=source, where="top level")
+    out = []
+    for i, f in enumerate(raw):
+        if not isinstance(f, dict) or "path" not in f:
+            raise InputError("each [[free]] needs a path", source=source, where=f"free parameter {i + 1}")
+        where = f"free parameter '{f['path']}'"
+        try:
+            checks.reject_unknown(f, _FREE_KEYS, where=where)
+            item = {"path": str(f["path"])}
+            for key in ("low", "high", "start", "prior", "prior_sd"):
+                if key in f:
+                    item[key] = checks.quantity(f, key, dimension_of(item["path"]), where)
+            if "log" in f:
+                item["log"] = checks.flag(f, "log", where)
+        except InputError as err:
+            raise err.located(source=source) from None
+        out.append(item)
+    return out
+
+
 def load_fit(path: str | Path) -> FitSpec:
     """Read and check a fit file.
 
@@ -92,12 +128,7 @@ def load_fit(path: str | Path) -> FitSpec:
     """
     path = Path(path)
     source = str(path)
-    if not path.is_file():
-        raise InputError("fit file not found", source=source)
-    try:
-        d = tomllib.loads(path.read_text(encoding="utf-8"))
-    except tomllib.TOMLDecodeError as err:
-        raise InputError(f"not valid TOML: {err}", source=source) from None
+    d = read_toml(path, "fit file")
     try:
         checks.reject_unknown(d, _KEYS, where="top level")
         scen_name = checks.text(d, "scenario", "top level")
@@ -111,26 +142,7 @@ def load_fit(path: str | Path) -> FitSpec:
         raise err.located(source=source) from None
     scenario = load(path.parent / scen_name)
     observations = observations_from(path.parent / obs_name, source)
-    free_raw = d.get("free")
-    if not isinstance(free_raw, list) or not free_raw:
-        raise InputError("at least one [[free]] parameter is required", source=source, where="top level")
-    free_si = []
-    for i, f in enumerate(free_raw):
-        if not isinstance(f, dict) or "path" not in f:
-            raise InputError("each [[free]] needs a path", source=source, where=f"free parameter {i + 1}")
-        where = f"free parameter '{f['path']}'"
-        try:
-            checks.reject_unknown(f, _FREE_KEYS, where=where)
-            dim = dimension_of(str(f["path"]))
-            item = {"path": str(f["path"])}
-            for key in ("low", "high", "start", "prior", "prior_sd"):
-                if key in f:
-                    item[key] = checks.quantity(f, key, dim, where)
-            if "log" in f:
-                item["log"] = checks.flag(f, "log", where)
-        except InputError as err:
-            raise err.located(source=source) from None
-        free_si.append(item)
+    free_si = free_tables(d, source)
     free = free_parameters(scenario, free_si, source)
     return FitSpec(source, path.parent / scen_name, scenario, check_observations(observations, obs_name),
                    str(path.parent / obs_name), free, pan, starts, seed, sample)

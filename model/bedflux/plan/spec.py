@@ -30,7 +30,6 @@ high = "50 m/d"
 """
 from __future__ import annotations
 
-import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -38,7 +37,7 @@ import pandas as pd
 
 from .. import checks
 from ..errors import InputError
-from ..fit.spec import dimension_of, observations_from
+from ..fit.spec import free_tables, observations_from, read_toml
 from ..scenario import Scenario, load
 from .candidates import DEFAULT_MAX_DEPTH, Instruments, check_candidates, generate
 
@@ -75,12 +74,7 @@ def load_plan(path: str | Path) -> PlanSpec:
     """
     path = Path(path)
     source = str(path)
-    if not path.is_file():
-        raise InputError("plan file not found", source=source)
-    try:
-        d = tomllib.loads(path.read_text(encoding="utf-8"))
-    except tomllib.TOMLDecodeError as err:
-        raise InputError(f"not valid TOML: {err}", source=source) from None
+    d = read_toml(path, "plan file")
     try:
         checks.reject_unknown(d, _KEYS, where="top level")
         scen = load(path.parent / checks.text(d, "scenario", "top level"))
@@ -132,22 +126,5 @@ def load_plan(path: str | Path) -> PlanSpec:
     existing = None
     if "existing" in d:
         existing = observations_from(path.parent / str(d["existing"]), source)
-    free = []
-    for i, f in enumerate(d.get("free") or []):
-        if not isinstance(f, dict) or "path" not in f:
-            raise InputError("each [[free]] needs a path", source=source, where=f"free parameter {i + 1}")
-        where = f"free parameter '{f['path']}'"
-        try:
-            checks.reject_unknown(f, ["path", "low", "high", "start", "log", "prior", "prior_sd"], where=where)
-            item = {"path": str(f["path"])}
-            for key in ("low", "high", "start", "prior", "prior_sd"):
-                if key in f:
-                    item[key] = checks.quantity(f, key, dimension_of(item["path"]), where)
-            if "log" in f:
-                item["log"] = checks.flag(f, "log", where)
-        except InputError as err:
-            raise err.located(source=source) from None
-        free.append(item)
-    if not free:
-        raise InputError("at least one [[free]] parameter is required", source=source, where="top level")
+    free = free_tables(d, source)
     return PlanSpec(source, scen, n, target, length, existing, min_spacing, mpt, pan, cand, instruments, free, depths)

@@ -1,0 +1,29 @@
+"""``bedflux report OUTDIR [-o report.html]``."""
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+
+
+def _run(args: argparse.Namespace) -> int:
+    from . import build_report
+
+    path = build_report(Path(args.folder), Path(args.output) if args.output else None, unit=args.units)
+    if not args.quiet:
+        print(f"report written to {path}")
+    return 0
+
+
+def register(sub) -> None:
+    """Add the ``report`` verb."""
+    p = sub.add_parser("report", help="write one self-contained HTML report of a project folder",
+                       description="Search OUTDIR (and the folders below it) for what bedflux run, "
+                                   "field, fit and plan wrote, and write one HTML file with the findings "
+                                   "in plain words, the figures embedded, the tables, the scenario and fit "
+                                   "files, provenance and cautions. Print it to PDF from a browser.")
+    p.add_argument("folder", metavar="OUTDIR", help="project folder with bedflux outputs")
+    p.add_argument("-o", "--output", default=None, help="report file (default: OUTDIR/report.html)")
+    p.add_argument("--units", default="m/d", choices=["m/d", "mm/d", "cm/d", "cm/s", "m/s"],
+                   help="display unit of bed fluxes (default: m/d)")
+    p.add_argument("-q", "--quiet", action="store_true", help="print nothing on success")
+    p.set_defaults(func=_run)

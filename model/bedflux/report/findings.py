@@ -1,0 +1,426 @@
+"""The findings of a report in plain language, from the numbers the commands wrote.
+
+Every number in a finding is taken from an output file (``summary.json``, ``events.csv``,
+``field_summary.json``, ``fit_results.json``, ``plan_table.csv``/``plan_summary.json``) and
+formatted by the helpers of this module, so a test can format a value the same way and look
+for it in the report. Signs follow the project's convention: upward (groundwater into the
+stream, a gaining reach) is positive.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any, Iterable
+
+import pandas as pd
+
+from ..plots import flux_factor
+
+DAY = 86400.0
+HOUR = 3600.0
+
+#: Section of the findings each topic belongs to, in display order.
+TOPICS = {
+    "exchange": "Is the reach gaining or losing?",
+    "pulse": "Does the flood pulse reverse the exchange?",
+    "field": "What the field measurements say",
+    "conductivity": "How well is the bed conductivity known?",
+    "next": "Where to measure next",
+}
+
+_KIND_WORDS = {"seepage": "seepage meter", "vhg": "mini-piezometer (vertical gradient)",
+               "head": "piezometer (head)", "piezometer": "mini-piezometer",
+               "manometer": "mini-piezometer"}
+_PROPERTY_WORDS = {"kh": "horizontal conductivity", "kv": "vertical conductivity", "k": "conductivity",
+                   "ss": "specific storage", "sy": "specific yield", "head": "head"}
+
+
+@dataclass
+class Finding:
+    """One finding: a topic (a key of :data:`TOPICS`), the folder it came from and its sentences."""
+
+    topic: str
+    source: str
+    sentences: list[str] = field(default_factory=list)
+    title: str = ""
+
+    @property
+    def text(self) -> str:
+        """The sentences as one paragraph."""
+        return " ".join(self.sentences)
+
+
+# --------------------------------------------------------------------------- number formats
+
+def finite(v: Any) -> bool:
+    """True for a finite real number."""
+    try:
+        return v is not None and math.isfinite(float(v))
+    except (TypeError, ValueError):
+        return False
+
+
+def number(v: Any, digits: int = 3) -> str:
+    """A number to ``digits`` significant figures, in fixed notation between 0.001 and 1e6.
+
+    ``None`` and NaN give ``n/a``.
+    """
+    if not finite(v):
+        return "n/a"
+    v = float(v)
+    if v == 0.0:
+        return "0"
+    mag = math.floor(math.log10(abs(v)))
+    if -3 <= mag < 6:
+        decimals = max(digits - 1 - mag, 0)
+        text = f"{v:.{decimals}f}"
+        return "0" if float(text) == 0.0 else text
+    return f"{v:.{digits - 1}e}"
+
+
+def per_metre(m2_per_s: float) -> str:
+    """A net exchange (m^2/s) as its size in m³/d per metre of channel (sign in the words)."""
+    return f"{number(abs(m2_per_s) * DAY)} m³/d per metre of channel"
+
+
+def signed_per_metre(m2_per_s: float) -> str:
+    """A net exchange with its sign, in m³/d per metre (positive = gaining)."""
+    return f"{number(m2_per_s * DAY)} m³/d per metre"
+
+
+def length(m: float) -> str:
+    """A length in metres."""
+    return f"{number(m)} m"
+
+
+def hours(s: float) -> str:
+    """A time in seconds as hours with one decimal."""
+    return f"{float(s) / HOUR:.1f} h" if finite(s) else "n/a"
+
+
+def flux(m_per_s: float, unit: str = "m/d") -> str:
+    """A flux (m/s, signed) in a display unit."""
+    return f"{number(float(m_per_s) * flux_factor(unit))} {unit}" if finite(m_per_s) else "n/a"
+
+
+def conductivity(m_per_s: float) -> str:
+    """A hydraulic conductivity (m/s) in m/d."""
+    return f"{number(float(m_per_s) * DAY)} m/d" if finite(m_per_s) else "n/a"
+
+
+def percent(fraction: float) -> str:
+    """A fraction as a whole percentage."""
+    return f"{100 * float(fraction):.0f} %" if finite(fraction) else "n/a"
+
+
+def parameter_value(path: str, value: float) -> str:
+    """A calibrated value in a readable unit chosen from its parameter path."""
+    prop = path.rsplit(".", 1)[-1]
+    if prop in ("kh", "kv", "k"):
+        return conductivity(value)
+    if prop == "ss":
+        return f"{number(value)} 1/m"
+    if prop in ("head", "stage") or path.endswith(".stage"):
+        return f"{number(value, 5)} m"
+    if prop == "rate":
+        return f"{number(float(value) * 1000 * DAY)} mm/d"
+    return number(value)
+
+
+def _interval(path: str, lo: float, hi: float) -> str:
+    prop = path.rsplit(".", 1)[-1]
+    if prop in ("kh", "kv", "k"):
+        return f"{number(lo * DAY)} to {number(hi * DAY)} m/d"
+    return f"{parameter_value(path, lo)} to {parameter_value(path, hi)}"
+
+
+def describe_parameter(path: str) -> str:
+    """``bed.kv`` -> ``vertical conductivity of zone 'bed'``; other paths are returned as they are."""
+    parts = path.split(".")
+    if len(parts) == 2 and parts[1] in _PROPERTY_WORDS and parts[0] not in ("sides", "stream", "recharge"):
+        return f"{_PROPERTY_WORDS[parts[1]]} of zone '{parts[0]}'"
+    return path
+
+
+# --------------------------------------------------------------------------- findings
+
+def _direction(m2_per_s: float, scale: float) -> str:
+    if abs(m2_per_s) <= 1e-9 * max(scale, 1e-30):
+        return "neutral"
+    return "gaining" if m2_per_s > 0 else "losing"
+
+
+def exchange_finding(summary: dict, source: str = ".", unit: str = "m/d") -> Finding:
+    """Gaining or losing, by how much per metre of channel, and over what lengths.
+
+    Parameters
+    ----------
+    summary
+        The content of a run's ``summary.json``.
+    source
+        The run's folder (relative), named in the finding.
+    unit
+        Display unit of the bed flux.
+    """
+    ex = float(summary["exchange_m2_per_s"])
+    scale = sum(abs(float(v)) for v in (summary.get("budget_in_m2_per_s") or {}).values()) or abs(ex)
+    way = _direction(ex, scale)
+    transient = summary.get("run") == "transient"
+    when = f"At the end of the run ({hours(summary['end_time_s'])}) the" if transient and \
+        finite(summary.get("end_time_s")) else "The"
+    f = Finding("exchange", source, title=summary.get("title", ""))
+    if way == "gaining":
+        f.sentences.append(f"{when} reach is gaining: groundwater flows into the stream at a net "
+                           f"{per_metre(ex)}.")
+    elif way == "losing":
+        f.sentences.append(f"{when} reach is losing: stream water flows into the aquifer at a net "
+                           f"{per_metre(ex)}.")
+    else:
+        f.sentences.append(f"{when} net exchange with the stream is about zero: gains and losses balance.")
+    sub = float(summary.get("submerged_length_m", 0.0) or 0.0)
+    gain = float(summary.get("gaining_length_m", 0.0) or 0.0)
+    lose = float(summary.get("losing_length_m", 0.0) or 0.0)
+    if sub > 0:
+        if lose == 0 and gain > 0:
+            f.sentences.append(f"All {length(sub)} of submerged bed is gaining (losing length 0 m).")
+        elif gain == 0 and lose > 0:
+            f.sentences.append(f"All {length(sub)} of submerged bed is losing (gaining length 0 m).")
+        else:
+            f.sentences.append(f"Of {length(sub)} of submerged bed, {length(gain)} is gaining and "
+                               f"{length(lose)} losing.")
+        lo, hi = summary.get("max_losing_flux_m_per_s"), summary.get("max_gaining_flux_m_per_s")
+        if finite(lo) and finite(hi):
+            f.sentences.append(f"The bed flux ranges from {flux(lo, unit)} to {flux(hi, unit)} "
+                               "(positive upward, into the stream).")
+    else:
+        f.sentences.append("No part of the bed is under water; the exchange is through the channel "
+                           "sides only.")
+    events = summary.get("events") or {}
+    if transient and finite(events.get("initial_exchange")):
+        e0 = float(events["initial_exchange"])
+        way0 = _direction(e0, scale)
+        word = {"gaining": "gained", "losing": "lost", "neutral": "exchanged"}[way0]
+        f.sentences.append(f"At the start it {word} {per_metre(e0)}.")
+    return f
+
+
+def pulse_finding(summary: dict, events_table: pd.DataFrame | None = None, source: str = ".",
+                  unit: str = "m/d") -> Finding | None:
+    """Whether a transient run reverses the exchange, when and for how long, and bank storage.
+
+    Returns None for a steady run (no ``events`` in the summary).
+    """
+    ev = summary.get("events")
+    if not ev:
+        return None
+    f = Finding("pulse", source, title=summary.get("title", ""))
+    e0 = float(ev.get("initial_exchange", summary.get("exchange_m2_per_s", 0.0)))
+    start_word = "gaining" if e0 > 0 else "losing"
+    other_word = "losing" if e0 > 0 else "gaining"
+    reversals = ev.get("reversals") or []
+    if reversals:
+        parts = []
+        for s, e in reversals:
+            parts.append(f"from {hours(s)} until the end of the run" if e is None
+                         else f"from {hours(s)} to {hours(e)}")
+        f.sentences.append(f"Yes: the net exchange turns from {start_word} to {other_word} "
+                           f"{'; '.join(parts)} ({hours(ev.get('reversed_duration', float('nan')))} in all).")
+        peak = ev.get("peak_losing_exchange")
+        if e0 > 0 and finite(peak) and float(peak) < 0:
+            f.sentences.append(f"At the peak the stream loses {per_metre(float(peak))} into its bed and banks.")
+    else:
+        lo, hi = summary.get("exchange_min_m2_per_s"), summary.get("exchange_max_m2_per_s")
+        f.sentences.append(f"No: the net exchange stays {start_word} throughout the run"
+                           + (f" (between {signed_per_metre(lo)} and {signed_per_metre(hi)})."
+                              if finite(lo) and finite(hi) else "."))
+    if events_table is not None and not events_table.empty and "reversals" in events_table:
+        t = events_table
+        wet0 = t["wet_at_start"].astype(str).str.lower().isin(["true", "1"])
+        rev = t[(t["reversals"] > 0) & wet0]
+        if not rev.empty:
+            f.sentences.append(f"The bed flux reverses at {len(rev)} of {int(wet0.sum())} columns of the "
+                               f"channel bed, for up to {hours(rev['reversed_duration'].max())}.")
+        flooded = t[~wet0 & (t.get("submerged_duration", 0) > 0)]
+        if not flooded.empty:
+            f.sentences.append(f"The stage floods {len(flooded)} floodplain columns, for up to "
+                               f"{hours(flooded['submerged_duration'].max())}.")
+    bank = ev.get("bank_storage_volume")
+    if finite(bank) and float(bank) > 0:
+        back = ev.get("returned_volume")
+        text = f"Bank storage takes in {number(bank)} m³ per metre of channel"
+        if finite(back):
+            end = summary.get("end_time_s")
+            text += (f"; {number(back)} m³ ({percent(ev.get('returned_fraction'))}) has come back by the "
+                     f"end of the run{f' ({hours(end)})' if finite(end) else ''}")
+        f.sentences.append(text + ".")
+    depth = ev.get("max_penetration_depth")
+    if finite(depth) and float(depth) > 0:
+        f.sentences.append(f"Stream water reaches {length(depth)} below the bed at most.")
+    return f
+
+
+def field_finding(field_summary: dict, source: str = ".", unit: str = "m/d") -> Finding:
+    """What the reduced field sheets say about the reach."""
+    fs = field_summary
+    f = Finding("field", source)
+    counts = [(fs.get("meters"), "seepage meters"), (fs.get("piezometers"), "mini-piezometers"),
+              (fs.get("slug_tests"), "slug tests"), (fs.get("permeameter_tests"), "permeameter tests")]
+    listed = [f"{int(n)} {w}" for n, w in counts if finite(n) and int(n) > 0]
+    if listed:
+        f.sentences.append(f"The field sheets hold {', '.join(listed)}.")
+    reach = fs.get("reach") or {}
+    mean, per_m = reach.get("mean_flux [m/s]"), reach.get("per_metre_of_channel [m^2/s]")
+    if finite(mean) and finite(per_m):
+        way = "gains" if float(per_m) > 0 else "loses" if float(per_m) < 0 else "neither gains nor loses"
+        text = (f"The meters give a mean bed flux of {flux(mean, unit)} over {length(reach.get('length [m]'))} "
+                f"of channel: the reach {way} {per_metre(per_m)}")
+        ci, span = reach.get("total_ci95 [m^3/s]"), reach.get("length [m]")
+        if isinstance(ci, list) and len(ci) == 2 and finite(span) and float(span) > 0:
+            lo, hi = (float(c) / float(span) for c in ci)
+            text += f" (95 % range {number(lo * DAY)} to {number(hi * DAY)} m³/d per metre)"
+        f.sentences.append(text + ".")
+    k_slug, k_perm = fs.get("median_k_hvorslev [m/s]"), fs.get("median_kv_permeameter [m/s]")
+    if finite(k_slug):
+        f.sentences.append(f"The slug tests give a median conductivity of {conductivity(k_slug)}.")
+    if finite(k_perm):
+        f.sentences.append(f"The permeameter cores give a median vertical conductivity of {conductivity(k_perm)}.")
+    rejected = fs.get("rejected_rows", 0) or 0
+    flagged = sum(int(v) for v in (fs.get("flags") or {}).values() if finite(v))
+    if rejected or flagged:
+        f.sentences.append(f"{int(rejected)} rows of the sheets were rejected and {flagged} flags raised "
+                           "(listed in the field section).")
+    return f
+
+
+def _is_conductivity(path: str) -> bool:
+    return path.rsplit(".", 1)[-1] in ("kh", "kv", "k")
+
+
+def conductivity_finding(fit_results: dict, source: str = ".") -> Finding:
+    """How well the calibration pins down the conductivities, the bed's first."""
+    best: dict = fit_results.get("best", {})
+    ci: dict = fit_results.get("ci95", {})
+    verdicts: dict = fit_results.get("verdicts", {}) or {}
+    paths = list(fit_results.get("parameters") or best)
+    ks = [p for p in paths if _is_conductivity(p)]
+    bed = [p for p in ks if "bed" in p.split(".")[0].lower()]
+    chosen = bed + [p for p in ks if p not in bed]
+    f = Finding("conductivity", source)
+    if not chosen:
+        f.sentences.append("The calibration estimated no conductivity (free parameters: "
+                           f"{', '.join(paths) or 'none'}).")
+    for p in chosen:
+        b = float(best[p])
+        lo, hi = (float(v) for v in ci.get(p, [float("nan"), float("nan")]))
+        text = f"{p} ({describe_parameter(p)}) = {parameter_value(p, b)}"
+        if finite(lo) and finite(hi):
+            text += f", 95 % interval {_interval(p, lo, hi)}"
+            if b > 0 and lo > 0:
+                text += f", within a factor of {number(max(hi / b, b / lo))} of the best value"
+        verdict = verdicts.get(p)
+        f.sentences.append(text + (f": {verdict}." if verdict else "."))
+    st = fit_results.get("statistics") or {}
+    rchi = st.get("reduced_chi_square")
+    if finite(rchi):
+        if float(rchi) > 2.0:
+            f.sentences.append(
+                f"The weighted misfit is {number(rchi)} times what the stated measurement errors explain "
+                f"(reduced chi-square); the intervals are widened to match, but a misfit this large also "
+                "points at the conceptual model or at errors that were set too small.")
+        else:
+            f.sentences.append(f"The misfit is in line with the stated measurement errors (reduced "
+                               f"chi-square {number(rchi)}).")
+    return f
+
+
+def _pick_text(row: dict) -> str:
+    kind = str(row.get("kind", "instrument"))
+    words = _KIND_WORDS.get(kind.lower(), kind)
+    article = "an" if words[:1].lower() in "aeiou" else "a"
+    text = f"{article} {words} at x = {length(row.get('x'))}"
+    d = row.get("depth")
+    if finite(d) and float(d) > 0:
+        text += f", {length(d)} below the bed"
+    return text
+
+
+def plan_picks(plan_summary: dict | None, plan_table: pd.DataFrame | None) -> list[dict]:
+    """The ranked picks of a plan, from its table (preferred) or its summary."""
+    if plan_table is not None and not plan_table.empty:
+        t = plan_table.sort_values("rank") if "rank" in plan_table else plan_table
+        return t.to_dict("records")
+    if plan_summary and isinstance(plan_summary.get("picks"), list):
+        return [p for p in plan_summary["picks"] if isinstance(p, dict)]
+    return []
+
+
+def next_finding(plans: Iterable[tuple[str, dict | None, pd.DataFrame | None]],
+                 fits: Iterable[tuple[str, dict]] = ()) -> Finding:
+    """Where to measure next: the plan's ranked picks, else what the calibration suggests.
+
+    Parameters
+    ----------
+    plans
+        ``(source, plan_summary, plan_table)`` for each plan output.
+    fits
+        ``(source, fit_results)`` for each fit output (used when there is no plan).
+    """
+    plans = list(plans)
+    f = Finding("next", plans[0][0] if plans else ".")
+    for source, summary, table in plans:
+        picks = plan_picks(summary, table)
+        target = (summary or {}).get("target", "the target")
+        if not picks:
+            f.sentences.append(f"The plan in {source} lists no picks.")
+            continue
+        shown = picks[:5]
+        items = "; ".join(f"{i + 1}) {_pick_text(p)}" for i, p in enumerate(shown))
+        more = f" (and {len(picks) - 5} more in the plan table)" if len(picks) > 5 else ""
+        f.sentences.append(f"To narrow {target}, place the next instruments in this order: {items}{more}.")
+        prior, final = (summary or {}).get("prior_sd"), (summary or {}).get("final_sd")
+        if finite(prior) and finite(final):
+            cut = f" ({percent(1 - float(final) / float(prior))} less)" if float(prior) > 0 else ""
+            f.sentences.append(f"Together the {len(picks)} picks would cut the standard deviation of "
+                               f"{target} from {number(prior)} to {number(final)}{cut}.")
+        elif finite(shown[0].get("expected_sd")):
+            f.sentences.append(f"After the first pick the expected standard deviation of {target} is "
+                               f"{number(shown[0]['expected_sd'])}.")
+    if plans:
+        return f
+    hints = []
+    for _source, res in fits:
+        for v in (res.get("verdicts") or {}).values():
+            if isinstance(v, str) and "add a" in v:
+                hint = v[v.index("add a"):]
+                if hint not in hints:
+                    hints.append(hint)
+    if hints:
+        f.sentences.append("There is no plan in this folder; the calibration suggests: "
+                           + "; ".join(hints) + ".")
+    else:
+        f.sentences.append("There is no plan in this folder: run bedflux plan to rank where the next "
+                           "seepage meters and piezometers would narrow the bed conductivity most.")
+    return f
+
+
+def findings(project, unit: str = "m/d") -> list[Finding]:
+    """Every finding of a project (a :class:`bedflux.report.collect.Project`), grouped by topic."""
+    from .collect import read_table
+
+    out: list[Finding] = []
+    for o in project.of_kind("run"):
+        s = o.data["summary"]
+        out.append(exchange_finding(s, o.label, unit))
+        events = read_table(o.tables["events.csv"]) if "events.csv" in o.tables else None
+        p = pulse_finding(s, events, o.label, unit)
+        if p is not None:
+            out.append(p)
+    for o in project.of_kind("field"):
+        out.append(field_finding(o.data["field_summary"], o.label, unit))
+    fits = [(o.label, o.data["fit_results"]) for o in project.of_kind("fit")]
+    for label, res in fits:
+        out.append(conductivity_finding(res, label))
+    plans = [(o.label, o.data["plan_summary"], o.data["plan_table"]) for o in project.of_kind("plan")]
+    out.append(next_finding(plans, fits))
+    order = list(TOPICS)
+    return sorted(out, key=lambda f: order.index(f.topic))

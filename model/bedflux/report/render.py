@@ -1,0 +1,398 @@
+"""The report as one self-contained HTML page.
+
+Figures are embedded as base64 ``data:`` URIs, the stylesheet is inline, and no script or
+external file is referenced: the page can be mailed, archived and printed as it is.
+"""
+from __future__ import annotations
+
+import base64
+import html
+import math
+from datetime import datetime, timezone
+from pathlib import Path
+from typing import Any, Iterable
+
+import pandas as pd
+
+from .. import __version__
+from . import findings as fd
+from .collect import MAX_REPRODUCED_BYTES, TEXT_SUFFIXES, Output, Project, read_table, sha256
+from .style import STYLESHEET
+
+MIME = {".png": "image/png", ".gif": "image/gif", ".jpg": "image/jpeg", ".jpeg": "image/jpeg",
+        ".svg": "image/svg+xml"}
+MAX_ROWS = 40
+
+CAPTIONS = {
+    ("run", "section.png"): "Heads (contours) and flow paths over the zones; the bed-flux profile beneath, "
+                            "gaining stretches shaded purple, losing orange. Transient runs: the last output time.",
+    ("run", "bed_flux_map.png"): "Bed flux over time and x (purple upward, gaining; orange downward, losing; "
+                                 "white zero), under the stage hydrograph.",
+    ("run", "exchange.png"): "Net exchange per metre of channel through the run, with the stage (dashed).",
+    ("run", "animation.gif"): "Animation through the run: heads in the section, the bed-flux profile and the "
+                              "stage hydrograph with the time of the frame.",
+    ("field", "transect_profiles.png"): "Seepage-meter fluxes across the channel, one line per transect, "
+                                        "with 95 % bars; crosses mark robust outliers.",
+    ("field", "bed_flux_map.png"): "Map of the bed flux interpolated between the meters.",
+    ("field", "gradient_vs_flux.png"): "Vertical gradient at the piezometers against the flux of the "
+                                       "meter beside each.",
+    ("fit", "observed_vs_simulated.png"): "Observed against simulated values, with two-sigma bars; the line "
+                                          "is one to one.",
+    ("fit", "residuals.png"): "Weighted residuals against x and time; the grey band is plus or minus two.",
+    ("fit", "parameter_intervals.png"): "Best values and 95 % intervals, relative to the best value.",
+    ("plan", "plan_map.png"): "Where the next instruments would go, in ranked order.",
+    ("plan", "detectability.png"): "How well a reversal could be detected by each candidate instrument.",
+}
+
+CAUTIONS = [
+    "Work in and beside streams can injure or drown people. Flows can rise within minutes after rain "
+    "upstream or a release from a dam; cold water numbs hands and judgement; soft beds, undercut banks "
+    "and snagged debris can trap a leg. Go out with a partner, check forecasts and gauges before entering "
+    "the water, keep out of flows you cannot stand in comfortably, wear the protective equipment your "
+    "organisation requires, and stop when conditions change.",
+    "Installing and sampling piezometers and seepage meters disturbs the bed; mind buried services, "
+    "contaminated sediment and the rules for working in protected waters.",
+    "This report is a screening and interpretation aid. The model is a vertical section with chosen "
+    "zones and boundaries, and its numbers are only as good as that picture and the data behind it. "
+    "Any decision about water supply, contamination, permits or structures must follow the local codes "
+    "and regulations and be made or reviewed by a licensed professional.",
+]
+
+
+def esc(text: Any) -> str:
+    """HTML-escape any value as text."""
+    return html.escape(str(text), quote=True)
+
+
+def data_uri(path: Path) -> str:
+    """A file as a base64 ``data:`` URI."""
+    mime = MIME.get(path.suffix.lower(), "application/octet-stream")
+    return f"data:{mime};base64," + base64.b64encode(path.read_bytes()).decode("ascii")
+
+
+def figure(path: Path, kind: str, alt: str) -> str:
+    """An embedded figure with its caption."""
+    cap = CAPTIONS.get((kind, path.name), "")
+    return (f'<figure><img src="{data_uri(path)}" alt="{esc(alt)}">'
+            f"<figcaption><b>{esc(path.name)}</b>. {esc(cap)}</figcaption></figure>")
+
+
+def cell(v: Any) -> str:
+    """A table cell value: numbers to 4 significant figures, blanks for NaN."""
+    if isinstance(v, bool):
+        return "yes" if v else "no"
+    if isinstance(v, (int,)) and not isinstance(v, bool):
+        return str(v)
+    if isinstance(v, float):
+        if math.isnan(v):
+            return ""
+        if v.is_integer() and abs(v) < 1e6:
+            return str(int(v))
+        return fd.number(v, 4)
+    return str(v)
+
+
+def table(df: pd.DataFrame, caption: str = "", max_rows: int = MAX_ROWS, source: str = "") -> str:
+    """An HTML table of a frame; long tables are thinned evenly to ``max_rows`` rows."""
+    if df is None or df.empty:
+        return f'<p class="note">{esc(caption)}: no rows.</p>' if caption else ""
+    n = len(df)
+    note = ""
+    if n > max_rows:
+        step = math.ceil(n / max_rows)
+        df = df.iloc[::step]
+        note = f" Every {step}th of {n} rows shown" + (f"; the full table is {source}." if source else ".")
+    text_cols = [c for c in df.columns if not pd.api.types.is_numeric_dtype(df[c])]
+    head = "".join(f'<th class="{"text" if c in text_cols else "num"}" scope="col">{esc(c)}</th>'
+                   for c in df.columns)
+    rows = []
+    for rec in df.itertuples(index=False):
+        tds = "".join(f'<td class="{"text" if c in text_cols else "num"}">{esc(cell(v))}</td>'
+                      for c, v in zip(df.columns, rec))
+        rows.append(f"<tr>{tds}</tr>")
+    cap = f"<caption>{esc(caption + note)}</caption>" if caption or note else ""
+    return (f'<div class="wide"><table>{cap}<thead><tr>{head}</tr></thead><tbody>{"".join(rows)}'
+            "</tbody></table></div>")
+
+
+def keys_table(rows: Iterable[tuple[str, str]], caption: str = "") -> str:
+    """A two-column table of labels and formatted values."""
+    body = "".join(f'<tr><td class="text">{esc(k)}</td><td>{esc(v)}</td></tr>' for k, v in rows)
+    cap = f"<caption>{esc(caption)}</caption>" if caption else ""
+    return f'<table class="keys">{cap}<tbody>{body}</tbody></table>'
+
+
+def reproduce(path: Path, label: str) -> str:
+    """A text input file reproduced in full (or named with its hash when large or binary)."""
+    size = path.stat().st_size
+    if path.suffix.lower() in TEXT_SUFFIXES and size <= MAX_REPRODUCED_BYTES:
+        try:
+            text = path.read_text(encoding="utf-8")
+            return f"<h4>{esc(label)}</h4><pre><code>{esc(text)}</code></pre>"
+        except UnicodeDecodeError:
+            pass
+    return (f'<h4>{esc(label)}</h4><p class="note">{size} bytes, not reproduced; SHA-256 '
+            f"<code>{sha256(path)}</code>.</p>")
+
+
+# --------------------------------------------------------------------------- sections
+
+def _findings_section(found: list[fd.Finding]) -> str:
+    parts = ['<section class="findings" id="findings"><h2>Findings</h2>']
+    for topic, heading in fd.TOPICS.items():
+        items = [f for f in found if f.topic == topic]
+        if not items:
+            continue
+        parts.append(f'<h3 id="finding-{topic}">{esc(heading)}</h3>')
+        for f in items:
+            src = f"from {f.source}" + (f": {f.title}" if f.title else "")
+            parts.append(f'<p class="source">{esc(src)}</p>'
+                         f'<p class="finding" data-topic="{topic}" data-source="{esc(f.source)}">'
+                         f"{esc(f.text)}</p>")
+    parts.append("</section>")
+    return "".join(parts)
+
+
+def _cautions_section() -> str:
+    items = "".join(f"<li>{esc(c)}</li>" for c in CAUTIONS)
+    return f'<section class="cautions" id="cautions"><h2>Cautions</h2><ul>{items}</ul></section>'
+
+
+def _run_section(o: Output, unit: str) -> str:
+    s = o.data["summary"]
+    day = fd.DAY
+    rows = [("run", s.get("run", "")), ("cells, solver", f"{s.get('cells', '')}, {s.get('solver', '')}"),
+            ("net exchange (+ = gaining)", fd.signed_per_metre(s["exchange_m2_per_s"])),
+            ("submerged bed", fd.length(s.get("submerged_length_m"))),
+            ("gaining length", fd.length(s.get("gaining_length_m"))),
+            ("losing length", fd.length(s.get("losing_length_m"))),
+            ("bed flux range (+ = upward)", f"{fd.flux(s.get('max_losing_flux_m_per_s'), unit)} to "
+                                            f"{fd.flux(s.get('max_gaining_flux_m_per_s'), unit)}"),
+            ("water budget closure", f"{float(s.get('budget_closure', float('nan'))):.1e} of the inflow")]
+    if "exchange_min_m2_per_s" in s:
+        rows.insert(3, ("net exchange over the run", f"{fd.signed_per_metre(s['exchange_min_m2_per_s'])} to "
+                                                     f"{fd.signed_per_metre(s['exchange_max_m2_per_s'])}"))
+        rows.insert(1, ("end of run", fd.hours(s.get("end_time_s"))))
+    ev = s.get("events") or {}
+    if ev:
+        rev = ev.get("reversals") or []
+        rows += [("net exchange reversals", "; ".join(
+                     f"{fd.hours(a)} to {'end' if b is None else fd.hours(b)}" for a, b in rev) or "none"),
+                 ("reversed for", fd.hours(ev.get("reversed_duration"))),
+                 ("bank storage taken in", f"{fd.number(ev.get('bank_storage_volume'))} m³ per metre"),
+                 ("returned by the end", f"{fd.number(ev.get('returned_volume'))} m³ per metre "
+                                         f"({fd.percent(ev.get('returned_fraction'))})"),
+                 ("deepest stream water below the bed", fd.length(ev.get("max_penetration_depth")))]
+    parts = [f'<section id="{o.anchor}"><h2>Model run: {esc(s.get("title", o.label))}</h2>',
+             f'<p class="meta">folder {esc(o.label)}</p>', keys_table(rows, "Key numbers (SI files; shown in "
+                                                                          f"m³/d per metre and {unit})")]
+    bin_ = s.get("budget_in_m2_per_s") or {}
+    bout = s.get("budget_out_m2_per_s") or {}
+    terms = [t for t in bin_ if abs(bin_.get(t, 0.0)) > 0 or abs(bout.get(t, 0.0)) > 0]
+    if terms:
+        bud = pd.DataFrame({"term": terms, "in (m³/d per m)": [bin_[t] * day for t in terms],
+                            "out (m³/d per m)": [bout.get(t, 0.0) * day for t in terms]})
+        parts.append(table(bud, "Water budget" + (" at the last output time" if ev else "")))
+    for fig in o.figures:
+        parts.append(figure(fig, "run", f"{fig.stem} of {s.get('title', o.label)}"))
+    if "movie" in o.data:
+        parts.append(f'<p class="note">A video of the same animation is beside the outputs: '
+                     f"{esc(Path(o.data['movie']).name)}.</p>")
+    if "events.csv" in o.tables:
+        ev_t = read_table(o.tables["events.csv"])
+        if not ev_t.empty:
+            shown = ev_t.copy()
+            fac = fd.flux_factor(unit)
+            for c in ("submerged_duration", "first_reversal_start", "last_reversal_end", "reversed_duration"):
+                if c in shown:
+                    shown[c] = shown[c] / fd.HOUR
+            for c in ("initial_flux", "peak_losing_flux"):
+                if c in shown:
+                    shown[c] = shown[c] * fac
+            shown = shown.rename(columns={
+                "x": "x (m)", "submerged_duration": "submerged (h)", "initial_flux": f"flux at t=0 ({unit})",
+                "first_reversal_start": "first reversal (h)", "last_reversal_end": "last reversal end (h)",
+                "reversed_duration": "reversed (h)", "peak_losing_flux": f"peak losing flux ({unit})",
+                "volume_into_bed": "into bed (m³/m²)", "volume_returned": "returned (m³/m²)",
+                "penetration_depth": "depth reached (m)"})
+            parts.append(table(shown, "Exchange events by column", source=f"{o.label}/events.csv"))
+    if o.inputs:
+        parts.append("<h3>Scenario files</h3>")
+        parts += [reproduce(p, p.relative_to(o.folder).as_posix()) for p in o.inputs]
+    parts.append("</section>")
+    return "".join(parts)
+
+
+def _field_section(o: Output, unit: str) -> str:
+    fs = o.data["field_summary"]
+    rows = [("sheets folder", fs.get("sheets_folder", "")), ("sign convention", fs.get("sign_convention", ""))]
+    for k in ("meters", "piezometers", "slug_tests", "permeameter_tests", "rejected_rows"):
+        if k in fs:
+            rows.append((k.replace("_", " "), str(fs[k])))
+    obs = fs.get("observations") or {}
+    if obs:
+        rows.append(("observations for calibration", ", ".join(f"{v} {k}" for k, v in obs.items())))
+    flags = fs.get("flags") or {}
+    if flags:
+        rows.append(("flags", ", ".join(f"{v} {k}" for k, v in flags.items())))
+    eff = fs.get("default_efficiency") or {}
+    if eff:
+        rows.append(("seepage meter efficiency used", f"{eff.get('value')} ({eff.get('source', '')})"))
+    reach = fs.get("reach") or {}
+    if reach:
+        rows += [("reach mean bed flux", fd.flux(reach.get("mean_flux [m/s]"), unit)),
+                 ("per metre of channel", fd.signed_per_metre(reach.get("per_metre_of_channel [m^2/s]", float("nan")))),
+                 ("area and length", f"{fd.number(reach.get('area [m^2]'))} m², {fd.length(reach.get('length [m]'))}"),
+                 ("method", reach.get("method", ""))]
+    parts = [f'<section id="{o.anchor}"><h2>Field measurements</h2>', f'<p class="meta">folder {esc(o.label)}</p>',
+             keys_table(rows, "Summary of the field sheets")]
+    for fig in o.figures:
+        parts.append(figure(fig, "field", f"{fig.stem} of the field campaign"))
+    for name, path in o.tables.items():
+        parts.append(table(read_table(path), name, source=f"{o.label}/{name}"))
+    if o.inputs:
+        parts.append("<h3>Input files</h3>")
+        parts += [reproduce(p, p.relative_to(o.folder).as_posix()) for p in o.inputs]
+    parts.append("</section>")
+    return "".join(parts)
+
+
+def _fit_section(o: Output) -> str:
+    r = o.data["fit_results"]
+    paths = list(r.get("parameters") or r["best"])
+    css = r.get("composite_scaled_sensitivity") or {}
+    rows = []
+    for p in paths:
+        lo, hi = r["ci95"].get(p, [float("nan"), float("nan")])
+        rows.append({"parameter": p, "meaning": fd.describe_parameter(p),
+                     "best": fd.parameter_value(p, r["best"][p]),
+                     "95 % low": fd.parameter_value(p, lo), "95 % high": fd.parameter_value(p, hi),
+                     "scaled sensitivity": css.get(p, float("nan")),
+                     "verdict": (r.get("verdicts") or {}).get(p, "")})
+    st = r.get("statistics") or {}
+    parts = [f'<section id="{o.anchor}"><h2>Calibration</h2>', f'<p class="meta">folder {esc(o.label)}</p>',
+             table(pd.DataFrame(rows), "Calibrated parameters (SI in the files)")]
+    if st:
+        parts.append(keys_table([(k.replace("_", " "), cell(v) if isinstance(v, float) else str(v))
+                                 for k, v in st.items()], "Fit statistics"))
+    corr = r.get("correlation")
+    if isinstance(corr, list) and corr and len(corr) == len(paths):
+        parts.append(table(pd.DataFrame(corr, columns=paths).assign(parameter=paths)
+                           [["parameter"] + paths], "Parameter correlation"))
+    for fig in o.figures:
+        parts.append(figure(fig, "fit", f"{fig.stem} of the calibration"))
+    if "residuals.csv" in o.tables:
+        res = read_table(o.tables["residuals.csv"])
+        if "weighted_residual" in res:
+            worst = res.reindex(res["weighted_residual"].abs().sort_values(ascending=False).index).head(10)
+            parts.append(table(worst, f"The 10 largest weighted residuals of {len(res)}",
+                               source=f"{o.label}/residuals.csv"))
+    if o.inputs:
+        parts.append("<h3>Fit file and calibrated scenario</h3>")
+        parts += [reproduce(p, p.relative_to(o.folder).as_posix()) for p in o.inputs]
+    parts.append("</section>")
+    return "".join(parts)
+
+
+def _plan_section(o: Output) -> str:
+    s = o.data.get("plan_summary") or {}
+    t = o.data.get("plan_table")
+    parts = [f'<section id="{o.anchor}"><h2>Plan for the next measurements</h2>',
+             f'<p class="meta">folder {esc(o.label)}</p>']
+    rows = [(k.replace("_", " "), cell(v) if isinstance(v, float) else str(v))
+            for k, v in s.items() if k != "picks" and not isinstance(v, (dict, list))]
+    if rows:
+        parts.append(keys_table(rows, "Plan summary"))
+    if t is not None:
+        parts.append(table(t, "Ranked picks", source=f"{o.label}/plan_table.csv"))
+    elif isinstance(s.get("picks"), list) and s["picks"]:
+        parts.append(table(pd.DataFrame([p for p in s["picks"] if isinstance(p, dict)]), "Ranked picks"))
+    for fig in o.figures:
+        parts.append(figure(fig, "plan", f"{fig.stem} of the plan"))
+    if o.inputs:
+        parts.append("<h3>Plan files</h3>")
+        parts += [reproduce(p, p.relative_to(o.folder).as_posix()) for p in o.inputs]
+    parts.append("</section>")
+    return "".join(parts)
+
+
+def _provenance_section(project: Project, created: str) -> str:
+    parts = ['<section id="provenance"><h2>Provenance</h2>',
+             keys_table([("report written", created), ("by bedflux", __version__),
+                         ("from the folder", str(project.folder))])]
+    runs = []
+    for o in project.of_kind("run"):
+        prov = o.data.get("provenance") or {}
+        for name, digest in (prov.get("inputs") or {}).items():
+            copy = o.folder / "inputs" / name
+            status = ("copy matches" if copy.is_file() and sha256(copy) == digest
+                      else "copy differs" if copy.is_file() else "no copy")
+            runs.append({"run": o.label, "bedflux version": prov.get("bedflux_version", ""), "input": name,
+                         "SHA-256 at run time": digest, "inputs/ copy": status})
+    if runs:
+        parts.append(table(pd.DataFrame(runs), "Inputs of each run, as recorded by bedflux run", max_rows=500))
+    files = [{"file": p.relative_to(project.folder).as_posix(), "bytes": p.stat().st_size, "SHA-256": sha256(p)}
+             for p in project.files_read]
+    parts.append(table(pd.DataFrame(files), "Every file this report read", max_rows=1000))
+    parts.append("</section>")
+    return "".join(parts)
+
+
+def created_stamp() -> str:
+    """The report date (UTC); ``SOURCE_DATE_EPOCH`` fixes it for reproducible builds."""
+    import os
+
+    epoch = os.environ.get("SOURCE_DATE_EPOCH")
+    when = datetime.fromtimestamp(int(epoch), timezone.utc) if epoch and epoch.isdigit() \
+        else datetime.now(timezone.utc)
+    return when.strftime("%Y-%m-%d %H:%M UTC")
+
+
+def render(project: Project, unit: str = "m/d") -> str:
+    """The whole report as an HTML string.
+
+    Parameters
+    ----------
+    project
+        What :func:`bedflux.report.collect.collect` found.
+    unit
+        Display unit of bed fluxes (``m/d``, ``mm/d``, ``cm/d``, ``cm/s``, ``m/s``).
+    """
+    fd.flux_factor(unit)
+    created = created_stamp()
+    found = fd.findings(project, unit)
+    sections = [_findings_section(found), _cautions_section()]
+    toc = [("findings", "Findings"), ("cautions", "Cautions")]
+    for o in project.outputs:
+        if o.kind == "run":
+            sections.append(_run_section(o, unit))
+            toc.append((o.anchor, f"Model run: {o.data['summary'].get('title') or o.label}"))
+        elif o.kind == "field":
+            sections.append(_field_section(o, unit))
+            toc.append((o.anchor, f"Field measurements ({o.label})"))
+        elif o.kind == "fit":
+            sections.append(_fit_section(o))
+            toc.append((o.anchor, f"Calibration ({o.label})"))
+        elif o.kind == "plan":
+            sections.append(_plan_section(o))
+            toc.append((o.anchor, f"Plan ({o.label})"))
+    sections.append(_provenance_section(project, created))
+    toc.append(("provenance", "Provenance"))
+    kinds = sorted({o.kind for o in project.outputs}, key=["run", "field", "fit", "plan"].index)
+    nav = "".join(f'<li><a href="#{a}">{esc(t)}</a></li>' for a, t in toc)
+    title = f"Stream-aquifer exchange: {project.folder.name}"
+    return (
+        "<!DOCTYPE html>\n"
+        '<html lang="en"><head><meta charset="utf-8">'
+        '<meta name="viewport" content="width=device-width, initial-scale=1">'
+        f'<meta name="generator" content="bedflux {esc(__version__)}">'
+        '<link rel="icon" href="data:,">'
+        f"<title>{esc(title)}</title><style>{STYLESHEET}</style></head><body>"
+        f'<header class="top"><h1>{esc(title)}</h1>'
+        f'<p class="meta">Report of the bedflux outputs in {esc(project.folder)} '
+        f"({esc(', '.join(kinds))}); written {esc(created)} by bedflux {esc(__version__)}. "
+        "Signs: upward flux, groundwater into the stream, is positive (gaining).</p></header>"
+        f'<nav class="contents" aria-label="contents"><b>Contents</b><ol>{nav}</ol></nav>'
+        + "".join(sections)
+        + '<footer><p>Written by bedflux. Figures use colour maps that read in greyscale; fluxes '
+          "purple upward (gaining), orange downward (losing).</p></footer></body></html>\n")
