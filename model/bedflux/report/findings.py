@@ -388,6 +388,9 @@ def next_finding(plans: Iterable[tuple[str, dict | None, pd.DataFrame | None]],
     if plans:
         return f
     hints = []
+    fits = list(fits)
+    if fits:
+        f.source = ", ".join(source for source, _ in fits)
     for _source, res in fits:
         for v in (res.get("verdicts") or {}).values():
             if isinstance(v, str) and "add a" in v:

@@ -28,7 +28,7 @@ table { border-collapse: collapse; font-size: .8rem; margin: .5rem 0 1rem; }
 th, td { border: 1px solid var(--rule); padding: .15rem .45rem; text-align: right; vertical-align: top; }
 th { background: var(--band); }
 td.text, th.text { text-align: left; }
-table.keys td:first-child { text-align: left; }
+table.keys td { text-align: left; }
 caption { caption-side: top; text-align: left; font-size: .8rem; color: var(--muted); padding: .2rem 0; }
 div.wide { overflow-x: auto; }
 pre { background: var(--band); border: 1px solid var(--rule); padding: .5rem .7rem; font-size: .75rem;

@@ -16,7 +16,7 @@ import scipy.sparse.linalg as spla
 from ..errors import SolverError
 
 #: Above this many unknowns a single solve uses AMG-preconditioned CG.
-DIRECT_LIMIT = 300_000
+DIRECT_LIMIT = 100_000
 #: Relative true-residual tolerance accepted from CG (double precision reaches a few 1e-10 at best).
 CG_TOLERANCE = 1e-9
 

@@ -54,7 +54,8 @@ def horizontal_faces(grid: Grid, mat: Materials, periodic: bool) -> Faces:
         rows = np.flatnonzero(grid.active[:, -1] & grid.active[:, 0])
         a = np.concatenate([a, rows * nx + nx - 1])
         b = np.concatenate([b, rows * nx])
-    idx = grid.index().ravel()
+    idx = grid.index().ravel().astype(np.int32)
+    a, b = a.astype(np.int32), b.astype(np.int32)
     kh = mat.kh.ravel()
     dx = np.broadcast_to(grid.dx[None, :], grid.active.shape).ravel()
     bottom = np.broadcast_to(grid.z_edges[1:, None], grid.active.shape).ravel()
@@ -67,7 +68,8 @@ def horizontal_faces(grid: Grid, mat: Materials, periodic: bool) -> Faces:
 def vertical_faces(grid: Grid, mat: Materials) -> Faces:
     """Faces between a cell and the one above it (``lo`` is the lower cell)."""
     upper, lower = _pairs(grid.active, 1, 0)
-    idx = grid.index().ravel()
+    upper, lower = upper.astype(np.int32), lower.astype(np.int32)
+    idx = grid.index().ravel().astype(np.int32)
     kv = mat.kv.ravel()
     t = grid.thickness.ravel()
     dx = np.broadcast_to(grid.dx[None, :], grid.active.shape).ravel()[lower]
