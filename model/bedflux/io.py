@@ -36,6 +36,9 @@ def write_summary(ds: xr.Dataset, outdir: str | Path) -> dict:
         write_with(outdir / "events.csv", lambda tmp: table.to_csv(tmp, index=False))
         s["events"] = {k: (v if k != "reversals" else [list(r) for r in v]) for k, v in reach.items()}
         text += events_text(reach, table)
+    if ds.attrs.get("partial"):
+        s["partial"] = ds.attrs["partial"]
+        text += f"PARTIAL RESULT: {ds.attrs['partial']}\n"
     write_text(outdir / "summary.txt", text)
     write_text(outdir / "summary.json", json.dumps(s, indent=2, allow_nan=True) + "\n")
     s["text"] = text

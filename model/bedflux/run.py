@@ -58,6 +58,4 @@ def run_scenario(path: Path, outdir: Path, unit: str = "m/d", quiet: bool = Fals
             prov["inputs"][f.name] = sha256(f)
         write_text(stage / "provenance.json", json.dumps(prov, indent=2) + "\n")
     summary["partial"] = ds.attrs.get("partial", "")
-    if summary["partial"]:
-        summary["text"] += f"PARTIAL RESULT: {summary['partial']}\n"
     return summary
