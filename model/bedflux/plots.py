@@ -23,7 +23,7 @@ FLUX_UNITS = {"m/d": 86400.0, "mm/d": 86400e3, "cm/d": 8.64e6, "cm/s": 100.0, "m
 GAINING = "#5e3c99"
 LOSING = "#e66101"
 HEAD_MAP = "cividis"
-FLUX_MAP = "PuOr_r"
+FLUX_MAP = "PuOr"  # orange = losing (negative), purple = gaining, as GAINING / LOSING
 ZONE_GREYS = ["#f2f2f2", "#d0d0d0", "#b0b0b0", "#909090", "#e0e0e0", "#c0c0c0"]
 
 
@@ -136,11 +136,13 @@ def bed_flux_map(ds: xr.Dataset, path: str | Path, unit: str = "m/d") -> Path:
     ax_s.set_ylabel("stage (m)")
     ax_s.set_title(ds.attrs.get("title", ""))
     q = ds["bed_flux"].values * fac
-    lim = np.nanmax(np.abs(q)) if np.isfinite(q).any() else 1.0
+    # a robust colour range: brief spikes where a dry floodplain column first floods would
+    # otherwise wash out the channel
+    lim = float(np.nanpercentile(np.abs(q), 98)) if np.isfinite(q).any() else 1.0
     lim = lim if lim > 0 else 1.0
     m = ax.pcolormesh(t_h, ds["x"].values, np.ma.masked_invalid(q.T), cmap=FLUX_MAP,
                       norm=TwoSlopeNorm(0.0, -lim, lim), shading="nearest")
-    fig.colorbar(m, ax=[ax_s, ax], label=f"bed flux ({unit}), up = gaining", shrink=0.8)
+    fig.colorbar(m, ax=[ax_s, ax], label=f"bed flux ({unit}), up = gaining", shrink=0.8, extend="both")
     ax.set_xlabel("time (h)")
     ax.set_ylabel("x (m)")
     return save(fig, path)
