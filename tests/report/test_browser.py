@@ -137,7 +137,7 @@ def test_page_is_not_blank(page, tmp_path_factory):
     for h in ("Findings", "Cautions", "Field measurements", "Calibration", "Provenance"):
         assert h in headings
     if os.environ.get("BEDFLUX_UPDATE_SCREENSHOT"):
-        small = shot.crop((0, 0, shot.width, min(shot.height, 1250)))
+        small = shot.crop((0, 0, shot.width, min(shot.height, 1125)))
         small = small.resize((small.width * 3 // 4, small.height * 3 // 4), Image.LANCZOS)
         small.quantize(colors=96, method=Image.Quantize.MEDIANCUT).save(ROOT / "docs" / "report_example.png",
                                                                          optimize=True)
@@ -182,7 +182,7 @@ def test_findings_state_the_numbers_of_the_runs(project, page):
 
     if (project / "plan" / "plan_table.csv").exists():
         first = pd.read_csv(project / "plan" / "plan_table.csv").sort_values("rank").iloc[0]
-        assert f"1) {fd._pick_text(first.to_dict())}" in text
+        assert f"1) {fd.pick_text(first.to_dict())}" in text
     else:
         assert "Where to measure next" in text
 

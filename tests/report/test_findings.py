@@ -121,18 +121,23 @@ def test_plan_picks_in_order():
     table = pd.DataFrame({"rank": [2, 1, 3], "kind": ["vhg", "seepage", "head"], "x": [60.0, 20.0, 100.0],
                           "depth": [0.5, 0.0, 3.0], "expected_sd": [0.15, 0.2, 0.12],
                           "reduction": [0.1, 0.2, 0.05]})
-    summary = {"target": "bed.kv", "prior_sd": 0.25, "final_sd": 0.12}
+    summary = {"target": "bed.kv", "prior_sd": 1.0e-5, "final_sd": 4.8e-6}     # m/s
     f = fd.next_finding([("plan", summary, table)])
-    assert ("To narrow bed.kv, place the next instruments in this order: 1) a seepage meter at x = 20.0 m; "
-            "2) a mini-piezometer (vertical gradient) at x = 60.0 m, 0.500 m below the bed; "
-            "3) a piezometer (head) at x = 100 m, 3.00 m below the bed.") in f.text
-    assert "cut the standard deviation of bed.kv from 0.250 to 0.120 (52 % less)" in f.text
+    assert ("To narrow bed.kv, place the next instruments in this order: 1) a seepage meter at x = 20.0 m "
+            "(spread 20 % less); 2) a mini-piezometer (vertical gradient) at x = 60.0 m, 0.500 m below the bed "
+            "(spread 10 % less); 3) a piezometer (head) at x = 100 m, 3.00 m below the bed (spread 5 % less).") \
+        in f.text
+    assert "cut the standard deviation of bed.kv from 0.864 m/d to 0.415 m/d (52 % less)" in f.text
+    g = fd.next_finding([("plan", {"target": "D-optimal", "prior_sd": 0.3, "final_sd": 0.2},
+                          table.assign(reduction=0.001))])
+    assert "from 0.300 to 0.200 (33 % less)" in g.text and "(spread under 1 % less)" in g.text
 
 
 def test_plan_from_summary_picks_only_and_many_picks():
     picks = [{"rank": i + 1, "kind": "seepage", "x": float(i), "depth": 0.0, "expected_sd": 0.1} for i in range(8)]
     f = fd.next_finding([("plan", {"target": "bed.kv", "picks": picks}, None)])
     assert "5) a seepage meter at x = 4.00 m (and 3 more in the plan table)" in f.text
+    assert "After the first pick the expected standard deviation of bed.kv is 8640 m/d" in f.text
 
 
 def test_no_plan_falls_back_to_fit_hint():

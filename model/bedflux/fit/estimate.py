@@ -148,17 +148,27 @@ def summarise(forward: Forward, m: np.ndarray, evaluate=None) -> FitResult:
     Jw = J * np.sqrt(w)[:, None]
     info = Jw.T @ Jw + np.diag(np.where(has, 1.0 / sd**2, 0.0))
     U, sv, Vt = np.linalg.svd(Jw, full_matrices=False)
-    cov = s2 * np.linalg.pinv(info, rcond=1e-12)
+    unseen = unseen_parameters(info)
+    seen = ~unseen
+    cov = np.full((p, p), np.nan)
+    cov[np.ix_(unseen, unseen)] = np.where(np.eye(int(unseen.sum()), dtype=bool), np.inf, np.nan)
+    if seen.any():
+        cov[np.ix_(seen, seen)] = s2 * np.linalg.inv(info[np.ix_(seen, seen)])
     sdm = np.sqrt(np.clip(np.diag(cov), 0.0, None))
     with np.errstate(invalid="ignore", divide="ignore"):
         corr = cov / np.outer(sdm, sdm)
-    corr = np.where(np.isfinite(corr), corr, 0.0)
+    corr[~np.isfinite(corr)] = np.nan
     np.fill_diagonal(corr, 1.0)
     tq = stats.t.ppf(0.975, dof)
     paths = [q.path for q in forward.free]
     best = {q.path: float(q.natural(v)) for q, v in zip(forward.free, m)}
-    ci = {q.path: (float(q.natural(v - tq * s)), float(q.natural(v + tq * s)))
-          for q, v, s in zip(forward.free, m, sdm)}
+    ci = {}
+    for q, v, sd_j in zip(forward.free, m, sdm):
+        lo_i, hi_i = q.internal(q.low), q.internal(q.high)
+        # intervals are clipped to the bounds; a parameter the data do not see spans them
+        a = lo_i if not np.isfinite(sd_j) else max(v - tq * sd_j, lo_i)
+        b = hi_i if not np.isfinite(sd_j) else min(v + tq * sd_j, hi_i)
+        ci[q.path] = (float(q.natural(a)), float(q.natural(b)))
     # Hill & Tiedeman scale by the value (b dy/db); a head has an arbitrary datum, so per metre
     scale = np.array([1.0 / LN10 if q.log else (1.0 if _is_head(q.path) else abs(q.natural(v)) or 1.0)
                       for q, v in zip(forward.free, m)])
@@ -179,6 +189,17 @@ def summarise(forward: Forward, m: np.ndarray, evaluate=None) -> FitResult:
     verdicts = _verdicts(forward, m, css, corr, sdm, sv, Vt, J, info, s2)
     return FitResult(best, ci, cov, corr, table, J, forward.n_forward_runs, stats_d, css_d, sv, Vt,
                      verdicts, paths, np.asarray(m))
+
+
+def unseen_parameters(info: np.ndarray, rtol: float = 1e-10) -> np.ndarray:
+    """Parameters on (numerically) null directions of the information matrix: the data (and
+    priors) say nothing about them, so their variance is unbounded."""
+    lam, V = np.linalg.eigh(info)
+    top = float(lam.max()) if lam.size else 0.0
+    if top <= 0.0:
+        return np.ones(info.shape[0], dtype=bool)
+    tiny = lam <= rtol * top
+    return np.any(np.abs(V[:, tiny]) > 0.1, axis=1) if tiny.any() else np.zeros(info.shape[0], dtype=bool)
 
 
 def _is_head(path: str) -> bool:
@@ -202,11 +223,12 @@ def _verdicts(forward: Forward, m, css, corr, sdm, sv, Vt, J, info, s2) -> dict[
     for j, q in enumerate(forward.free):
         span = q.internal(q.high) - q.internal(q.low)
         weak_combination = any(null[k] and abs(Vt[k, j]) > 0.3 for k in range(sv.size))
-        if css[j] == 0.0 or 2 * tq * sdm[j] > 0.8 * span or (weak_combination and q.prior is None):
+        if (css[j] == 0.0 or not np.isfinite(sdm[j]) or 2 * tq * sdm[j] > 0.8 * span
+                or (weak_combination and q.prior is None)):
             out[q.path] = ("not identifiable: the observations barely respond to it (its 95 % interval "
                            "would cover most of the allowed range); fix it or add observations that respond to it")
             continue
-        partners = [(abs(corr[j, k]), k) for k in range(len(paths)) if k != j]
+        partners = [(abs(corr[j, k]), k) for k in range(len(paths)) if k != j and np.isfinite(corr[j, k])]
         strongest = max(partners) if partners else (0.0, -1)
         if strongest[0] >= CORRELATION_LIMIT:
             k = strongest[1]
@@ -298,6 +320,7 @@ def sample_posterior(forward: Forward, result: FitResult, steps: int = 2000, wal
 
     rng = np.random.default_rng(seed)
     sd = np.sqrt(np.clip(np.diag(result.covariance), 1e-12, None))
+    sd = np.where(np.isfinite(sd), sd, (hi - lo) / 4.0)  # unseen parameters: spread over the bounds
     p0 = np.clip(result.m_best + 0.1 * sd * rng.standard_normal((nw, ndim)), lo, hi)
     sampler = emcee.EnsembleSampler(nw, ndim, logp)
     sampler.run_mcmc(p0, steps, progress=False)

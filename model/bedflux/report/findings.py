@@ -333,7 +333,7 @@ def conductivity_finding(fit_results: dict, source: str = ".") -> Finding:
     return f
 
 
-def _pick_text(row: dict) -> str:
+def pick_text(row: dict) -> str:
     kind = str(row.get("kind", "instrument"))
     words = _KIND_WORDS.get(kind.lower(), kind)
     article = "an" if words[:1].lower() in "aeiou" else "a"
@@ -341,7 +341,15 @@ def _pick_text(row: dict) -> str:
     d = row.get("depth")
     if finite(d) and float(d) > 0:
         text += f", {length(d)} below the bed"
+    r = row.get("reduction")
+    if finite(r) and float(r) > 0:
+        text += f" (spread {'under 1 %' if float(r) < 0.005 else percent(r)} less)"
     return text
+
+
+def spread(target: str, sd: float) -> str:
+    """A plan's standard deviation of its target, in the target's unit when it is a parameter path."""
+    return parameter_value(target, sd) if "." in str(target) else number(sd)
 
 
 def plan_picks(plan_summary: dict | None, plan_table: pd.DataFrame | None) -> list[dict]:
@@ -374,17 +382,17 @@ def next_finding(plans: Iterable[tuple[str, dict | None, pd.DataFrame | None]],
             f.sentences.append(f"The plan in {source} lists no picks.")
             continue
         shown = picks[:5]
-        items = "; ".join(f"{i + 1}) {_pick_text(p)}" for i, p in enumerate(shown))
+        items = "; ".join(f"{i + 1}) {pick_text(p)}" for i, p in enumerate(shown))
         more = f" (and {len(picks) - 5} more in the plan table)" if len(picks) > 5 else ""
         f.sentences.append(f"To narrow {target}, place the next instruments in this order: {items}{more}.")
         prior, final = (summary or {}).get("prior_sd"), (summary or {}).get("final_sd")
         if finite(prior) and finite(final):
             cut = f" ({percent(1 - float(final) / float(prior))} less)" if float(prior) > 0 else ""
             f.sentences.append(f"Together the {len(picks)} picks would cut the standard deviation of "
-                               f"{target} from {number(prior)} to {number(final)}{cut}.")
+                               f"{target} from {spread(target, prior)} to {spread(target, final)}{cut}.")
         elif finite(shown[0].get("expected_sd")):
             f.sentences.append(f"After the first pick the expected standard deviation of {target} is "
-                               f"{number(shown[0]['expected_sd'])}.")
+                               f"{spread(target, shown[0]['expected_sd'])}.")
     if plans:
         return f
     hints = []

@@ -299,8 +299,17 @@ def _plan_section(o: Output) -> str:
     t = o.data.get("plan_table")
     parts = [f'<section id="{o.anchor}"><h2>Plan for the next measurements</h2>',
              f'<p class="meta">folder {esc(o.label)}</p>']
-    rows = [(k.replace("_", " "), cell(v) if isinstance(v, float) else str(v))
-            for k, v in s.items() if k != "picks" and not isinstance(v, (dict, list))]
+    rows = []
+    for k, v in s.items():
+        if k == "picks" or isinstance(v, list):
+            continue
+        if isinstance(v, dict):
+            v = "; ".join(f"{a}: {b}" for a, b in v.items())
+        elif k.endswith("_sd") and fd.finite(v):
+            v = f"{cell(float(v))} ({fd.spread(str(s.get('target', '')), v)})"
+        elif isinstance(v, float):
+            v = cell(v)
+        rows.append((k.replace("_", " "), str(v)))
     if rows:
         parts.append(keys_table(rows, "Plan summary"))
     if t is not None:
@@ -389,7 +398,7 @@ def render(project: Project, unit: str = "m/d") -> str:
         '<link rel="icon" href="data:,">'
         f"<title>{esc(title)}</title><style>{STYLESHEET}</style></head><body>"
         f'<header class="top"><h1>{esc(title)}</h1>'
-        f'<p class="meta">Report of the bedflux outputs in {esc(project.folder)} '
+        f'<p class="meta">Report of the bedflux outputs in the folder {esc(project.folder.name)} '
         f"({esc(', '.join(kinds))}); written {esc(created)} by bedflux {esc(__version__)}. "
         "Signs: upward flux, groundwater into the stream, is positive (gaining).</p></header>"
         f'<nav class="contents" aria-label="contents"><b>Contents</b><ol>{nav}</ol></nav>'
