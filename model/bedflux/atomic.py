@@ -19,6 +19,10 @@ def atomic_path(target: str | os.PathLike) -> Iterator[Path]:
     target.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=target.suffix, dir=target.parent)
     os.close(fd)
+    # mkstemp makes the file owner-only; outputs get the usual permissions of new files
+    umask = os.umask(0)
+    os.umask(umask)
+    os.chmod(tmp, 0o666 & ~umask)
     tmp_path = Path(tmp)
     try:
         yield tmp_path

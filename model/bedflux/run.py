@@ -50,6 +50,9 @@ def run_scenario(path: Path, outdir: Path, unit: str = "m/d", quiet: bool = Fals
         write_result(ds, stage / "result.nc")
         summary = write_summary(ds, stage)
         run_figures(ds, stage, unit)
+        from .animation import animate
+
+        animate(ds, stage / "animation", unit=unit)
         inputs = stage / "inputs"
         inputs.mkdir()
         prov = {"bedflux_version": __version__, "inputs": {}}

@@ -90,6 +90,20 @@ def jacobian_case(n_cells: float, boxes: int, n_obs: int, repeats: int, central:
             "fd_central_ratio": t_fd / t_fwd}
 
 
+def block_solve_case(n_cells: float, boxes: int, k: int, repeats: int) -> dict:
+    """k back-substitutions with the forward factor: as one (n, k) block, and one column at a time."""
+    from bedflux.solve.section import discretise
+    from bedflux.solve.steady import solve_steady
+
+    sec = discretise(bedflux.Scenario.from_dict(section(n_cells, boxes)))
+    t_fwd = median_time(lambda: solve_steady(sec, reuse=True), repeats)
+    factor = solve_steady(sec, reuse=True).factor
+    B = np.random.default_rng(0).standard_normal((sec.n, k))
+    t_block = median_time(lambda: factor.solve(B), repeats)
+    t_loop = median_time(lambda: [factor.solve(B[:, j].copy()) for j in range(k)], repeats)
+    return {"k": k, "steady_solve_s": t_fwd, "block_s": t_block, "loop_s": t_loop}
+
+
 def calibration_case(n_cells: float) -> dict:
     d = section(n_cells, 1)  # one box over the whole domain: the "aquifer" zone
     d["zone"] = [{"name": "aquifer", "kh": "10 m/d", "kv": "3 m/d"},
@@ -133,6 +147,10 @@ def main() -> None:
         print(f"| {r['P']} | {r['N']} | {r['cells']} | {r['method']} ({r['solves']} solves) | {r['forward_s']:.3f} | "
               f"{r['jacobian_s']:.3f} | {r['ratio']:.2f} | {r['extra']:.2f} | {r['fd_one_sided_runs']} | "
               f"{r['fd_central_s']:.2f} | {r['fd_central_ratio']:.1f} |")
+    for k in (16, 64):
+        b = block_solve_case(n, 8, k, repeats)
+        print(f"\n{b['k']} back-substitutions with the factor of the 64-box section: one ({n:.0f}, {b['k']}) block {b['block_s']:.3f} s, "
+              f"column by column {b['loop_s']:.3f} s (a whole steady solve with factorization {b['steady_solve_s']:.3f} s)")
     c = calibration_case(n)
     print(f"\ncalibration, 4 parameters, {c['cells']} cells, 60 observations: wall {c['wall_s']:.2f} s, "
           f"{c['forward_runs']} forward runs (one forward run {c['forward_s']:.3f} s), "
