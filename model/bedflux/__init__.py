@@ -11,5 +11,6 @@ __version__ = "0.1.0"
 from .errors import InputError, SolverError  # noqa: E402
 from .scenario import Scenario, load  # noqa: E402
 from .simulate import simulate  # noqa: E402
+from . import fit, plan  # noqa: E402,F401  (callable packages: bedflux.fit(...), bedflux.plan(...))
 
-__all__ = ["InputError", "SolverError", "Scenario", "load", "simulate", "__version__"]
+__all__ = ["InputError", "SolverError", "Scenario", "load", "simulate", "fit", "plan", "__version__"]

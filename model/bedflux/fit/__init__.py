@@ -1,6 +1,9 @@
 """Calibration: fit scenario parameters to observed heads, gradients and seepage fluxes."""
 from __future__ import annotations
 
+import sys
+import types
+
 from typing import Callable
 
 import pandas as pd
@@ -46,3 +49,13 @@ def fit(scenario: Scenario, observations: pd.DataFrame, free: list[dict], *,
         result.posterior = sample_posterior(forward, result, steps=sample, seed=seed)
     result.n_forward_runs = forward.n_forward_runs
     return result
+
+
+class _CallableModule(types.ModuleType):
+    """``bedflux.fit(...)`` calls :func:`fit` (the contract), while ``bedflux.fit`` stays the package."""
+
+    def __call__(self, *args, **kwargs):
+        return fit(*args, **kwargs)
+
+
+sys.modules[__name__].__class__ = _CallableModule

@@ -1,6 +1,9 @@
 """Planning the next campaign: where new seepage meters and piezometers teach the most."""
 from __future__ import annotations
 
+import sys
+import types
+
 import numpy as np
 import pandas as pd
 
@@ -120,3 +123,13 @@ def plan(scenario: Scenario, free: list[dict], candidates: pd.DataFrame, n: int,
         "reading_time": float(np.max(times)) if np.ndim(times) else float(times),
     })
     return table
+
+
+class _CallableModule(types.ModuleType):
+    """``bedflux.plan(...)`` calls :func:`plan` (the contract), while ``bedflux.plan`` stays the package."""
+
+    def __call__(self, *args, **kwargs):
+        return plan(*args, **kwargs)
+
+
+sys.modules[__name__].__class__ = _CallableModule

@@ -17,6 +17,8 @@ from ..errors import SolverError
 
 #: Above this many unknowns a single solve uses AMG-preconditioned CG.
 DIRECT_LIMIT = 100_000
+#: Right-hand sides per back-substitution call.
+SOLVE_BLOCK = 16
 #: Relative true-residual tolerance accepted from CG (double precision reaches a few 1e-10 at best).
 CG_TOLERANCE = 1e-9
 
@@ -38,6 +40,10 @@ class Factor:
     def solve(self, b: np.ndarray) -> np.ndarray:
         """Solve ``A x = b`` (``b`` may be ``(n,)`` or ``(n, k)``)."""
         if self.method == "direct":
+            if b.ndim == 2 and b.shape[1] > SOLVE_BLOCK:
+                # SuperLU's multi-column solve slows down sharply for wide blocks; go in blocks
+                return np.column_stack([self._lu.solve(np.ascontiguousarray(b[:, i:i + SOLVE_BLOCK]))
+                                        for i in range(0, b.shape[1], SOLVE_BLOCK)])
             return self._lu.solve(b)
         if b.ndim == 2:
             return np.column_stack([self.solve(b[:, j]) for j in range(b.shape[1])])
