@@ -316,3 +316,72 @@ def detectability_map(piezo, seep, path: str | Path) -> Path:
     b.set_xlabel("x (m)")
     fig.tight_layout()
     return save(fig, path)
+
+
+# --------------------------------------------------------------------------------- field figures
+
+def transect_profiles(meters, path: str | Path, unit: str = "cm/d") -> Path:
+    """Seepage-meter mean flux across the channel, one line per transect, 95 % bars; x marks a
+    robust outlier."""
+    apply_style()
+    fac = flux_factor(unit)
+    fig, ax = plt.subplots(figsize=(7, 4.5))
+    styles = ["o-", "s--", "^-.", "d:", "v-"]
+    for i, (label, g) in enumerate(meters[meters["transect"] != ""].groupby("transect", sort=True)):
+        g = g.sort_values("y [m]")
+        mean = g["mean [m/s]"].to_numpy() * fac
+        half = np.nan_to_num((g["ci95_high [m/s]"] - g["mean [m/s]"]).to_numpy() * fac)
+        ax.errorbar(g["y [m]"], mean, yerr=half, fmt=styles[i % len(styles)], color="k", mfc="white",
+                    capsize=3, label=f"transect {label}")
+        out = g["robust_outlier"].to_numpy()
+        ax.plot(g["y [m]"].to_numpy()[out], mean[out], "x", color=LOSING, ms=10, mew=2)
+    ax.axhline(0.0, color="0.5", lw=0.8)
+    ax.set_xlabel("distance across the channel, y (m)")
+    ax.set_ylabel(f"bed flux ({unit}), up = gaining")
+    ax.set_title("Seepage-meter transects (bars: 95 % t interval; x: robust outlier)")
+    if ax.get_legend_handles_labels()[0]:
+        ax.legend(fontsize=8)
+    fig.tight_layout()
+    return save(fig, path)
+
+
+def field_bed_map(bed, meters, path: str | Path, unit: str = "cm/d") -> Path:
+    """Kriged bed flux over the reach (diverging map centred on zero) with the meters."""
+    apply_style()
+    fac = flux_factor(unit)
+    fig, ax = plt.subplots(figsize=(8, 4))
+    values = bed.flux * fac
+    lim = float(np.nanmax(np.abs(values))) or 1.0
+    mesh = ax.pcolormesh(bed.x, bed.y, values, shading="auto", cmap=FLUX_MAP, norm=TwoSlopeNorm(0.0, -lim, lim))
+    ax.scatter(meters["x [m]"], meters["y [m]"], c="k", s=14, label="seepage meters")
+    fig.colorbar(mesh, ax=ax, label=f"bed flux ({unit}), up = gaining")
+    ax.set_xlabel("distance along the reach, x (m)")
+    ax.set_ylabel("across, y (m)")
+    ax.set_title("Bed flux by ordinary kriging")
+    ax.legend(fontsize=8, loc="upper right")
+    fig.tight_layout()
+    return save(fig, path)
+
+
+def gradient_vs_flux(comparison, path: str | Path, unit: str = "cm/d") -> Path:
+    """Metered flux against vertical gradient at shared sites, with the median implied kv line."""
+    apply_style()
+    fac = flux_factor(unit)
+    fig, ax = plt.subplots(figsize=(6, 4.5))
+    j = comparison["vhg [1]"].to_numpy(dtype=float)
+    q = comparison["meter_flux [m/s]"].to_numpy(dtype=float) * fac
+    ax.scatter(j, q, color=GAINING, zorder=3)
+    for site, xj, yq in zip(comparison["site"], j, q):
+        ax.annotate(str(site), (xj, yq), fontsize=7, xytext=(3, 3), textcoords="offset points")
+    k = np.nanmedian(comparison["implied_kv [m/s]"].to_numpy(dtype=float)) if len(j) else np.nan
+    if np.isfinite(k):
+        line = np.array([min(0.0, j.min()), max(0.0, j.max())])
+        ax.plot(line, k * line * fac, "--", color=LOSING, label=f"q = K vhg, median implied K = {k:.2g} m/s")
+        ax.legend(fontsize=8)
+    ax.axhline(0.0, color="0.5", lw=0.8)
+    ax.axvline(0.0, color="0.5", lw=0.8)
+    ax.set_xlabel("vertical hydraulic gradient (-), up > 0")
+    ax.set_ylabel(f"metered bed flux ({unit}), up > 0")
+    ax.set_title("Gradient against flux at shared sites")
+    fig.tight_layout()
+    return save(fig, path)

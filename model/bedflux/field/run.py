@@ -9,7 +9,7 @@ import pandas as pd
 
 from ..atomic import staged_directory
 from ..errors import InputError
-from . import plots
+from .. import plots
 from .consistency import compare_methods
 from .flags import Flags
 from .kinds import DEFAULT_EFFICIENCY, SHEET_FILES, SITES
@@ -145,7 +145,7 @@ def run_field(sheets_dir: str | Path, outdir: str | Path, *, quiet: bool = False
         if "velocity" in sheets:
             _write_csv(velocity, stage / "velocity_readings.csv")
         if bed is not None:
-            plots.bed_map(bed, meters, stage / "bed_flux_map.png")
+            plots.field_bed_map(bed, meters, stage / "bed_flux_map.png")
         if not comparison.empty:
             _write_csv(comparison, stage / "consistency.csv")
             plots.gradient_vs_flux(comparison, stage / "gradient_vs_flux.png")
