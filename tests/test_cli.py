@@ -87,3 +87,11 @@ def test_failed_run_leaves_existing_outputs_alone(tmp_path):
 def test_field_verb_bad_folder(tmp_path, capsys):
     assert main(["field", str(tmp_path / "missing"), "-o", str(tmp_path / "f")]) == 2
     assert "Traceback" not in capsys.readouterr().err
+
+
+def test_unwritable_output_folder_exits_2(tmp_path, capsys):
+    blocker = tmp_path / "a_file"
+    blocker.write_text("not a folder")
+    assert main(["run", "-o", str(blocker / "out"), "-q"]) == 2
+    err = capsys.readouterr().err
+    assert "output folder" in err and "Traceback" not in err

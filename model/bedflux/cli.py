@@ -107,6 +107,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     except InputError as err:
         print(f"bedflux {args.verb}: error: {err.render()}", file=sys.stderr)
         return 2
+    except (PermissionError, NotADirectoryError, IsADirectoryError, FileExistsError) as err:
+        print(f"bedflux {args.verb}: error: cannot write or read {err.filename}: {err.strerror}; "
+              "choose another output folder (-o)", file=sys.stderr)
+        return 2
     except SolverError as err:
         print(f"bedflux {args.verb}: the solver failed: {err}", file=sys.stderr)
         return 1
