@@ -37,13 +37,22 @@ class Faces:
 
 
 def _pairs(active: np.ndarray, offset_rows: int, offset_cols: int) -> tuple[np.ndarray, np.ndarray]:
-    """Flat positions (a, b) of active cell pairs with b = a + (offset_rows, offset_cols)."""
+    """Flat positions (a, b) of active cell pairs with b = a + (offset_rows, offset_cols), int32."""
     nz, nx = active.shape
     a_mask = active[: nz - offset_rows, : nx - offset_cols] & active[offset_rows:, offset_cols:]
-    f = np.flatnonzero(a_mask)
+    f = np.flatnonzero(a_mask).astype(np.int32)
     width = nx - offset_cols
-    a = (f // width) * nx + (f % width)
-    return a, a + offset_rows * nx + offset_cols
+    if offset_cols:
+        f += f // width  # skip the last column of each row
+    return f, f + np.int32(offset_rows * nx + offset_cols)
+
+
+def _unknowns(grid: Grid) -> np.ndarray:
+    """Unknown number of each flat grid position (int32, -1 where inactive)."""
+    idx = np.full(grid.active.size, -1, dtype=np.int32)
+    flat = grid.active.ravel()
+    idx[flat] = np.arange(int(flat.sum()), dtype=np.int32)
+    return idx
 
 
 def horizontal_faces(grid: Grid, mat: Materials, periodic: bool) -> Faces:
@@ -51,28 +60,28 @@ def horizontal_faces(grid: Grid, mat: Materials, periodic: bool) -> Faces:
     nx = grid.nx
     a, b = _pairs(grid.active, 0, 1)
     if periodic and nx > 1:
-        rows = np.flatnonzero(grid.active[:, -1] & grid.active[:, 0])
+        rows = np.flatnonzero(grid.active[:, -1] & grid.active[:, 0]).astype(np.int32)
         a = np.concatenate([a, rows * nx + nx - 1])
         b = np.concatenate([b, rows * nx])
-    idx = grid.index().ravel().astype(np.int32)
-    a, b = a.astype(np.int32), b.astype(np.int32)
+    idx = _unknowns(grid)
     kh = mat.kh.ravel()
-    dx = np.broadcast_to(grid.dx[None, :], grid.active.shape).ravel()
-    bottom = np.broadcast_to(grid.z_edges[1:, None], grid.active.shape).ravel()
-    top = bottom + grid.thickness.ravel()
-    area = np.minimum(top[a], top[b]) - np.maximum(bottom[a], bottom[b])
-    c = area / (dx[a] / (2.0 * kh[a]) + dx[b] / (2.0 * kh[b]))
+    t = grid.thickness.ravel()
+    bottom = grid.z_edges[1:]
+    ra, rb = a // nx, b // nx
+    ca, cb = a - ra * nx, b - rb * nx
+    # overlap of the two cells' vertical extents (the top cells are cut at the ground)
+    area = np.minimum(bottom[ra] + t[a], bottom[rb] + t[b]) - np.maximum(bottom[ra], bottom[rb])
+    c = area / (grid.dx[ca] / (2.0 * kh[a]) + grid.dx[cb] / (2.0 * kh[b]))
     return Faces(idx[a], idx[b], c, area, a, b)
 
 
 def vertical_faces(grid: Grid, mat: Materials) -> Faces:
     """Faces between a cell and the one above it (``lo`` is the lower cell)."""
     upper, lower = _pairs(grid.active, 1, 0)
-    upper, lower = upper.astype(np.int32), lower.astype(np.int32)
-    idx = grid.index().ravel().astype(np.int32)
+    idx = _unknowns(grid)
     kv = mat.kv.ravel()
     t = grid.thickness.ravel()
-    dx = np.broadcast_to(grid.dx[None, :], grid.active.shape).ravel()[lower]
+    dx = grid.dx[lower % grid.nx]
     c = dx / (t[upper] / (2.0 * kv[upper]) + t[lower] / (2.0 * kv[lower]))
     return Faces(idx[lower], idx[upper], c, dx, lower, upper)
 
@@ -80,25 +89,44 @@ def vertical_faces(grid: Grid, mat: Materials) -> Faces:
 def conductance_matrix(n: int, faces: list[Faces]) -> sp.csr_matrix:
     """The symmetric matrix ``L`` (diagonal ``sum C``, off-diagonal ``-C``) of ``n`` unknowns.
 
-    Built directly in CSR form: each cell has at most five slots (up, left, self, right, down),
-    filled from the face lists without sorting.
+    Built directly in CSR form without sorting: each row holds, in this order, the cell above,
+    the cell to the left, itself, the cell to the right and the cell below (column order, since
+    unknowns are numbered row by row from the top); wrap-around faces of periodic sides break the
+    order and are sorted afterwards.
     """
     h, v = faces
-    cols = np.full((n, 5), -1, dtype=np.int32)
-    vals = np.zeros((n, 5))
-    cols[:, 2] = np.arange(n, dtype=np.int32)
-    # slot 0: the cell above (vertical face, this cell is lo); slot 4: the cell below
-    cols[v.lo, 0], vals[v.lo, 0] = v.hi, -v.conductance
-    cols[v.hi, 4], vals[v.hi, 4] = v.lo, -v.conductance
-    # slot 1: the cell to the left (this cell is hi); slot 3: the cell to the right
-    cols[h.hi, 1], vals[h.hi, 1] = h.lo, -h.conductance
-    cols[h.lo, 3], vals[h.lo, 3] = h.hi, -h.conductance
-    vals[:, 2] = -vals.sum(axis=1)
-    present = cols >= 0
-    indptr = np.zeros(n + 1, dtype=np.int32)
-    np.cumsum(present.sum(axis=1, dtype=np.int32), out=indptr[1:])
-    A = sp.csr_matrix((vals[present], cols[present], indptr), shape=(n, n))
-    # without wrap-around faces the slots are in column order already
+    has_up = np.zeros(n, dtype=np.int32)
+    has_up[v.lo] = 1
+    has_left = np.zeros(n, dtype=np.int32)
+    has_left[h.hi] = 1
+    has_right = np.zeros(n, dtype=np.int32)
+    has_right[h.lo] = 1
+    has_down = np.zeros(n, dtype=np.int32)
+    has_down[v.hi] = 1
+    counts = 1 + has_up + has_left + has_right + has_down
+    indptr = np.zeros(n + 1, dtype=np.int64 if counts.sum() > 2**31 - 1 else np.int32)
+    np.cumsum(counts, out=indptr[1:])
+    del counts
+    nnz = int(indptr[-1])
+    data = np.empty(nnz)
+    indices = np.empty(nnz, dtype=indptr.dtype)
+    start = indptr[:-1]
+    # slot positions within each row
+    p_up = start
+    p_left = start + has_up
+    p_self = p_left + has_left
+    p_right = p_self + 1
+    p_down = p_right + has_right
+    del has_up, has_left, has_right, has_down
+    data[p_up[v.lo]], indices[p_up[v.lo]] = -v.conductance, v.hi
+    data[p_left[h.hi]], indices[p_left[h.hi]] = -h.conductance, h.lo
+    data[p_right[h.lo]], indices[p_right[h.lo]] = -h.conductance, h.hi
+    data[p_down[v.hi]], indices[p_down[v.hi]] = -v.conductance, v.lo
+    diag = (np.bincount(h.lo, weights=h.conductance, minlength=n) + np.bincount(h.hi, weights=h.conductance, minlength=n)
+            + np.bincount(v.lo, weights=v.conductance, minlength=n) + np.bincount(v.hi, weights=v.conductance, minlength=n))
+    data[p_self] = diag
+    indices[p_self] = np.arange(n, dtype=indices.dtype)
+    A = sp.csr_matrix((data, indices, indptr), shape=(n, n))
     wraps = bool(np.any(h.lo > h.hi))
     A.has_sorted_indices = not wraps
     if wraps:
