@@ -83,6 +83,7 @@ def build_dataset(section: Section, states: Sequence[Fluxes], stages: Sequence[f
         "bedflux_version": __version__,
         "sign_convention": "vertical flux and bed flux positive upward (gaining stream)",
         "zone_names": ",".join(m.zone_names),
+        "section_runs": section.scenario.grid.runs,
         "stage_slope": float(section.scenario.stream.slope) if section.scenario.stream is not None else 0.0,
         **attrs,
     })

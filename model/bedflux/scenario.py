@@ -42,6 +42,7 @@ class GridSpec:
     dz: float
     growth: float = 1.0
     dz_max: float = math.inf
+    runs: str = "across"
 
 
 @dataclass(frozen=True)
@@ -237,7 +238,7 @@ def _build(d: dict, base_dir: Path, source: str) -> Scenario:
 
 def _grid(g: dict) -> GridSpec:
     where = "[grid]"
-    checks.reject_unknown(g, ["x", "bottom", "dx", "dz", "growth", "dz_max"], where=where)
+    checks.reject_unknown(g, ["x", "bottom", "dx", "dz", "growth", "dz_max", "runs"], where=where)
     x0, x1 = checks.interval(g, "x", where)
     bottom = checks.quantity(g, "bottom", "length", where)
     dx = checks.quantity(g, "dx", "length", where, low=0.0, low_inclusive=False)
@@ -246,7 +247,8 @@ def _grid(g: dict) -> GridSpec:
     dz_max = checks.quantity(g, "dz_max", "length", where, default=math.inf, low=dz)
     if dx > (x1 - x0) * (1 + 1e-9):
         raise InputError(f"dx = {dx:g} m is wider than the section ({x1 - x0:g} m)", where=where)
-    return GridSpec(x0, x1, bottom, dx, dz, growth, dz_max)
+    runs = checks.choice(g, "runs", ["across", "along"], where, default="across")
+    return GridSpec(x0, x1, bottom, dx, dz, growth, dz_max, runs)
 
 
 def _ground(t: dict, grid: GridSpec) -> tuple[tuple[float, float], ...]:

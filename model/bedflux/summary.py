@@ -23,6 +23,9 @@ def summarise(ds: xr.Dataset) -> dict:
         "solver": ds.attrs.get("solver", ""),
         "cells": int(ds.attrs.get("cells", 0)),
         "exchange_m2_per_s": float(last["exchange"].values),
+        # flows are per metre of section width: of channel length across it, of channel width along it
+        "per_metre_of": "channel width" if ds.attrs.get("section_runs") == "along" else "channel",
+        "section_length_m": float(ds["x_edge"].values[-1] - ds["x_edge"].values[0]),
         "gaining_length_m": float(dx[wet & (q > 0)].sum()),
         "losing_length_m": float(dx[wet & (q < 0)].sum()),
         "submerged_length_m": float(dx[wet].sum()),
@@ -47,7 +50,8 @@ def summary_text(s: dict) -> str:
     lines = [
         f"{s['title']}",
         f"run: {s['run']}, {s['cells']} cells, solver {s['solver']}",
-        f"net exchange: {s['exchange_m2_per_s'] * day:.4g} m3/d per metre of channel ({verdict})",
+        f"net exchange: {s['exchange_m2_per_s'] * day:.4g} m3/d per metre of {s['per_metre_of']} ({verdict})"
+        + (f", over the {s['section_length_m']:.4g} m of the section" if s["per_metre_of"] == "channel width" else ""),
         f"submerged bed: {s['submerged_length_m']:.3g} m; gaining {s['gaining_length_m']:.3g} m, "
         f"losing {s['losing_length_m']:.3g} m",
     ]

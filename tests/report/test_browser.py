@@ -156,7 +156,7 @@ def test_findings_state_the_numbers_of_the_runs(project, page):
         way = "gaining" if ex > 0 else "losing"
         # formatted independently of the report (3 significant figures, m3/d per metre)
         assert f"reach is {way}" in text
-        assert f"{abs(ex) * 86400:.3g} m³/d per metre of channel" in text, run
+        assert f"{abs(ex) * 86400:.3g} m³/d per metre of {s['per_metre_of']}" in text, run
         for key in ("gaining_length_m", "losing_length_m", "submerged_length_m"):
             assert fd.length(s[key]) in text, (run, key)
         assert fd.flux(s["max_gaining_flux_m_per_s"]) in text

@@ -78,9 +78,10 @@ def number(v: Any, digits: int = 3) -> str:
     return f"{v:.{digits - 1}e}"
 
 
-def per_metre(m2_per_s: float) -> str:
-    """A net exchange (m^2/s) as its size in m³/d per metre of channel (sign in the words)."""
-    return f"{number(abs(m2_per_s) * DAY)} m³/d per metre of channel"
+def per_metre(m2_per_s: float, of: str = "channel") -> str:
+    """A net exchange (m^2/s) as its size in m³/d per metre of channel (or of channel width, for a
+    section along the channel; sign in the words)."""
+    return f"{number(abs(m2_per_s) * DAY)} m³/d per metre of {of}"
 
 
 def signed_per_metre(m2_per_s: float) -> str:
@@ -169,12 +170,15 @@ def exchange_finding(summary: dict, source: str = ".", unit: str = "m/d") -> Fin
     when = f"At the end of the run ({hours(summary['end_time_s'])}) the" if transient and \
         finite(summary.get("end_time_s")) else "The"
     f = Finding("exchange", source, title=summary.get("title", ""))
+    of = summary.get("per_metre_of", "channel")
+    over = (f" over the {length(float(summary['section_length_m']))} of the section"
+            if of == "channel width" and finite(summary.get("section_length_m")) else "")
     if way == "gaining":
         f.sentences.append(f"{when} reach is gaining: groundwater flows into the stream at a net "
-                           f"{per_metre(ex)}.")
+                           f"{per_metre(ex, of)}{over}.")
     elif way == "losing":
         f.sentences.append(f"{when} reach is losing: stream water flows into the aquifer at a net "
-                           f"{per_metre(ex)}.")
+                           f"{per_metre(ex, of)}{over}.")
     else:
         f.sentences.append(f"{when} net exchange with the stream is about zero: gains and losses balance.")
     sub = float(summary.get("submerged_length_m", 0.0) or 0.0)
