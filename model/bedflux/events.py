@@ -188,8 +188,9 @@ def events_text(reach: dict, table: pd.DataFrame) -> str:
         lines.append(f"net exchange reverses: {'; '.join(parts)} ({reach['reversed_duration'] / hour:.1f} h in all)")
     else:
         lines.append("net exchange does not reverse")
-    if not table.empty and (~table["wet_at_start"]).any():
-        fl = table[~table["wet_at_start"]]
+    flooded = table[~table["wet_at_start"] & (table["submerged_duration"] > 0)] if not table.empty else table
+    if not flooded.empty:
+        fl = flooded
         lines.append(f"the stage floods {len(fl)} floodplain columns (x = {fl['x'].min():.3g} to "
                      f"{fl['x'].max():.3g} m) for up to {fl['submerged_duration'].max() / hour:.1f} h")
     if not table.empty and (table["reversals"] > 0).any():
