@@ -48,6 +48,7 @@ class FreeParameter:
     log: bool = False
     prior: float | None = None
     prior_sd: float | None = None
+    note: str = ""
 
     def internal(self, value: float) -> float:
         """The value in the estimation space."""
@@ -116,12 +117,46 @@ def free_parameters(scenario: Scenario, free: list[dict], source: str = "fit") -
             raise InputError("prior_sd must be > 0", source=source, where=where)
         if prior is not None and log and float(prior) <= 0:
             raise InputError("the prior of a log parameter must be > 0", source=source, where=where)
+        try:
+            scenario.with_values({path: start})
+        except InputError as err:
+            raise InputError(f"start = {start:g} (SI) is not a value the scenario allows: {err.message}",
+                             source=source, where=where) from None
+        note = ""
+        for name in ("low", "high"):
+            bound = low if name == "low" else high
+            allowed = _allowed_bound(scenario, path, start, bound, log)
+            if allowed != bound:
+                note += f"{name} bound narrowed from {bound:g} to {allowed:g}, the scenario's limit; "
+                low, high = (allowed, high) if name == "low" else (low, allowed)
         out.append(FreeParameter(path, low, high, start, log,
                                  None if prior is None else float(prior),
-                                 None if prior_sd is None else float(prior_sd)))
+                                 None if prior_sd is None else float(prior_sd), note.rstrip("; ")))
     if not out:
         raise InputError("no free parameters", source=source)
     return out
+
+
+def _allowed_bound(scenario: Scenario, path: str, start: float, bound: float, log: bool) -> float:
+    """``bound`` if the scenario accepts it, else the value closest to it that it accepts (by
+    bisection between the start, which it accepts, and the bound)."""
+    def ok(v: float) -> bool:
+        try:
+            scenario.with_values({path: v})
+            return True
+        except InputError:
+            return False
+
+    if ok(bound):
+        return bound
+    a, b = (math.log10(start), math.log10(bound)) if log else (start, bound)
+    for _ in range(60):
+        mid = 0.5 * (a + b)
+        if ok(10.0**mid if log else mid):
+            a = mid
+        else:
+            b = mid
+    return 10.0**a if log else a
 
 
 # ------------------------------------------------------------------------------------------

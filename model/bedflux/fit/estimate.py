@@ -48,6 +48,7 @@ class FitResult:
     m_best: np.ndarray
     posterior: dict | None = None
     starts: list[dict] = field(default_factory=list)
+    bound_notes: dict[str, str] = field(default_factory=dict)
 
 
 def _prior_terms(forward: Forward) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -187,8 +188,9 @@ def summarise(forward: Forward, m: np.ndarray, evaluate=None) -> FitResult:
     table["residual"] = resid
     table["weighted_residual"] = resid / sigma
     verdicts = _verdicts(forward, m, css, corr, sdm, sv, Vt, J, info, s2)
+    notes = {q.path: q.note for q in forward.free if q.note}
     return FitResult(best, ci, cov, corr, table, J, forward.n_forward_runs, stats_d, css_d, sv, Vt,
-                     verdicts, paths, np.asarray(m))
+                     verdicts, paths, np.asarray(m), bound_notes=notes)
 
 
 def unseen_parameters(info: np.ndarray, rtol: float = 1e-10) -> np.ndarray:

@@ -29,6 +29,7 @@ def result_dict(result: FitResult) -> dict:
         "starts": result.starts,
         "n_forward_runs": result.n_forward_runs,
         "posterior": result.posterior,
+        "bound_notes": result.bound_notes,
         "notes": {
             "estimation_space": "log10 of the value for log parameters",
             "intervals": "linearised, t-based with the residual variance (Hill & Tiedeman 2007)",
