@@ -140,3 +140,18 @@ def text(t: Mapping[str, Any], key: str, where: str, default: Any = _MISSING) ->
     if not isinstance(v, str):
         raise InputError(f"{key} must be text in quotes; got {v!r}", where=where or None)
     return v
+
+
+def integer(t: Mapping[str, Any], key: str, where: str, default: Any = _MISSING, low: int | None = None,
+            high: int | None = None) -> Any:
+    """A whole number within ``[low, high]``."""
+    if key not in t:
+        if default is _MISSING:
+            raise InputError(f"the key '{key}' is required (a whole number)", where=where or None)
+        return default
+    v = t[key]
+    if isinstance(v, bool) or not isinstance(v, int):
+        raise InputError(f"{key} must be a whole number; got {v!r}", where=where or None)
+    if (low is not None and v < low) or (high is not None and v > high):
+        raise InputError(f"{key} = {v} is not allowed; it must lie in [{low}, {high}]", where=where or None)
+    return v

@@ -102,6 +102,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     if not getattr(args, "func", None):
         parser.print_help()
         return 0
+    if hasattr(args, "output") and args.output is not None and not str(args.output).strip():
+        print(f"bedflux {args.verb}: error: -o needs a folder name; got an empty one", file=sys.stderr)
+        return 2
     try:
         return args.func(args)
     except InputError as err:

@@ -160,10 +160,17 @@ def read_series(path: str | Path, dimension: str = "length", value_name: str | N
     """
     path = Path(path)
     source = str(path)
+    if path.is_dir():
+        raise InputError("is a folder; expected a CSV file", source=source)
     if not path.is_file():
         raise InputError("file not found", source=source)
-    with path.open(newline="", encoding="utf-8-sig") as fh:
-        rows = [r for r in csv.reader(fh) if any(c.strip() for c in r)]
+    try:
+        with path.open(newline="", encoding="utf-8-sig") as fh:
+            rows = [r for r in csv.reader(fh) if any(c.strip() for c in r)]
+    except UnicodeDecodeError:
+        raise InputError("not a UTF-8 text file (save the series as CSV in UTF-8)", source=source) from None
+    except (csv.Error, IsADirectoryError) as err:
+        raise InputError(f"cannot read as CSV: {err}", source=source) from None
     if len(rows) < 3:
         raise InputError("a series needs a header row and at least two data rows", source=source)
     header = rows[0]
@@ -192,8 +199,9 @@ def read_series(path: str | Path, dimension: str = "length", value_name: str | N
     values: list[float] = []
     t0 = None
     for irow, row in enumerate(rows[1:], start=2):
-        if len(row) <= vcol:
-            raise InputError(f"expected {len(header)} cells; got {len(row)}", source=source, where=f"row {irow}")
+        if len(row) != len(header):
+            raise InputError(f"expected {len(header)} cells like the header; got {len(row)}", source=source,
+                             where=f"row {irow}")
         tcell, vcell = row[0].strip(), row[vcol].strip()
         if not tcell or not vcell:
             raise InputError("empty cell: a gap in the series (fill it or remove the row)",

@@ -75,6 +75,11 @@ def check_observations(df: pd.DataFrame, source: str = "observations") -> pd.Dat
             raise InputError(f"column '{col}' is empty or not a number{hint}", source=source,
                              where=f"row {i + 2}")
         out[col] = vals.astype(float)
+    for col in ("x", "depth", "time", "value", "sigma"):
+        bad = ~np.isfinite(out[col].to_numpy())
+        if bad.any():
+            i = int(np.flatnonzero(bad)[0])
+            raise InputError(f"column '{col}' must be a finite number", source=source, where=f"row {i + 2}")
     if (out["sigma"] <= 0).any():
         i = int(np.flatnonzero(out["sigma"] <= 0)[0])
         raise InputError("sigma must be > 0 (the standard deviation of the observation, SI)",

@@ -185,10 +185,12 @@ def load(path: str | Path) -> Scenario:
         If the file is missing, is not valid TOML, or any value is not allowed.
     """
     path = Path(path)
+    if path.is_dir():
+        raise InputError("is a folder; expected a scenario TOML file", source=str(path))
     if not path.is_file():
         raise InputError("scenario file not found", source=str(path))
     try:
-        data = tomllib.loads(path.read_text(encoding="utf-8"))
+        data = tomllib.loads(path.read_text(encoding="utf-8-sig"))
     except tomllib.TOMLDecodeError as err:
         raise InputError(f"not valid TOML: {err}", source=str(path)) from None
     except UnicodeDecodeError:
@@ -536,7 +538,11 @@ def _set_path(raw: dict, path: str, value: float, source: str) -> None:
 def _resolved_value(s: Scenario, path: str) -> float:
     parts = path.split(".")
     if len(parts) == 2 and parts[0] in s.zone_names():
-        return float(getattr(s.zones[s.zone_names().index(parts[0])], parts[1]))
+        value = getattr(s.zones[s.zone_names().index(parts[0])], parts[1])
+        if value is None:
+            raise InputError(f"zone '{parts[0]}' has no {parts[1]} (the first zone fills the domain)",
+                             source=s.source, where=path)
+        return float(value)
     if path == "recharge.rate":
         return s.recharge
     if path == "stream.stage" and s.stream is not None and isinstance(s.stream.stage, Constant):

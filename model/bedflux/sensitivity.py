@@ -117,6 +117,9 @@ def free_parameters(scenario: Scenario, free: list[dict], source: str = "fit") -
             raise InputError("prior_sd must be > 0", source=source, where=where)
         if prior is not None and log and float(prior) <= 0:
             raise InputError("the prior of a log parameter must be > 0", source=source, where=where)
+        if prior is not None and not low <= float(prior) <= high:
+            raise InputError(f"the prior {float(prior):g} lies outside the bounds [{low:g}, {high:g}]",
+                             source=source, where=where)
         try:
             scenario.with_values({path: start})
         except InputError as err:
@@ -292,19 +295,22 @@ class Forward:
     free: list[FreeParameter]
     pan_diameter: float = DEFAULT_PAN_DIAMETER
     fd_step: float = 1e-4
+    source: str = "observations"
     n_forward_runs: int = field(default=0, init=False)
     n_sensitivity_solves: int = field(default=0, init=False)
 
     def __post_init__(self):
-        self.observations = check_observations(self.observations)
+        self.observations = check_observations(self.observations, self.source)
         self.kinds = [classify(self.scenario, p.path) for p in self.free]
+        # every observation must lie in the section (checked once, before any fitting)
+        build_operators(discretise(self.scenario_at(self.start())), self.observations, self.pan_diameter, self.source)
         if self.scenario.transient:
             t = self.observations["time"]
             late = t > self.scenario.time.end
             if late.any() or (t < 0).any():
                 i = int(np.flatnonzero(late | (t < 0))[0])
                 raise InputError(f"time = {t.iloc[i]:g} s is outside the run [0, {self.scenario.time.end:g}] s",
-                                 source="observations", where=f"row {i + 2}")
+                                 source=self.source, where=f"row {i + 2}")
 
     @property
     def n_params(self) -> int:
@@ -365,14 +371,14 @@ class Forward:
     def _run(self, m: np.ndarray, analytic: list[int]) -> tuple[np.ndarray, np.ndarray]:
         scen = self.scenario_at(m)
         section = discretise(scen)
-        ops = build_operators(section, self.observations, self.pan_diameter)
+        ops = build_operators(section, self.observations, self.pan_diameter, self.source)
         self.n_forward_runs += 1
         values = [p.natural(v) for p, v in zip(self.free, m)]
         chain = np.array([p.dnatural(v) for p, v in zip(self.free, m)])
         J = np.zeros((self.n_data, self.n_params))
         if not scen.transient:
             sol = solve_steady(section, reuse=True)
-            d = predict(section, ops, sol.u, sol.terms, 0.0)
+            d = predict(section, ops, sol.u, sol.terms, 0.0, self.source)
             if analytic:
                 Jsub = self._steady_jacobian(section, ops, sol, [self.kinds[j] for j in analytic],
                                              [values[j] for j in analytic])

@@ -6,6 +6,7 @@ expected and what was given.
 """
 from __future__ import annotations
 
+import re
 from functools import lru_cache
 from typing import Any
 
@@ -29,6 +30,9 @@ DIMENSIONS: dict[str, tuple[str, str, str]] = {
     "area_rate": ("[length] ** 2 / [time]", "m^2/s", "a flow per unit length (length^2/time)"),
     "per_time": ("1 / [time]", "1/s", "a rate (1/time)"),
 }
+
+#: A number followed by a unit (no arithmetic between quantities).
+_QUANTITY = re.compile(r"^\s*[-+]?(\d+(\.\d*)?|\.\d+)([eE][-+]?\d+)?(?P<unit>.*)$")
 
 #: Tokens that mean "per day" etc. written the way field notes do.
 _ALIASES = {"m/d": "m/day", "cm/d": "cm/day", "mm/d": "mm/day", "m/yr": "m/year", "mm/yr": "mm/year"}
@@ -104,6 +108,10 @@ def parse_quantity(value: Any, dimension: str) -> float:
         return v
     if not isinstance(value, str):
         raise InputError(f"expected {words} as a number or a string like '5 {si or ''}'; got {value!r}")
+    m = _QUANTITY.match(value)
+    if not m or any(op in m.group("unit") for op in ("+", ",", " - ", "=")):
+        raise InputError(f"cannot read '{value}' as {words}: write a number and a unit, e.g. '5 {si}', "
+                         "or a bare SI number")
     ureg = registry()
     try:
         q = ureg.Quantity(_normalise(value))

@@ -101,6 +101,8 @@ def run_field(sheets_dir: str | Path, outdir: str | Path, *, quiet: bool = False
     sheets = {SHEET_FILES[name].kind: _read(path, sites, rejected)
               for name, path in found.items() if SHEET_FILES[name] is not SITES}
 
+    for sheet in sheets.values():
+        _check_trust(sheet, rejected)
     velocity = reduce_velocity(sheets["velocity"], rejected) if "velocity" in sheets else pd.DataFrame()
     vhead = {} if velocity.empty else {
         s: float(head_from_velocity(g["velocity [m/s]"].mean())) for s, g in velocity.groupby("site")}

@@ -211,6 +211,9 @@ def _meters(readings: pd.DataFrame, sites: Sites, flags: Flags) -> pd.DataFrame:
 
 def _transects(meters: pd.DataFrame, flags: Flags) -> pd.DataFrame:
     meters["robust_outlier"] = False
+    if meters.empty or "transect" not in meters:
+        # every reading was rejected: the run's trust check reports the sheet
+        return pd.DataFrame(columns=["transect", "meters", "outliers", "n", "mean [m/s]", "std [m/s]"])
     rows = []
     for label, g in meters[meters["transect"] != ""].groupby("transect", sort=True):
         g = g.sort_values("y [m]")

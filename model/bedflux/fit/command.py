@@ -15,7 +15,7 @@ def _run(args: argparse.Namespace) -> int:
     from .spec import load_fit
 
     spec = load_fit(args.fitfile)
-    forward = Forward(spec.scenario, spec.observations, spec.free, spec.pan_diameter)
+    forward = Forward(spec.scenario, spec.observations, spec.free, spec.pan_diameter, source=spec.observations_source)
     say = (lambda line: print(line, file=sys.stderr)) if not args.quiet else None
     result = estimate(forward, starts=spec.starts, seed=spec.seed, progress=say)
     if spec.sample:

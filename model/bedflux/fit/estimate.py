@@ -21,7 +21,7 @@ import numpy as np
 import pandas as pd
 from scipy import optimize, stats
 
-from ..errors import SolverError
+from ..errors import InputError, SolverError
 from ..sensitivity import LN10, Forward
 
 #: Correlations above this are reported as parameters the data cannot tell apart.
@@ -115,6 +115,8 @@ def estimate(forward: Forward, starts: int = 1, seed: int = 0,
         try:
             sol = optimize.least_squares(fun, m0, jac=jac, bounds=(lo, hi), method="trf", x_scale="jac",
                                          xtol=1e-12, ftol=1e-12, gtol=1e-12, max_nfev=200)
+        except InputError:
+            raise
         except (ValueError, np.linalg.LinAlgError) as err:
             raise SolverError(f"the least-squares solver failed from start {k + 1}: {err}") from None
         objective = float(np.sum(sol.fun**2))

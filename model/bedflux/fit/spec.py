@@ -83,18 +83,23 @@ def observations_from(path: Path, source: str) -> pd.DataFrame:
 
 def read_toml(path: Path, what: str) -> dict:
     """A TOML file as a dict, or an InputError naming the file."""
+    if path.is_dir():
+        raise InputError(f"is a folder; expected a {what} (TOML)", source=str(path))
     if not path.is_file():
         raise InputError(f"{what} not found", source=str(path))
     try:
-        return tomllib.loads(path.read_text(encoding="utf-8"))
+        return tomllib.loads(path.read_text(encoding="utf-8-sig"))
     except tomllib.TOMLDecodeError as err:
         raise InputError(f"not valid TOML: {err}", source=str(path)) from None
     except UnicodeDecodeError:
         raise InputError("not a text file (expected UTF-8 TOML)", source=str(path)) from None
 
 
-def free_tables(d: dict, source: str) -> list[dict]:
-    """The ``[[free]]`` tables of a fit or plan file as SI dicts (units parsed by parameter)."""
+def free_tables(d: dict, source: str, scenario: Scenario | None = None) -> list[dict]:
+    """The ``[[free]]`` tables of a fit or plan file as SI dicts (units parsed by parameter).
+
+    With ``scenario``, each path is checked first, so an unknown path is reported as such.
+    """
     raw = d.get("free")
     if not isinstance(raw, list) or not raw:
         raise InputError("at least one [[free]] parameter is required", source=source, where="top level")
@@ -102,7 +107,15 @@ def free_tables(d: dict, source: str) -> list[dict]:
     for i, f in enumerate(raw):
         if not isinstance(f, dict) or "path" not in f:
             raise InputError("each [[free]] needs a path", source=source, where=f"free parameter {i + 1}")
+        if not isinstance(f["path"], str):
+            raise InputError(f"path must be text such as \"bed.kv\"; got {f['path']!r}", source=source,
+                             where=f"free parameter {i + 1}")
         where = f"free parameter '{f['path']}'"
+        if scenario is not None:
+            try:
+                scenario.value_at(f["path"])
+            except InputError as err:
+                raise InputError(err.message, source=source, where=where) from None
         try:
             checks.reject_unknown(f, _FREE_KEYS, where=where)
             item = {"path": str(f["path"])}
@@ -135,14 +148,14 @@ def load_fit(path: str | Path) -> FitSpec:
         obs_name = checks.text(d, "observations", "top level")
         pan = checks.quantity(d, "pan_diameter", "length", "top level", default=DEFAULT_PAN_DIAMETER,
                               low=0.0, low_inclusive=False, high=5.0)
-        starts = int(checks.number(d, "starts", "top level", default=1, low=1, high=100))
-        seed = int(checks.number(d, "seed", "top level", default=0, low=0))
-        sample = int(checks.number(d, "sample", "top level", default=0, low=0, high=1e6))
+        starts = checks.integer(d, "starts", "top level", default=1, low=1, high=100)
+        seed = checks.integer(d, "seed", "top level", default=0, low=0)
+        sample = checks.integer(d, "sample", "top level", default=0, low=0, high=1000000)
     except InputError as err:
         raise err.located(source=source) from None
     scenario = load(path.parent / scen_name)
     observations = observations_from(path.parent / obs_name, source)
-    free_si = free_tables(d, source)
+    free_si = free_tables(d, source, scenario)
     free = free_parameters(scenario, free_si, source)
     return FitSpec(source, path.parent / scen_name, scenario, check_observations(observations, obs_name),
                    str(path.parent / obs_name), free, pan, starts, seed, sample)

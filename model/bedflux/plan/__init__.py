@@ -10,7 +10,8 @@ import pandas as pd
 from ..observe import check_observations
 from ..scenario import Scenario
 from ..sensitivity import Forward, FreeParameter, free_parameters
-from .candidates import Instruments, as_observations, check_candidates
+from ..errors import InputError
+from .candidates import DEFAULT_MAX_DEPTH, Instruments, as_observations, check_candidates
 from .targets import parse_target, target_gradient, to_natural
 from .worth import add_one, greedy, posterior, target_spread
 
@@ -42,7 +43,7 @@ def _candidate_time(scenario: Scenario) -> float:
 def plan(scenario: Scenario, free: list[dict], candidates: pd.DataFrame, n: int, target: str = "parameters", *,
          existing: pd.DataFrame | None = None, instruments: Instruments = Instruments(), min_spacing: float = 0.0,
          max_per_transect: int | None = None, length: float | None = None,
-         pan_diameter: float = 0.57) -> pd.DataFrame:
+         pan_diameter: float = 0.57, max_depth: float = DEFAULT_MAX_DEPTH, source: str = "plan") -> pd.DataFrame:
     """Rank ``n`` new instruments by the expected reduction of the target's uncertainty.
 
     Parameters
@@ -72,23 +73,31 @@ def plan(scenario: Scenario, free: list[dict], candidates: pd.DataFrame, n: int,
         after the pick, in its natural units; reduction: fraction of the spread it removes).
         ``.attrs`` holds the target, the spread before any pick and the single-instrument curve.
     """
-    fp = free_parameters(scenario, free, "plan")
-    cand = check_candidates(candidates)
+    fp = free_parameters(scenario, free, source)
+    cand = check_candidates(candidates, f"{source}: candidates", max_depth)
     t_read = _candidate_time(scenario)
     times = pd.to_numeric(cand["time"], errors="coerce").fillna(t_read).to_numpy() if "time" in cand else t_read
     obs = as_observations(cand, 0.0)
     obs["time"] = times
-    forward = Forward(scenario, obs, fp, pan_diameter)
+    forward = Forward(scenario, obs, fp, pan_diameter, source=f"{source}: candidates")
     m = forward.start()
     d, J = forward.predict_and_jacobian(m)
     sigma = instruments.sigma(cand, d)
     C0 = prior_covariance(fp)
     if existing is not None and len(existing):
-        ex = check_observations(existing, "existing instruments")
-        fe = Forward(scenario, ex, fp, pan_diameter)
+        ex = check_observations(existing, f"{source}: existing instruments")
+        fe = Forward(scenario, ex, fp, pan_diameter, source=f"{source}: existing instruments")
         Je = fe.jacobian(m)
         C0 = posterior(C0, Je, ex["sigma"].to_numpy())
-    tgt = parse_target(target, [p.path for p in fp], length)
+    tgt = parse_target(target, [p.path for p in fp], length, source)
+    if tgt.kind == "reversal":
+        if not scenario.transient:
+            raise InputError("a reversal target needs a transient scenario (a [time] table)", source=source,
+                             where="target")
+        x0, x1 = scenario.grid.x0, scenario.grid.x1
+        if not (np.isfinite(tgt.x) and x0 <= tgt.x <= x1):
+            raise InputError(f"reversal:{tgt.x:g} is not a column of the section ({x0:g} to {x1:g} m)",
+                             source=source, where="target")
     g, value = target_gradient(forward, tgt, m)
     labels = cand["transect"].astype(str).to_numpy()
     xs = cand["x"].to_numpy()

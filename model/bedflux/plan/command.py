@@ -18,7 +18,8 @@ def _run(args: argparse.Namespace) -> int:
     spec = load_plan(args.planfile)
     table = plan(spec.scenario, spec.free, spec.candidates, spec.n, spec.target, existing=spec.existing,
                  instruments=spec.instruments, min_spacing=spec.min_spacing,
-                 max_per_transect=spec.max_per_transect, length=spec.length, pan_diameter=spec.pan_diameter)
+                 max_per_transect=spec.max_per_transect, length=spec.length, pan_diameter=spec.pan_diameter,
+                 max_depth=spec.max_depth, source=spec.source)
     detect = None
     if spec.scenario.transient:
         from ..simulate import simulate

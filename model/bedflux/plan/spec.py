@@ -62,6 +62,7 @@ class PlanSpec:
     instruments: Instruments
     free: list[dict]
     depths: list[float]
+    max_depth: float
 
 
 def load_plan(path: str | Path) -> PlanSpec:
@@ -78,12 +79,12 @@ def load_plan(path: str | Path) -> PlanSpec:
     try:
         checks.reject_unknown(d, _KEYS, where="top level")
         scen = load(path.parent / checks.text(d, "scenario", "top level"))
-        n = int(checks.number(d, "n", "top level", low=1, high=200))
+        n = checks.integer(d, "n", "top level", low=1, high=200)
         target = checks.text(d, "target", "top level", default="parameters")
         length = checks.quantity(d, "length", "length", "top level", default=None, low=0.0, low_inclusive=False)
         min_spacing = checks.quantity(d, "min_spacing", "length", "top level", default=0.0, low=0.0)
         mpt = d.get("max_per_transect")
-        mpt = None if mpt is None else int(checks.number(d, "max_per_transect", "top level", low=1))
+        mpt = None if mpt is None else checks.integer(d, "max_per_transect", "top level", low=1)
         pan = checks.quantity(d, "pan_diameter", "length", "top level", default=0.57, low=0.0, low_inclusive=False)
         c = checks.table(d, "candidates", "top level", required=True)
         checks.reject_unknown(c, ["seepage_spacing", "piezometer_spacing", "depths", "max_depth", "table"],
@@ -108,7 +109,13 @@ def load_plan(path: str | Path) -> PlanSpec:
         tpath = path.parent / str(c["table"])
         if not tpath.is_file():
             raise InputError("candidate table not found", source=str(tpath))
-        cand = check_candidates(pd.read_csv(tpath), str(tpath), max_depth)
+        try:
+            table = pd.read_csv(tpath)
+        except UnicodeDecodeError:
+            raise InputError("not a UTF-8 text file (save the candidates as CSV in UTF-8)", source=str(tpath)) from None
+        except (pd.errors.EmptyDataError, pd.errors.ParserError) as err:
+            raise InputError(f"cannot read as a candidate table: {err}", source=str(tpath)) from None
+        cand = check_candidates(table, str(tpath), max_depth)
     else:
         from ..solve.section import discretise
 
@@ -126,5 +133,6 @@ def load_plan(path: str | Path) -> PlanSpec:
     existing = None
     if "existing" in d:
         existing = observations_from(path.parent / str(d["existing"]), source)
-    free = free_tables(d, source)
-    return PlanSpec(source, scen, n, target, length, existing, min_spacing, mpt, pan, cand, instruments, free, depths)
+    free = free_tables(d, source, scen)
+    return PlanSpec(source, scen, n, target, length, existing, min_spacing, mpt, pan, cand, instruments, free, depths,
+                    max_depth)

@@ -45,5 +45,12 @@ def build_report(folder: str | Path, output: str | Path | None = None, unit: str
     target = Path(output) if output is not None else Path(folder) / "report.html"
     if target.is_dir():
         raise InputError("is a folder; give the report's file name, for example report.html", str(target))
-    write_text(target, render(project, unit))
+    try:
+        html = render(project, unit)
+    except InputError:
+        raise
+    except (ValueError, TypeError, KeyError) as err:
+        raise InputError(f"an output file in this folder holds a value of the wrong type or lacks a key ({err}); "
+                         "re-run the bedflux command that wrote it", str(folder)) from None
+    write_text(target, html)
     return target

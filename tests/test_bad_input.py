@@ -1,0 +1,105 @@
+"""Bad input found by probing the command line: each exits 2 with a message, never a traceback.
+
+The contract (design brief): exit status 2 and a message naming the file, key or row and what is
+allowed; nothing written on failure.
+"""
+from __future__ import annotations
+
+import shutil
+from pathlib import Path
+
+import pytest
+
+from bedflux.cli import main
+
+ROOT = Path(__file__).resolve().parents[1]
+SCEN = ROOT / "scenarios"
+
+
+def run_cli(args, capsys):
+    code = main(args)
+    err = capsys.readouterr().err
+    assert "Traceback" not in err
+    return code, err
+
+
+def test_stage_csv_not_utf8(tmp_path, capsys):
+    (tmp_path / "s.csv").write_bytes("elapsed [h],stage [m]\n0,1\n5,1\n".encode("utf-16"))
+    (tmp_path / "s.toml").write_text((SCEN / "measured_stage.toml").read_text().replace("measured_stage.csv", "s.csv")
+                                     .replace('end = "3 d"', 'end = "4 h"'))
+    code, err = run_cli(["run", str(tmp_path / "s.toml"), "-o", str(tmp_path / "o")], capsys)
+    assert code == 2 and "UTF-8" in err and not (tmp_path / "o").exists()
+
+
+def test_seepage_sheet_with_every_row_rejected(tmp_path, capsys):
+    d = tmp_path / "sheets"
+    d.mkdir()
+    (d / "sites.csv").write_text("site,x [m],y [m],bed_elevation [m]\nA1,0,0,0\n")
+    (d / "seepage.csv").write_text("site,time [h],duration [min],volume_start [mL],volume_end [mL],pan_diameter [cm]\n"
+                                   "Z9,1,90,1000,2000,57\n")
+    code, err = run_cli(["field", str(d), "-o", str(tmp_path / "o")], capsys)
+    assert code == 2 and "seepage.csv" in err and not (tmp_path / "o").exists()
+
+
+def _fit_file(tmp_path, free_block):
+    for name in ("reach_long.toml",):
+        shutil.copy(SCEN / name, tmp_path / name)
+    shutil.copytree(SCEN / "field", tmp_path / "field")
+    p = tmp_path / "fit.toml"
+    p.write_text(f'scenario = "reach_long.toml"\nobservations = "field"\n{free_block}')
+    return p
+
+
+def test_free_path_without_a_value(tmp_path, capsys):
+    p = _fit_file(tmp_path, '[[free]]\npath = "aquifer.depth"\nlow = "10 cm"\nhigh = "2 m"\n')
+    code, err = run_cli(["fit", str(p), "-o", str(tmp_path / "o")], capsys)
+    assert code == 2 and "aquifer.depth" in err
+
+
+def test_unknown_free_path_is_named_before_units(tmp_path, capsys):
+    p = _fit_file(tmp_path, '[[free]]\npath = "bed"\nlow = "0.01 m/d"\nhigh = "5 m/d"\n')
+    code, err = run_cli(["fit", str(p), "-o", str(tmp_path / "o")], capsys)
+    assert code == 2 and "unknown parameter path 'bed'" in err
+
+
+def test_observation_outside_section_exits_2(tmp_path, capsys):
+    obs = tmp_path / "obs.csv"
+    obs.write_text("kind,x,depth,time,value,sigma\nseepage,500,0,0,1e-6,1e-7\n")
+    shutil.copy(SCEN / "reach_long.toml", tmp_path / "reach_long.toml")
+    p = tmp_path / "fit.toml"
+    p.write_text('scenario = "reach_long.toml"\nobservations = "obs.csv"\n[[free]]\npath = "bed.kv"\n'
+                 'low = "0.01 m/d"\nhigh = "10 m/d"\n')
+    code, err = run_cli(["fit", str(p), "-o", str(tmp_path / "o")], capsys)
+    assert code == 2 and "obs.csv" in err and "outside the section" in err
+
+
+def test_empty_candidate_table_and_bad_targets(tmp_path, capsys):
+    shutil.copy(SCEN / "reach_long.toml", tmp_path / "reach_long.toml")
+    (tmp_path / "c.csv").write_text("")
+    base = ('scenario = "reach_long.toml"\nn = {n}\ntarget = "{target}"\n[candidates]\n{cand}\n'
+            '[[free]]\npath = "bed.kv"\nlow = "0.01 m/d"\nhigh = "10 m/d"\n')
+    cases = [(2, "bed.kv", 'table = "c.csv"', "c.csv"),
+             (2.5, "bed.kv", 'seepage_spacing = "10 m"', "whole number"),
+             (2, "reversal:5000", 'seepage_spacing = "10 m"', "reversal")]
+    for n, target, cand, needle in cases:
+        p = tmp_path / "plan.toml"
+        p.write_text(base.format(n=n, target=target, cand=cand))
+        code, err = run_cli(["plan", str(p), "-o", str(tmp_path / "o")], capsys)
+        assert code == 2 and needle in err, (target, err)
+        assert not (tmp_path / "o").exists()
+
+
+def test_quantity_needs_a_number_and_one_unit(tmp_path, capsys):
+    text = (SCEN / "channel_banks.toml").read_text().replace('kh = "25 m/d"', 'kh = "m/d"')
+    (tmp_path / "s.toml").write_text(text)
+    code, err = run_cli(["run", str(tmp_path / "s.toml"), "-o", str(tmp_path / "o")], capsys)
+    assert code == 2 and "number and a unit" in err
+
+
+def test_report_with_a_wrong_type_and_empty_output_name(tmp_path, capsys):
+    (tmp_path / "p" / "run").mkdir(parents=True)
+    (tmp_path / "p" / "run" / "summary.json").write_text('{"exchange_m2_per_s": "abc"}')
+    code, err = run_cli(["report", str(tmp_path / "p"), "-o", str(tmp_path / "r.html")], capsys)
+    assert code == 2 and not (tmp_path / "r.html").exists()
+    code, err = run_cli(["run", "-o", ""], capsys)
+    assert code == 2 and "-o" in err
