@@ -103,3 +103,27 @@ def test_report_with_a_wrong_type_and_empty_output_name(tmp_path, capsys):
     assert code == 2 and not (tmp_path / "r.html").exists()
     code, err = run_cli(["run", "-o", ""], capsys)
     assert code == 2 and "-o" in err
+
+
+def _base(**over):
+    d = {"grid": {"x": [0, 10], "bottom": -5, "dx": 1, "dz": 0.5}, "ground": {"elevation": 0},
+         "zone": [{"name": "aquifer", "kh": 1e-5}], "stream": {"stage": 0.5}}
+    d.update(over)
+    return d
+
+
+@pytest.mark.parametrize("over,needle", [
+    ({"zone": [{"name": "aquifer", "kh": 1e-5}, {"name": "far", "kh": 1e-6, "depth": 1, "x": [100, 200]}]},
+     "covers no cell"),
+    ({"riparian": [{"x": [100, 200], "rate": "3 mm/d", "extinction_depth": 2}]}, "no column centre"),
+    ({"stream": {"stage": "1e6 m"}}, "check the unit"),
+    ({"zone": [{"name": "aquifer", "kh": 1e300}]}, "above 1 m/s"),
+])
+def test_values_that_do_nothing_or_cannot_be_meant(over, needle):
+    import bedflux
+    from bedflux.errors import InputError
+
+    with pytest.raises(InputError) as e:
+        bedflux.simulate(bedflux.Scenario.from_dict(_base(**over)))
+    assert needle in str(e.value)
+    assert "did you mean '1e+300" not in str(e.value)

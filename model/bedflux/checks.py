@@ -72,16 +72,22 @@ def quantity(
         value = parse_quantity(raw, dimension)
     except InputError as err:
         raise err.located(where=place) from None
-    si = DIMENSIONS[dimension][1] or "1"
-    shown = f"{raw!r} ({si})" if not isinstance(raw, str) else repr(raw)
+    si = DIMENSIONS[dimension][1]
+    shown = (f"{raw!r} ({si})" if si else f"{raw!r}") if not isinstance(raw, str) else repr(raw)
     if low is not None and (value < low or (value == low and not low_inclusive)):
         rel = ">=" if low_inclusive else ">"
-        raise InputError(f"{key} = {shown} is not allowed; it must be {rel} {low:g} {si}", where=where or None)
+        raise InputError(f"{key} = {shown} is not allowed; it must be {rel} {low:g}{' ' + si if si else ''}",
+                         where=where or None)
     if high is not None and value > high:
         hint = ""
         if high_hint and not isinstance(raw, str):
-            hint = f"; did you mean '{raw:g} {high_hint}'?"
-        raise InputError(f"{key} = {shown} is above {high:g} {si}{hint}", where=where or None)
+            try:
+                suggested = parse_quantity(f"{raw:g} {high_hint}", dimension)
+            except InputError:
+                suggested = float("inf")
+            if suggested <= high:
+                hint = f"; did you mean '{raw:g} {high_hint}'?"
+        raise InputError(f"{key} = {shown} is above {high:g}{' ' + si if si else ''}{hint}", where=where or None)
     return value
 
 

@@ -45,6 +45,10 @@ def zone_index(scenario: Scenario, grid: Grid) -> np.ndarray:
             inside &= depth_below_ground <= zone.depth
         if zone.z is not None:
             inside &= (zc >= zone.z[0]) & (zc <= zone.z[1])
+        if not (inside & grid.active).any():
+            raise InputError(f"zone '{zone.name}' covers no cell of the grid (check its x, z or depth against "
+                             f"[grid] x = [{grid.x_edges[0]:g}, {grid.x_edges[-1]:g}] and the ground)",
+                             source=scenario.source, where=f"zone '{zone.name}'")
         owner[inside & grid.active] = i
     return owner
 

@@ -26,6 +26,7 @@ SS_MAX = 1e-2  # 1/m: plastic clay is about 2.6e-3 1/m (Domenico & Mifflin 1965,
 RECHARGE_MAX = 1e-6  # m/s = 86 mm/d
 ET_MAX = 2e-7  # m/s = 17 mm/d, above the highest recorded daily evapotranspiration
 LEAKANCE_MAX = 10.0  # 1/s
+HEAD_RANGE_MAX = 1000.0  # m: heads and stages this far above the model base are a unit slip
 
 _TOP_KEYS = ["title", "grid", "ground", "zone", "stream", "sides", "recharge", "riparian", "time", "initial"]
 _SIDE_WORDS = ["no-flow", "periodic", "stream"]
@@ -231,6 +232,9 @@ def _build(d: dict, base_dir: Path, source: str) -> Scenario:
     if initial_head is not None and time is None:
         raise InputError("[initial] head needs a [time] table (a steady run has no initial state)",
                          where="[initial]")
+    if initial_head is not None and initial_head > grid.bottom + HEAD_RANGE_MAX:
+        raise InputError(f"head = {initial_head:g} m is more than {HEAD_RANGE_MAX:g} m above the model base; "
+                         "check the unit or the datum", where="[initial]")
     if initial_head is not None and initial_head < grid.bottom:
         raise InputError(f"head = {initial_head:g} m is below the model base ({grid.bottom:g} m)",
                          where="[initial]")
@@ -381,10 +385,13 @@ def _series_from(t: dict, key: str, where: str, base_dir: Path, value_name: str 
 def _check_head_signal(sig: Signal, key: str, where: str, grid: GridSpec, t_end: float) -> None:
     if isinstance(sig, Series):
         sig.check_covers(t_end)
-    low, _ = sig.bounds(t_end)
+    low, high = sig.bounds(t_end)
     if low < grid.bottom:
         raise InputError(f"{key} falls to {low:g} m, below the model base bottom = {grid.bottom:g} m; "
                          "lower [grid] bottom or check the stage datum", where=where)
+    if high > grid.bottom + HEAD_RANGE_MAX:
+        raise InputError(f"{key} rises to {high:g} m, more than {HEAD_RANGE_MAX:g} m above the model base "
+                         f"({grid.bottom:g} m); check the unit or the datum", where=where)
 
 
 def _stream(t: dict, base_dir: Path, grid: GridSpec, t_end: float) -> StreamSpec | None:

@@ -307,7 +307,9 @@ def _evapotranspiration(scenario: Scenario, grid: Grid, idx: np.ndarray):
         inside = np.nonzero((grid.xc >= r.x[0]) & (grid.xc <= r.x[1]))[0]
         for_cols = inside
         if for_cols.size == 0:
-            continue
+            raise InputError(f"x = [{r.x[0]:g}, {r.x[1]:g}] holds no column centre of the grid "
+                             f"([{grid.x_edges[0]:g}, {grid.x_edges[-1]:g}] m)", source=scenario.source,
+                             where=f"riparian {iz}")
         if r.root_depth <= 0.0:
             rows = grid.top_row[for_cols]
             cells.append(idx[rows, for_cols]); cols.append(for_cols)
