@@ -133,6 +133,11 @@ def reduce_seepage(sheet: Sheet, sites: Sites, rejected: Rejected, flags: Flags)
     keep = ~empty
     sheet = reject_where(sheet, empty, pan, f"empty cell; '{pan}' is required", rejected)
     v_start, v_end = v_start[keep], v_end[keep]
+    over = np.asarray(sheet.numbers["efficiency"], dtype=float) > 1.0
+    if over.any():
+        sheet = reject_where(sheet, over, "efficiency", "efficiency is the fraction of the true flux the meter "
+                             "captures (0 to 1): write 0.77, not 77", rejected)
+        v_start, v_end = v_start[~over], v_end[~over]
     n = sheet.numbers
     area = pan_area(n[pan]) if pan == "pan_diameter" else n[pan]
     dv = v_end - v_start
