@@ -199,9 +199,9 @@ def _run_section(o: Output, unit: str) -> str:
         parts.append(f'<p class="note">A video of the same animation is beside the outputs: '
                      f"{esc(Path(o.data['movie']).name)}.</p>")
     if "events.csv" in o.tables:
-        ev_t = read_table(o.tables["events.csv"])
-        if not ev_t.empty:
-            shown = ev_t.copy()
+        event_table = read_table(o.tables["events.csv"])
+        if not event_table.empty:
+            shown = event_table.copy()
             fac = fd.flux_factor(unit)
             for c in ("submerged_duration", "first_reversal_start", "last_reversal_end", "reversed_duration"):
                 if c in shown:
