@@ -67,6 +67,7 @@ def reduce_slug(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.DataFrame:
         k_h = hvorslev_k_from_lag(fit.time_lag, geo["casing_radius"], geo["screen_radius"],
                                   geo["screen_length"], anisotropy=m)
         k_br = np.nan
+        test_flags = []
         if np.isfinite(geo["well_depth"]) and np.isfinite(geo["saturated_thickness"]):
             try:
                 k_br = bouwer_rice_k_from_lag(fit.time_lag, geo["casing_radius"], geo["screen_radius"],
@@ -74,7 +75,9 @@ def reduce_slug(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.DataFrame:
                                               geo["saturated_thickness"])
             except InputError as err:
                 flags.add("slug_tests", test, "bouwer_rice_refused", err.message)
+                test_flags.append("bouwer_rice_refused")
         if not fit.log_linear:
+            test_flags.append("not_log_linear")
             flags.add("slug_tests", test, "not_log_linear",
                       f"recovery is not log-linear (R^2 = {fit.r2:.3f}, or early and late slopes differ "
                       "by more than 25 %)")
@@ -86,7 +89,7 @@ def reduce_slug(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.DataFrame:
             "r2 [1]": fit.r2,
             "k_hvorslev [m/s]": k_h,
             "k_bouwer_rice [m/s]": k_br,
-            "flags": "" if fit.log_linear else "not_log_linear",
+            "flags": ";".join(test_flags),
         })
     return pd.DataFrame(rows, columns=["test", "site", "n", "time_lag [s]", "r2 [1]", "k_hvorslev [m/s]",
                                        "k_bouwer_rice [m/s]", "flags"])
