@@ -39,6 +39,7 @@ def simulate(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = None,
 def steady_dataset(section: Section, method: str = "auto") -> xr.Dataset:
     """Solve the steady state of a discretised section and package it."""
     sol = solve_steady(section, 0.0, method=method)
+    sol.factor = None  # free the factorization or multigrid hierarchy before the derived fields
     fl = derive(section, sol.u, sol.terms, wet=section.submerged(0.0))
     attrs = {"run": "steady", "solver": sol.method, "active_set_passes": sol.passes,
              "cells": section.n}

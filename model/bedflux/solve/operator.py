@@ -32,8 +32,17 @@ class Faces:
     hi: np.ndarray
     conductance: np.ndarray
     area: np.ndarray
-    lo_pos: np.ndarray
-    hi_pos: np.ndarray
+    positions: np.ndarray  # flat grid position of each unknown (shared, not per face)
+
+    @property
+    def lo_pos(self) -> np.ndarray:
+        """Flat grid positions of the ``lo`` cells."""
+        return self.positions[self.lo]
+
+    @property
+    def hi_pos(self) -> np.ndarray:
+        """Flat grid positions of the ``hi`` cells."""
+        return self.positions[self.hi]
 
 
 def _pairs(active: np.ndarray, offset_rows: int, offset_cols: int) -> tuple[np.ndarray, np.ndarray]:
@@ -55,7 +64,12 @@ def _unknowns(grid: Grid) -> np.ndarray:
     return idx
 
 
-def horizontal_faces(grid: Grid, mat: Materials, periodic: bool) -> Faces:
+def unknown_positions(grid: Grid) -> np.ndarray:
+    """Flat grid position of each unknown (int32)."""
+    return np.flatnonzero(grid.active.ravel()).astype(np.int32)
+
+
+def horizontal_faces(grid: Grid, mat: Materials, periodic: bool, positions: np.ndarray) -> Faces:
     """Faces between side-by-side active cells (and the wrap-around faces when periodic)."""
     nx = grid.nx
     a, b = _pairs(grid.active, 0, 1)
@@ -72,10 +86,10 @@ def horizontal_faces(grid: Grid, mat: Materials, periodic: bool) -> Faces:
     # overlap of the two cells' vertical extents (the top cells are cut at the ground)
     area = np.minimum(bottom[ra] + t[a], bottom[rb] + t[b]) - np.maximum(bottom[ra], bottom[rb])
     c = area / (grid.dx[ca] / (2.0 * kh[a]) + grid.dx[cb] / (2.0 * kh[b]))
-    return Faces(idx[a], idx[b], c, area, a, b)
+    return Faces(idx[a], idx[b], c, area, positions)
 
 
-def vertical_faces(grid: Grid, mat: Materials) -> Faces:
+def vertical_faces(grid: Grid, mat: Materials, positions: np.ndarray) -> Faces:
     """Faces between a cell and the one above it (``lo`` is the lower cell)."""
     upper, lower = _pairs(grid.active, 1, 0)
     idx = _unknowns(grid)
@@ -83,7 +97,7 @@ def vertical_faces(grid: Grid, mat: Materials) -> Faces:
     t = grid.thickness.ravel()
     dx = grid.dx[lower % grid.nx]
     c = dx / (t[upper] / (2.0 * kv[upper]) + t[lower] / (2.0 * kv[lower]))
-    return Faces(idx[lower], idx[upper], c, dx, lower, upper)
+    return Faces(idx[lower], idx[upper], c, dx, positions)
 
 
 def conductance_matrix(n: int, faces: list[Faces]) -> sp.csr_matrix:
@@ -132,3 +146,13 @@ def conductance_matrix(n: int, faces: list[Faces]) -> sp.csr_matrix:
     if wraps:
         A.sort_indices()
     return A
+
+
+def diagonal_positions(A: sp.csr_matrix) -> np.ndarray:
+    """Index into ``A.data`` of each row's diagonal entry (every row has one)."""
+    n = A.shape[0]
+    rows = np.repeat(np.arange(n, dtype=A.indices.dtype), np.diff(A.indptr))
+    pos = np.flatnonzero(A.indices == rows)
+    if pos.size != n:
+        raise ValueError("every row needs a stored diagonal entry")
+    return pos

@@ -20,6 +20,7 @@ the root depth by cell thickness (each cell uses its own head, so the matrix sta
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Mapping
 
 import numpy as np
@@ -31,7 +32,8 @@ from ..forcing import Constant
 from ..grid import Grid, build_grid
 from ..materials import Materials, materials
 from ..scenario import BoundarySpec, Scenario
-from .operator import Faces, conductance_matrix, horizontal_faces, vertical_faces
+from .operator import (Faces, conductance_matrix, diagonal_positions, horizontal_faces, unknown_positions,
+                       vertical_faces)
 
 SECONDS_PER_DAY = 86400.0
 
@@ -102,11 +104,16 @@ class Section:
     et_ext: np.ndarray
     et_cycle: np.ndarray
     et_zone: np.ndarray
-    cell_volume: np.ndarray = field(repr=False)
+    diagonal: np.ndarray = field(repr=False, default=None)
 
     @property
     def n(self) -> int:
         return self.grid.n_active
+
+    @cached_property
+    def cell_volume(self) -> np.ndarray:
+        """Cell area in the section (m^2 per metre of width), per unknown (made when first needed)."""
+        return (self.grid.thickness * self.grid.dx[None, :])[self.grid.active]
 
     # ---------------------------------------------------------------------------- forcing
     def stage(self, t: float) -> float | None:
@@ -240,6 +247,10 @@ class Section:
 
     def elastic_storage(self) -> np.ndarray:
         """Specific storage times cell area, per unknown."""
+        return self._elastic
+
+    @cached_property
+    def _elastic(self) -> np.ndarray:
         return self.materials.ss[self.grid.active] * self.cell_volume
 
     def water_table_storage(self, wet: np.ndarray) -> np.ndarray:
@@ -252,11 +263,15 @@ class Section:
 
     # ---------------------------------------------------------------------------- assembly
     def matrix(self, terms: list[Term], extra_diag: np.ndarray | float = 0.0) -> sp.csr_matrix:
-        """``L + diag(sum g + extra_diag)``."""
+        """``L + diag(sum g + extra_diag)``, sharing ``L``'s index arrays (only the values are new)."""
         d = np.zeros(self.n) + extra_diag
         for term in terms:
             _bincount_add(d, term.cells, term.g)
-        return (self.L + sp.diags(d, format="csr")).tocsr()
+        data = self.L.data.copy()
+        data[self.diagonal] += d
+        A = sp.csr_matrix((data, self.L.indices, self.L.indptr), shape=self.L.shape, copy=False)
+        A.has_sorted_indices = self.L.has_sorted_indices
+        return A
 
     def rhs(self, terms: list[Term]) -> np.ndarray:
         """``sum r`` over the terms."""
@@ -344,10 +359,11 @@ def discretise(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = Non
     """
     grid = build_grid(scenario)
     mat = materials(scenario, grid, fields)
-    idx = grid.index()
+    idx = grid.index().astype(np.int32)
     periodic = scenario.left.kind == "periodic"
-    hf = horizontal_faces(grid, mat, periodic)
-    vf = vertical_faces(grid, mat)
+    positions = unknown_positions(grid)
+    hf = horizontal_faces(grid, mat, periodic, positions)
+    vf = vertical_faces(grid, mat, positions)
     L = conductance_matrix(grid.n_active, [hf, vf])
     cols = np.arange(grid.nx)
     top_cells = idx[grid.top_row, cols]
@@ -363,9 +379,8 @@ def discretise(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = Non
         bed_head = bedform_head(grid.xc, bf.amplitude, bf.wavelength, bf.phase)
     sides = {s: _side_geometry(grid, mat, idx, s) for s in ("left", "right", "bottom")}
     et = _evapotranspiration(scenario, grid, idx)
-    volume = (grid.thickness * grid.dx[None, :])[grid.active]
     section = Section(scenario, grid, mat, idx, hf, vf, L, _reference_head(scenario, grid), top_cells,
-                      top_half, channel, bed_head, sides, *et, cell_volume=volume)
+                      top_half, channel, bed_head, sides, *et, diagonal=diagonal_positions(L))
     _require_fixed_head(section)
     return section
 
