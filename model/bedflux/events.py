@@ -23,10 +23,6 @@ import xarray as xr
 from scipy.interpolate import RegularGridInterpolator
 
 
-def _trapz(y: np.ndarray, t: np.ndarray) -> float:
-    return float(np.sum(0.5 * (y[1:] + y[:-1]) * np.diff(t)))
-
-
 def _crossings(t: np.ndarray, y: np.ndarray, reference_sign: float) -> list[tuple[float, float | None]]:
     """Intervals where ``sign(y) != reference_sign``; ends interpolated at the zero crossings."""
     tol = 1e-9 * float(np.max(np.abs(y))) if y.size else 0.0

@@ -84,8 +84,8 @@ class Grid:
 
     def index(self) -> np.ndarray:
         """``(nz, nx)`` unknown number of each active cell (row-major), -1 where inactive."""
-        idx = np.full(self.active.shape, -1, dtype=np.int64)
-        idx[self.active] = np.arange(self.n_active)
+        idx = np.full(self.active.shape, -1, dtype=np.int32)
+        idx[self.active] = np.arange(self.n_active, dtype=np.int32)
         return idx
 
 

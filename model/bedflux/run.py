@@ -6,36 +6,15 @@ outputs computed so far, marked as partial.
 """
 from __future__ import annotations
 
-import hashlib
 import json
-import shutil
 from pathlib import Path
 
 from . import __version__
 from .atomic import staged_directory, write_text
-from .io import write_result, write_summary
+from .io import copy_inputs, input_files, write_result, write_summary
 from .progress import ProgressBar
-from .scenario import Scenario, load
+from .scenario import load
 from .simulate import simulate
-
-
-def input_files(scenario: Scenario) -> list[Path]:
-    """The scenario file and every CSV it reads."""
-    files = [Path(scenario.source)]
-    base = Path(scenario.base_dir)
-    raw = scenario.raw
-    stream = raw.get("stream", {}) or {}
-    if "stage_csv" in stream:
-        files.append(base / stream["stage_csv"])
-    for side in (raw.get("sides", {}) or {}).values():
-        if isinstance(side, dict) and "head_csv" in side:
-            files.append(base / side["head_csv"])
-    return files
-
-
-def sha256(path: Path) -> str:
-    """Hex SHA-256 of a file."""
-    return hashlib.sha256(path.read_bytes()).hexdigest()
 
 
 def run_scenario(path: Path, outdir: Path, unit: str = "m/d", quiet: bool = False) -> dict:
@@ -53,12 +32,7 @@ def run_scenario(path: Path, outdir: Path, unit: str = "m/d", quiet: bool = Fals
         from .animation import animate
 
         animate(ds, stage / "animation", unit=unit)
-        inputs = stage / "inputs"
-        inputs.mkdir()
-        prov = {"bedflux_version": __version__, "inputs": {}}
-        for f in input_files(scenario):
-            shutil.copy2(f, inputs / f.name)
-            prov["inputs"][f.name] = sha256(f)
+        prov = {"bedflux_version": __version__, "inputs": copy_inputs(stage, input_files(scenario))}
         write_text(stage / "provenance.json", json.dumps(prov, indent=2) + "\n")
     summary["partial"] = ds.attrs.get("partial", "")
     return summary

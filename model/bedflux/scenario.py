@@ -343,7 +343,7 @@ def _signal_stage(t: dict, base_dir: Path, grid: GridSpec, t_end: float) -> Sign
     if form == "stage":
         sig: Signal = Constant(checks.quantity(t, "stage", "length", "[stream]"))
     elif form == "stage_csv":
-        sig = _series_from(t, "stage_csv", "[stream]", base_dir, "stage")
+        sig = _series_from(t, "stage_csv", "[stream]", base_dir)
     elif form == "pulse":
         p = checks.table(t, "pulse", "[stream]")
         w = "[stream.pulse]"
@@ -374,7 +374,7 @@ def _rate(t: dict, key: str, where: str) -> float:
     return checks.quantity(t, key, "per_time", where, default=0.0, low=0.0)
 
 
-def _series_from(t: dict, key: str, where: str, base_dir: Path, value_name: str | None) -> Series:
+def _series_from(t: dict, key: str, where: str, base_dir: Path) -> Series:
     name = checks.text(t, key, where)
     try:
         return read_series(base_dir / name, "length", None)
@@ -460,7 +460,7 @@ def _boundary(sides: dict, key: str, stream: StreamSpec | None, base_dir: Path, 
         _check_head_signal(sig, "head", w, grid, t_end)
         return BoundarySpec("head", sig)
     if k == "head_csv":
-        sig = _series_from(dict(v), "head_csv", w, base_dir, None)
+        sig = _series_from(dict(v), "head_csv", w, base_dir)
         _check_head_signal(sig, "head", w, grid, t_end)
         return BoundarySpec("head", sig)
     if k == "flux":
@@ -521,7 +521,7 @@ def _locate(raw: dict, path: str, source: str) -> tuple[Any, Any]:
     if parts == ["recharge", "rate"] and "recharge" not in raw:
         raw["recharge"] = {}
     node: Any = raw
-    for i, p in enumerate(parts[:-1]):
+    for p in parts[:-1]:
         if isinstance(node, list) and p.isdigit() and int(p) < len(node):
             node = node[int(p)]
         elif isinstance(node, Mapping) and p in node:

@@ -125,8 +125,3 @@ def parse_quantity(value: Any, dimension: str) -> float:
     if not np.isfinite(out):
         raise InputError(f"expected a finite value for {words}; got '{value}'")
     return out
-
-
-def format_velocity(value: float) -> str:
-    """A flux or conductivity in m/s and m/d for messages, e.g. ``1e-05 m/s (0.864 m/d)``."""
-    return f"{value:.4g} m/s ({value * 86400:.4g} m/d)"

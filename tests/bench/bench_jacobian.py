@@ -17,7 +17,6 @@ from __future__ import annotations
 
 import argparse
 import platform
-import statistics
 import time
 
 import numpy as np

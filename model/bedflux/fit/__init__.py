@@ -1,17 +1,15 @@
 """Calibration: fit scenario parameters to observed heads, gradients and seepage fluxes."""
 from __future__ import annotations
 
-import sys
-import types
-
 from typing import Callable
 
 import pandas as pd
 
 from ..observe import DEFAULT_PAN_DIAMETER
+from ..callable_package import call_as
 from ..scenario import Scenario
 from ..sensitivity import Forward, free_parameters
-from .estimate import FitResult, estimate, sample_posterior
+from .estimate import FitResult, calibrate
 
 __all__ = ["fit", "FitResult"]
 
@@ -44,18 +42,7 @@ def fit(scenario: Scenario, observations: pd.DataFrame, free: list[dict], *,
         ``.n_forward_runs``, statistics, sensitivities and verdicts.
     """
     forward = Forward(scenario, observations, free_parameters(scenario, free), pan_diameter)
-    result = estimate(forward, starts=starts, seed=seed, progress=progress)
-    if sample:
-        result.posterior = sample_posterior(forward, result, steps=sample, seed=seed)
-    result.n_forward_runs = forward.n_forward_runs
-    return result
+    return calibrate(forward, starts=starts, seed=seed, sample=sample, progress=progress)
 
 
-class _CallableModule(types.ModuleType):
-    """``bedflux.fit(...)`` calls :func:`fit` (the contract), while ``bedflux.fit`` stays the package."""
-
-    def __call__(self, *args, **kwargs):
-        return fit(*args, **kwargs)
-
-
-sys.modules[__name__].__class__ = _CallableModule
+call_as(__name__, fit)

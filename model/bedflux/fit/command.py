@@ -6,26 +6,22 @@ import sys
 from pathlib import Path
 
 from ..atomic import staged_directory
+from ..io import copy_inputs
 
 
 def _run(args: argparse.Namespace) -> int:
     from ..sensitivity import Forward
-    from .estimate import estimate, sample_posterior
+    from .estimate import calibrate
     from .outputs import summary_text, write_fit
     from .spec import load_fit
 
     spec = load_fit(args.fitfile)
     forward = Forward(spec.scenario, spec.observations, spec.free, spec.pan_diameter, source=spec.observations_source)
     say = (lambda line: print(line, file=sys.stderr)) if not args.quiet else None
-    result = estimate(forward, starts=spec.starts, seed=spec.seed, progress=say)
-    if spec.sample:
-        result.posterior = sample_posterior(forward, result, steps=spec.sample, seed=spec.seed)
-    result.n_forward_runs = forward.n_forward_runs
+    result = calibrate(forward, starts=spec.starts, seed=spec.seed, sample=spec.sample, progress=say)
     with staged_directory(args.output) as stage:
         write_fit(result, spec.scenario, stage)
-        inputs = stage / "inputs"
-        inputs.mkdir()
-        (inputs / Path(args.fitfile).name).write_bytes(Path(args.fitfile).read_bytes())
+        copy_inputs(stage, [Path(args.fitfile)])
     if not args.quiet:
         print(summary_text(result), end="")
         print(f"outputs written to {args.output}/")

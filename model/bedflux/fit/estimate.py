@@ -132,6 +132,16 @@ def estimate(forward: Forward, starts: int = 1, seed: int = 0,
     return result
 
 
+def calibrate(forward: Forward, starts: int = 1, seed: int = 0, sample: int = 0,
+              progress: Callable[[str], None] | None = None) -> FitResult:
+    """Estimate, optionally sample the posterior (``sample`` steps), and count the forward runs."""
+    result = estimate(forward, starts=starts, seed=seed, progress=progress)
+    if sample:
+        result.posterior = sample_posterior(forward, result, steps=sample, seed=seed)
+    result.n_forward_runs = forward.n_forward_runs
+    return result
+
+
 def summarise(forward: Forward, m: np.ndarray, evaluate=None) -> FitResult:
     """Statistics, intervals and verdicts at the parameter vector ``m`` (estimation space)."""
     if evaluate is None:

@@ -9,6 +9,7 @@ import numpy as np
 import tomli_w
 
 from ..atomic import write_text, write_with
+from ..io import referenced_files
 from ..scenario import Scenario
 from .estimate import FitResult
 
@@ -57,10 +58,7 @@ def calibrated_scenario(scenario: Scenario, result: FitResult, outdir: Path) -> 
     raw = dict(best.raw)
     raw["title"] = f"{scenario.title} (calibrated)"
     base = Path(scenario.base_dir)
-    stream = raw.get("stream") or {}
-    names = [stream.get("stage_csv")] + [s.get("head_csv") for s in (raw.get("sides") or {}).values()
-                                          if isinstance(s, dict)]
-    for name in filter(None, names):
+    for name in referenced_files(scenario):
         dest = outdir / name
         dest.parent.mkdir(parents=True, exist_ok=True)
         shutil.copy2(base / name, dest)

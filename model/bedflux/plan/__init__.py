@@ -1,13 +1,11 @@
 """Planning the next campaign: where new seepage meters and piezometers teach the most."""
 from __future__ import annotations
 
-import sys
-import types
-
 import numpy as np
 import pandas as pd
 
 from ..observe import check_observations
+from ..callable_package import call_as
 from ..scenario import Scenario
 from ..sensitivity import Forward, FreeParameter, free_parameters
 from ..errors import InputError
@@ -134,11 +132,4 @@ def plan(scenario: Scenario, free: list[dict], candidates: pd.DataFrame, n: int,
     return table
 
 
-class _CallableModule(types.ModuleType):
-    """``bedflux.plan(...)`` calls :func:`plan` (the contract), while ``bedflux.plan`` stays the package."""
-
-    def __call__(self, *args, **kwargs):
-        return plan(*args, **kwargs)
-
-
-sys.modules[__name__].__class__ = _CallableModule
+call_as(__name__, plan)

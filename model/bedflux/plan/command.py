@@ -7,6 +7,7 @@ from pathlib import Path
 import numpy as np
 
 from ..atomic import staged_directory
+from ..io import copy_inputs
 
 
 def _run(args: argparse.Namespace) -> int:
@@ -29,9 +30,7 @@ def _run(args: argparse.Namespace) -> int:
                                spec.instruments.seepage_floor)
     with staged_directory(args.output) as stage:
         write_plan(table, spec.scenario, stage, detect)
-        inputs = stage / "inputs"
-        inputs.mkdir()
-        (inputs / Path(args.planfile).name).write_bytes(Path(args.planfile).read_bytes())
+        copy_inputs(stage, [Path(args.planfile)])
     if not args.quiet:
         print(summary_text(table), end="")
         print(f"outputs written to {args.output}/")

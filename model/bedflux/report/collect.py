@@ -14,7 +14,6 @@ skipped. Nothing here interprets the numbers: that is :mod:`bedflux.report.findi
 """
 from __future__ import annotations
 
-import hashlib
 import json
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -98,15 +97,6 @@ class Project:
                     files.append(p)
             files += [p for p in o.figures + o.inputs + list(o.tables.values()) if p not in files]
         return files
-
-
-def sha256(path: Path) -> str:
-    """Hex SHA-256 of a file."""
-    h = hashlib.sha256()
-    with open(path, "rb") as f:
-        for block in iter(lambda: f.read(1 << 20), b""):
-            h.update(block)
-    return h.hexdigest()
 
 
 def read_json(path: Path) -> dict:

@@ -16,7 +16,8 @@ import pandas as pd
 
 from .. import __version__
 from . import findings as fd
-from .collect import MAX_REPRODUCED_BYTES, TEXT_SUFFIXES, Output, Project, read_table, sha256
+from ..io import sha256
+from .collect import MAX_REPRODUCED_BYTES, TEXT_SUFFIXES, Output, Project, read_table
 from .style import STYLESHEET
 
 MIME = {".png": "image/png", ".gif": "image/gif", ".jpg": "image/jpeg", ".jpeg": "image/jpeg",

@@ -49,10 +49,6 @@ class Factor:
             return np.column_stack([self.solve(b[:, j]) for j in range(b.shape[1])])
         return _cg(self.matrix, b, self._amg)
 
-    def solve_transposed(self, b: np.ndarray) -> np.ndarray:
-        """Solve ``A^T x = b`` (the matrix is symmetric: the same solve)."""
-        return self.solve(b)
-
 
 def factorize(A: sp.spmatrix, method: str = "direct") -> Factor:
     """Factorize ``A`` by ``method`` (``"direct"`` or ``"amg-cg"``)."""

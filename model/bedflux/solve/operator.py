@@ -56,14 +56,6 @@ def _pairs(active: np.ndarray, offset_rows: int, offset_cols: int) -> tuple[np.n
     return f, f + np.int32(offset_rows * nx + offset_cols)
 
 
-def _unknowns(grid: Grid) -> np.ndarray:
-    """Unknown number of each flat grid position (int32, -1 where inactive)."""
-    idx = np.full(grid.active.size, -1, dtype=np.int32)
-    flat = grid.active.ravel()
-    idx[flat] = np.arange(int(flat.sum()), dtype=np.int32)
-    return idx
-
-
 def unknown_positions(grid: Grid) -> np.ndarray:
     """Flat grid position of each unknown (int32)."""
     return np.flatnonzero(grid.active.ravel()).astype(np.int32)
@@ -77,7 +69,7 @@ def horizontal_faces(grid: Grid, mat: Materials, periodic: bool, positions: np.n
         rows = np.flatnonzero(grid.active[:, -1] & grid.active[:, 0]).astype(np.int32)
         a = np.concatenate([a, rows * nx + nx - 1])
         b = np.concatenate([b, rows * nx])
-    idx = _unknowns(grid)
+    idx = grid.index().ravel()
     kh = mat.kh.ravel()
     t = grid.thickness.ravel()
     bottom = grid.z_edges[1:]
@@ -92,7 +84,7 @@ def horizontal_faces(grid: Grid, mat: Materials, periodic: bool, positions: np.n
 def vertical_faces(grid: Grid, mat: Materials, positions: np.ndarray) -> Faces:
     """Faces between a cell and the one above it (``lo`` is the lower cell)."""
     upper, lower = _pairs(grid.active, 1, 0)
-    idx = _unknowns(grid)
+    idx = grid.index().ravel()
     kv = mat.kv.ravel()
     t = grid.thickness.ravel()
     dx = grid.dx[lower % grid.nx]

@@ -28,7 +28,6 @@ import scipy.sparse as sp
 
 from ..elliott_brooks import bedform_head
 from ..errors import InputError
-from ..forcing import Constant
 from ..grid import Grid, build_grid
 from ..materials import Materials, materials
 from ..scenario import BoundarySpec, Scenario
@@ -253,12 +252,23 @@ class Section:
     def _elastic(self) -> np.ndarray:
         return self.materials.ss[self.grid.active] * self.cell_volume
 
+    @cached_property
+    def ground_u(self) -> np.ndarray:
+        """Ground elevation relative to h_ref at each top cell, +inf at every other unknown."""
+        out = np.full(self.n, np.inf)
+        out[self.top_cells] = self.grid.ground - self.h_ref
+        return out
+
+    @cached_property
+    def top_sy(self) -> np.ndarray:
+        """Specific yield of the top cell of each column."""
+        return self.materials.sy[self.grid.top_row, np.arange(self.grid.nx)]
+
     def water_table_storage(self, wet: np.ndarray) -> np.ndarray:
         """Specific yield times column width at the top cell of each exposed column, per unknown."""
         s = np.zeros(self.n)
         exposed = ~wet
-        sy = self.materials.sy[self.grid.top_row, np.arange(self.grid.nx)]
-        s[self.top_cells[exposed]] = sy[exposed] * self.grid.dx[exposed]
+        s[self.top_cells[exposed]] = self.top_sy[exposed] * self.grid.dx[exposed]
         return s
 
     # ---------------------------------------------------------------------------- assembly
@@ -279,13 +289,6 @@ class Section:
         for term in terms:
             _bincount_add(b, term.cells, term.r)
         return b
-
-    def diagonal_key(self, terms: list[Term]) -> bytes:
-        """Bytes that identify the boundary diagonal (for reusing a factorization)."""
-        d = np.zeros(self.n)
-        for term in terms:
-            _bincount_add(d, term.cells, term.g)
-        return d.tobytes()
 
 
 def _bincount_add(target: np.ndarray, cells: np.ndarray, values: np.ndarray) -> None:
@@ -359,7 +362,7 @@ def discretise(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = Non
     """
     grid = build_grid(scenario)
     mat = materials(scenario, grid, fields)
-    idx = grid.index().astype(np.int32)
+    idx = grid.index()
     periodic = scenario.left.kind == "periodic"
     positions = unknown_positions(grid)
     hf = horizontal_faces(grid, mat, periodic, positions)
@@ -392,11 +395,3 @@ def _require_fixed_head(section: Section) -> None:
     if not (fixed_side or can_flood or s.recharge > 0.0):
         raise InputError("no head is fixed anywhere: add a [stream] stage over the section, a side "
                          "{head = V} or side = \"stream\"", source=s.source, where="[sides]")
-
-
-def is_constant_forcing(scenario: Scenario) -> bool:
-    """True when the stage and every boundary signal are constants."""
-    sigs = [b.signal for b in (scenario.left, scenario.right, scenario.bottom) if b.signal is not None]
-    if scenario.stream is not None:
-        sigs.append(scenario.stream.stage)
-    return all(isinstance(s, Constant) for s in sigs)

@@ -101,7 +101,7 @@ def output_times(end: float, every: float) -> np.ndarray:
     return t
 
 
-def _state_key(section: Section, wet: np.ndarray, state: ActiveSet, dt: float) -> tuple:
+def _state_key(wet: np.ndarray, state: ActiveSet, dt: float) -> tuple:
     return (round(dt, 9), wet.tobytes(), state.seepage.tobytes(), state.et_mode.tobytes())
 
 
@@ -240,13 +240,11 @@ def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: f
     wet = section.submerged(t1)
     was_wet = section.submerged(t0)
     S_el = section.elastic_storage()
-    ground_u = np.full(section.n, np.inf)
-    ground_u[section.top_cells] = g.ground - section.h_ref
+    ground_u = section.ground_u
     # the water table at the start: the top cell's head, but never above the ground, and at the
     # ground under a column that was flooded (its pores are full whatever the head at the centre)
     u0_wt = np.minimum(u0, ground_u)
     u0_wt[section.top_cells[was_wet]] = ground_u[section.top_cells[was_wet]]
-    sy_top = section.materials.sy[g.top_row, np.arange(g.nx)]
     explicit0 = np.zeros(section.n)
     if theta != 1.0:
         explicit0 = (1.0 - theta) * (_apply(terms0, u0, section) - section.rhs(terms0))
@@ -256,11 +254,11 @@ def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: f
         fill = np.zeros(section.n)
         if filled.any():
             top = section.top_cells[filled]
-            fill[top] = sy_top[filled] * g.dx[filled] * np.maximum(ground_u[top] - u0[top], 0.0) / dt
+            fill[top] = section.top_sy[filled] * g.dx[filled] * np.maximum(ground_u[top] - u0[top], 0.0) / dt
         S = S_el + S_wt
         base = S_el / dt * u0 + S_wt / dt * u0_wt - fill - explicit0
         terms1 = section.terms(t1, state, steady=False, u_lag=u0)
-        factor = cache.get(_state_key(section, wet, state, dt), terms1, S / dt, theta)
+        factor = cache.get(_state_key(wet, state, dt), terms1, S / dt, theta)
         u1 = factor.solve(base + theta * section.rhs(terms1))
         new = section.update_active_set(u1, terms1, t1, state)
         if new.same(state):
