@@ -27,12 +27,31 @@ VARIABLES: dict[str, tuple[str, str, str]] = {
     "budget_in": ("m2 s-1", "section", "flow into the aquifer through each boundary, per metre of width"),
     "budget_out": ("m2 s-1", "section", "flow out of the aquifer through each boundary, per metre of width"),
     "budget_closure": ("1", "section", "budget imbalance relative to the total inflow"),
+    # variably saturated runs (zones with retention)
+    "pressure_head": ("m", "cell", "pressure head (head minus elevation; negative above the water table)"),
+    "water_content": ("1", "cell", "volumetric water content"),
+    "saturation": ("1", "cell", "degree of saturation (water content over saturated water content)"),
+    "water_table": ("m", "column", "elevation of the uppermost zero-pressure level (NaN where the column is unsaturated)"),
+    "ponding": ("m s-1", "column", "water left on exposed ground: recharge a seepage face does not take in plus its outflow"),
+    "storage_saturated": ("m2 s-1", "section", "release from specific storage (elastic), per metre of width"),
+    "storage_unsaturated": ("m2 s-1", "section", "release by draining pores (fall of water content), per metre of width"),
+    "step_end": ("s", "step", "end of each accepted time step"),
+    "step_length": ("s", "step", "length of each accepted time step"),
+    "step_iterations": ("1", "step", "nonlinear iterations of each accepted time step"),
+    "step_closure": ("1", "step", "water budget imbalance of each step relative to its total inflow"),
 }
 
 
 def _attrs(name: str) -> dict:
     units, location, long = VARIABLES[name]
     return {"units": units, "location": location, "long_name": long}
+
+
+def add_variables(ds: xr.Dataset, data: dict[str, tuple[tuple[str, ...], np.ndarray]]) -> None:
+    """Add declared variables ``name -> (dims, values)`` to ``ds`` with their attributes."""
+    for name, (dims, values) in data.items():
+        ds[name] = (dims, np.asarray(values))
+        ds[name].attrs.update(_attrs(name))
 
 
 def build_dataset(section: Section, states: Sequence[Fluxes], stages: Sequence[float | None],
@@ -76,7 +95,8 @@ def build_dataset(section: Section, states: Sequence[Fluxes], stages: Sequence[f
         coords["time"] = ("time", np.asarray(times, dtype=float), {"units": "s", "long_name": "time since start"})
     ds = xr.Dataset({k: (dims, np.asarray(v)) for k, (dims, v) in data.items()}, coords=coords)
     for name in VARIABLES:
-        ds[name].attrs.update(_attrs(name))
+        if name in ds:
+            ds[name].attrs.update(_attrs(name))
     ds.attrs.update({
         "title": section.scenario.title,
         "source_file": section.scenario.source,

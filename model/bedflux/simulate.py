@@ -17,6 +17,9 @@ def simulate(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = None,
              progress: Callable[[float], None] | None = None) -> xr.Dataset:
     """Run the scenario and return the result Dataset (see :mod:`bedflux.results`).
 
+    A scenario whose zones carry ``retention`` runs variably saturated (Richards' equation, see
+    :mod:`bedflux.solve.richards_run`); otherwise the linear model runs.
+
     Parameters
     ----------
     scenario
@@ -24,11 +27,17 @@ def simulate(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = None,
     fields
         Optional ``(nz, nx)`` property arrays (``kh``, ``kv``, ``ss``, ``sy``) overriding the zones.
     method
-        Linear solver: ``"auto"`` (by size), ``"direct"`` or ``"amg-cg"``.
+        Linear solver: ``"auto"`` (by size), ``"direct"`` or ``"amg-cg"`` (AMG-preconditioned
+        GMRES for the Jacobians of a variably saturated run).
     progress
         Called with the fraction done during transient runs.
     """
     section = discretise(scenario, fields)
+    if scenario.variably_saturated:
+        from .solve.richards_run import run_variably_saturated
+
+        solver = {"direct": "direct", "amg-cg": "amg-gmres"}.get(method, "auto")
+        return run_variably_saturated(section, solver=solver, progress=progress)
     if scenario.transient:
         from .solve.transient import run_transient
 

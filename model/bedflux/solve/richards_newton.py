@@ -1,0 +1,134 @@
+"""The nonlinear iteration of one Richards step: Newton with a backtracking line search, or
+modified Picard, and the linear solves of their (non-symmetric) Jacobians.
+
+Each iteration solves ``J d = -F`` and moves along ``d`` by the largest of 1, 1/2, 1/4, ...
+that lowers ``|F|`` by the Armijo rule (``|F(psi + l d)| <= (1 - 1e-4 l) |F(psi)|``, Dennis &
+Schnabel 1983, sec. 6.3). The iteration stops when the sum of the absolute cell residuals is
+below ``tolerance`` times the throughput of the step (the sum of the absolute boundary flows,
+uptake and storage changes): the water budget then closes to that fraction at least.
+
+Linear solves: the Newton Jacobian is not symmetric (upstream Kr), so the direct solver is
+SuperLU in its general mode (minimum-degree ordering on A^T + A, which suits the structurally
+symmetric matrix, and threshold partial pivoting preferring the diagonal); above
+:data:`bedflux.solve.linear.DIRECT_LIMIT` unknowns GMRES preconditioned by a Ruge-Stuben
+algebraic multigrid hierarchy (pyamg) built on the first Jacobian of the step and kept for the
+step's other iterations.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+import scipy.sparse.linalg as spla
+
+from ..errors import SolverError
+from .linear import DIRECT_LIMIT
+from .richards import Evaluation, RichardsSystem, Storage, StepForcing
+
+NEWTON = "newton"
+PICARD = "picard"
+#: Iterations allowed per step before the step is cut.
+MAX_ITERATIONS = 20
+#: Sum of absolute cell residuals allowed, relative to the step's throughput.
+TOLERANCE = 1e-10
+#: Halvings of the step length tried by the line search.
+LINE_SEARCH_HALVINGS = 6
+#: Relative residual accepted from preconditioned GMRES.
+GMRES_TOLERANCE = 1e-9
+
+
+class JacobianSolver:
+    """Solves ``J d = b`` for the successive Jacobians of a run; counts the solves.
+
+    ``method`` is ``"direct"``, ``"amg-gmres"`` or ``"auto"`` (by size).
+    """
+
+    def __init__(self, n: int, method: str = "auto"):
+        if method == "auto":
+            method = "direct" if n <= DIRECT_LIMIT else "amg-gmres"
+        if method not in ("direct", "amg-gmres"):
+            raise ValueError(f"unknown Jacobian solver {method!r}")
+        self.method = method
+        self.solves = 0
+        self._preconditioner = None
+
+    def new_step(self) -> None:
+        """Forget the preconditioner (the next Jacobian builds a new one)."""
+        self._preconditioner = None
+
+    def solve(self, J: sp.csr_matrix, b: np.ndarray) -> np.ndarray:
+        self.solves += 1
+        if self.method == "direct":
+            try:
+                lu = spla.splu(J.tocsc(), permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.1)
+            except RuntimeError as err:
+                raise SolverError(f"the Jacobian is singular ({err}); is a head fixed somewhere?") from None
+            return lu.solve(b)
+        return self._gmres(J, b)
+
+    def _gmres(self, J: sp.csr_matrix, b: np.ndarray) -> np.ndarray:
+        import pyamg
+
+        bnorm = np.linalg.norm(b)
+        if bnorm == 0.0:
+            return np.zeros_like(b)
+        for attempt in range(2):
+            if self._preconditioner is None:
+                self._preconditioner = pyamg.ruge_stuben_solver(J.tocsr()).aspreconditioner(cycle="V")
+            x, info = spla.gmres(J, b, M=self._preconditioner, rtol=GMRES_TOLERANCE, atol=0.0, restart=40,
+                                 maxiter=10)
+            if np.linalg.norm(b - J @ x) <= 10 * GMRES_TOLERANCE * bnorm:
+                return x
+            self._preconditioner = None  # stale: rebuild on this Jacobian and try once more
+        raise SolverError("AMG-preconditioned GMRES did not converge on the Richards Jacobian; "
+                          "use the direct solver")
+
+
+@dataclass
+class Outcome:
+    """The result of the iteration of one step."""
+
+    evaluation: Evaluation
+    iterations: int
+    converged: bool
+
+    @property
+    def psi(self) -> np.ndarray:
+        return self.evaluation.psi
+
+
+def iterate(system: RichardsSystem, psi: np.ndarray, forcing: StepForcing, storage: Storage | None,
+            solver: JacobianSolver, method: str = NEWTON, max_iterations: int = MAX_ITERATIONS,
+            tolerance: float = TOLERANCE) -> Outcome:
+    """Solve ``F(psi) = 0`` for one step (``storage`` given) or the steady state (``None``).
+
+    Returns the last iterate with ``converged`` False when the iteration failed (the caller cuts
+    the step or changes strategy).
+    """
+    ev = system.evaluate(psi, forcing, storage)
+    solver.new_step()
+    for it in range(max_iterations + 1):
+        if ev.norm <= tolerance * ev.scale:
+            return Outcome(ev, it, True)
+        if it == max_iterations or not np.all(np.isfinite(ev.residual)):
+            break
+        J = system.jacobian(ev, forcing, storage, newton=(method == NEWTON))
+        try:
+            d = solver.solve(J, -ev.residual)
+        except SolverError:
+            break
+        if not np.all(np.isfinite(d)):
+            break
+        f0 = np.linalg.norm(ev.residual)
+        step = 1.0
+        for _ in range(LINE_SEARCH_HALVINGS + 1):
+            trial = system.evaluate(ev.psi + step * d, forcing, storage)
+            if np.linalg.norm(trial.residual) <= (1.0 - 1e-4 * step) * f0:
+                break
+            step *= 0.5
+        else:
+            if trial.norm > 100.0 * tolerance * trial.scale:
+                return Outcome(trial, it + 1, False)
+        ev = trial
+    return Outcome(ev, max_iterations, False)
