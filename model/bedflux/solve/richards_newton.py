@@ -1,15 +1,16 @@
 """The nonlinear iteration of one Richards step: Newton with a backtracking line search, or
 modified Picard, and the linear solves of their (non-symmetric) Jacobians.
 
-Each iteration solves ``J d = -F`` and moves along ``d`` by the largest of 1, 1/2, 1/4, ...
+Each iteration solves ``J d = -F``. Newton moves along ``d`` by the largest of 1, 1/2, 1/4, ...
 that lowers ``|F|`` by the Armijo rule (``|F(psi + l d)| <= (1 - 1e-4 l) |F(psi)|``, Dennis &
-Schnabel 1983, sec. 6.3). The iteration stops when the sum of the absolute cell residuals is
+Schnabel 1983, sec. 6.3); modified Picard takes the full step. The iteration stops when the sum of the absolute cell residuals is
 below ``tolerance`` times the throughput of the step (the sum of the absolute boundary flows,
 uptake and storage changes): the water budget then closes to that fraction at least.
 
 Linear solves: the Newton Jacobian is not symmetric (upstream Kr), so the direct solver is
-SuperLU in its general mode (minimum-degree ordering on A^T + A, which suits the structurally
-symmetric matrix, and threshold partial pivoting preferring the diagonal); above
+SuperLU with minimum-degree ordering on A^T + A (the matrix is structurally symmetric) and
+diagonal pivots, which the diagonally dominant Jacobians allow; the residual of that solve is
+checked and a factorization with threshold partial pivoting replaces it when it is poor. Above
 :data:`bedflux.solve.linear.DIRECT_LIMIT` unknowns GMRES preconditioned by a Ruge-Stuben
 algebraic multigrid hierarchy (pyamg) built on the first Jacobian of the step and kept for the
 step's other iterations.
@@ -34,6 +35,8 @@ MAX_ITERATIONS = 20
 TOLERANCE = 1e-10
 #: Halvings of the step length tried by the line search.
 LINE_SEARCH_HALVINGS = 6
+#: Relative residual accepted from the diagonal-pivot factorization before partial pivoting is used.
+DIRECT_CHECK = 1e-10
 #: Relative residual accepted from preconditioned GMRES.
 GMRES_TOLERANCE = 1e-9
 
@@ -60,11 +63,15 @@ class JacobianSolver:
     def solve(self, J: sp.csr_matrix, b: np.ndarray) -> np.ndarray:
         self.solves += 1
         if self.method == "direct":
+            A = J.tocsc()
             try:
-                lu = spla.splu(J.tocsc(), permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.1)
+                x = spla.splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
+                              options={"SymmetricMode": True}).solve(b)
+                if np.linalg.norm(J @ x - b) <= DIRECT_CHECK * np.linalg.norm(b):
+                    return x
+                return spla.splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.1).solve(b)
             except RuntimeError as err:
                 raise SolverError(f"the Jacobian is singular ({err}); is a head fixed somewhere?") from None
-            return lu.solve(b)
         return self._gmres(J, b)
 
     def _gmres(self, J: sp.csr_matrix, b: np.ndarray) -> np.ndarray:
@@ -120,6 +127,10 @@ def iterate(system: RichardsSystem, psi: np.ndarray, forcing: StepForcing, stora
             break
         if not np.all(np.isfinite(d)):
             break
+        if method != NEWTON:
+            # modified Picard takes the full step (its direction need not lower |F|)
+            ev = system.evaluate(ev.psi + d, forcing, storage)
+            continue
         f0 = np.linalg.norm(ev.residual)
         step = 1.0
         for _ in range(LINE_SEARCH_HALVINGS + 1):
