@@ -207,7 +207,9 @@ class RichardsSystem:
             residual = residual + storage_rate
             # the round-off of V theta / dt bounds how small the residual can get in short steps
             boundary_abs += float(np.abs(storage_rate).sum()) + self.roundoff * self.volume_total / storage.dt
-        return Evaluation(psi, props, residual, boundary_abs + self.c_floor, fkr, up_lo, term_kr, term_from_face,
+        # the round-off of the face flows bounds the residual too (large sections, steady states)
+        scale = boundary_abs + self.c_floor + self.roundoff * float(np.abs(q).sum())
+        return Evaluation(psi, props, residual, scale, fkr, up_lo, term_kr, term_from_face,
                           taken, storage_rate)
 
     def _kr_at(self, psi_face: np.ndarray, cells: np.ndarray) -> np.ndarray:

@@ -18,6 +18,7 @@ step's other iterations.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Callable
 
 import numpy as np
 import scipy.sparse as sp
@@ -42,7 +43,7 @@ GMRES_TOLERANCE = 1e-9
 
 
 class JacobianSolver:
-    """Solves ``J d = b`` for the successive Jacobians of a run; counts the solves.
+    """Factorizes the successive Jacobians of a run; counts factorizations and solves.
 
     ``method`` is ``"direct"``, ``"amg-gmres"`` or ``"auto"`` (by size).
     """
@@ -53,43 +54,58 @@ class JacobianSolver:
         if method not in ("direct", "amg-gmres"):
             raise ValueError(f"unknown Jacobian solver {method!r}")
         self.method = method
+        self.factorizations = 0
         self.solves = 0
-        self._preconditioner = None
 
-    def new_step(self) -> None:
-        """Forget the preconditioner (the next Jacobian builds a new one)."""
-        self._preconditioner = None
-
-    def solve(self, J: sp.csr_matrix, b: np.ndarray) -> np.ndarray:
-        self.solves += 1
+    def factor(self, J: sp.csr_matrix) -> Callable[[np.ndarray], np.ndarray]:
+        """A solver of ``J d = b`` for this Jacobian."""
+        self.factorizations += 1
         if self.method == "direct":
-            A = J.tocsc()
-            try:
-                x = spla.splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
-                              options={"SymmetricMode": True}).solve(b)
+            return self._direct(J)
+        return self._gmres(J)
+
+    def _direct(self, J: sp.csr_matrix) -> Callable[[np.ndarray], np.ndarray]:
+        A = J.tocsc()
+        try:
+            lu = spla.splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0, options={"SymmetricMode": True})
+        except RuntimeError:
+            lu = None
+        pivoted = None
+
+        def solve(b: np.ndarray) -> np.ndarray:
+            nonlocal lu, pivoted
+            self.solves += 1
+            if lu is not None:
+                x = lu.solve(b)
                 if np.linalg.norm(J @ x - b) <= DIRECT_CHECK * np.linalg.norm(b):
                     return x
-                return spla.splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.1).solve(b)
-            except RuntimeError as err:
-                raise SolverError(f"the Jacobian is singular ({err}); is a head fixed somewhere?") from None
-        return self._gmres(J, b)
+            if pivoted is None:
+                try:
+                    pivoted = spla.splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.1)
+                except RuntimeError as err:
+                    raise SolverError(f"the Jacobian is singular ({err}); is a head fixed somewhere?") from None
+                lu = None
+            return pivoted.solve(b)
 
-    def _gmres(self, J: sp.csr_matrix, b: np.ndarray) -> np.ndarray:
+        return solve
+
+    def _gmres(self, J: sp.csr_matrix) -> Callable[[np.ndarray], np.ndarray]:
         import pyamg
 
-        bnorm = np.linalg.norm(b)
-        if bnorm == 0.0:
-            return np.zeros_like(b)
-        for attempt in range(2):
-            if self._preconditioner is None:
-                self._preconditioner = pyamg.ruge_stuben_solver(J.tocsr()).aspreconditioner(cycle="V")
-            x, info = spla.gmres(J, b, M=self._preconditioner, rtol=GMRES_TOLERANCE, atol=0.0, restart=40,
-                                 maxiter=10)
-            if np.linalg.norm(b - J @ x) <= 10 * GMRES_TOLERANCE * bnorm:
-                return x
-            self._preconditioner = None  # stale: rebuild on this Jacobian and try once more
-        raise SolverError("AMG-preconditioned GMRES did not converge on the Richards Jacobian; "
-                          "use the direct solver")
+        M = pyamg.ruge_stuben_solver(J.tocsr()).aspreconditioner(cycle="V")
+
+        def solve(b: np.ndarray) -> np.ndarray:
+            self.solves += 1
+            bnorm = np.linalg.norm(b)
+            if bnorm == 0.0:
+                return np.zeros_like(b)
+            x, _ = spla.gmres(J, b, M=M, rtol=GMRES_TOLERANCE, atol=0.0, restart=40, maxiter=10)
+            if np.linalg.norm(b - J @ x) > 10 * GMRES_TOLERANCE * bnorm:
+                raise SolverError("AMG-preconditioned GMRES did not converge on the Richards Jacobian; "
+                                  "use the direct solver")
+            return x
+
+        return solve
 
 
 @dataclass
@@ -110,24 +126,25 @@ def iterate(system: RichardsSystem, psi: np.ndarray, forcing: StepForcing, stora
             tolerance: float = TOLERANCE) -> Outcome:
     """Solve ``F(psi) = 0`` for one step (``storage`` given) or the steady state (``None``).
 
-    Returns the last iterate with ``converged`` False when the iteration failed (the caller cuts
-    the step or changes strategy).
+    Every iteration factorizes the Jacobian of its own iterate (keeping a factorization for later
+    iterations, a chord step, was measured: the slower convergence cost more steps than it saved;
+    docs/performance.md). Returns the last iterate with ``converged`` False when the iteration
+    failed (the caller cuts the step or changes strategy).
     """
     ev = system.evaluate(psi, forcing, storage)
-    solver.new_step()
+    newton = method == NEWTON
     for it in range(max_iterations + 1):
         if ev.norm <= tolerance * ev.scale:
             return Outcome(ev, it, True)
         if it == max_iterations or not np.all(np.isfinite(ev.residual)):
             break
-        J = system.jacobian(ev, forcing, storage, newton=(method == NEWTON))
         try:
-            d = solver.solve(J, -ev.residual)
+            d = solver.factor(system.jacobian(ev, forcing, storage, newton=newton))(-ev.residual)
         except SolverError:
             break
         if not np.all(np.isfinite(d)):
             break
-        if method != NEWTON:
+        if not newton:
             # modified Picard takes the full step (its direction need not lower |F|)
             ev = system.evaluate(ev.psi + d, forcing, storage)
             continue

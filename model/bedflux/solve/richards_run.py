@@ -122,7 +122,7 @@ def _transient(section: Section, system: RichardsSystem, stepper: Stepper, bound
         partial = f"interrupted; outputs up to t = {done[-1]:g} s of {ts.end:g} s"
     attrs.update({"run": "transient", "scheme": "backward-euler", "steps": len(records),
                   "iterations": stepper.iterations, "failed_steps": stepper.failures,
-                  "linear_solves": stepper.solver.solves})
+                  "factorizations": stepper.solver.factorizations, "linear_solves": stepper.solver.solves})
     if partial:
         attrs["partial"] = partial
     ds = build_dataset(section, states, stages, done, attrs)
