@@ -46,6 +46,8 @@ CUT = 0.25
 MIN_STEP_FRACTION = 1e-6
 #: Passes of the seepage-face active set per step.
 STEP_PASSES = 8
+#: First pseudo-time step of the steady solve's continuation (s).
+CONTINUATION_START = 600.0
 #: Steady solve: Newton iterations before pseudo-transient continuation takes over.
 STEADY_ITERATIONS = 40
 
@@ -249,10 +251,11 @@ class Stepper:
                           "grid near the banks or start from a transient run")
 
     def _continuation(self, psi: np.ndarray, t: float, state: ActiveSet) -> np.ndarray:
-        """Pseudo-time steps of growing length towards the steady state (switched evolution
-        relaxation: the step grows as the steady residual falls)."""
+        """Pseudo-time steps of growing length towards the steady state: the step grows with the
+        fall of the steady residual (switched evolution relaxation) and at least doubles after
+        an easy step."""
         forcing = self.boundaries.forcing(t, t, state, steady=True)
-        dt = 60.0
+        dt = CONTINUATION_START
         ev = self.system.evaluate(psi, forcing, None)
         for _ in range(400):
             storage = self.system.storage(psi, dt)
@@ -267,7 +270,9 @@ class Stepper:
             new = self.system.evaluate(psi, forcing, None)
             if new.norm <= 1e-6 * new.scale:
                 return psi
-            dt = min(dt * max(min(ev.norm / max(new.norm, 1e-300), 10.0), 1.2), 1e12)
+            relaxation = ev.norm / max(new.norm, 1e-300)
+            easy = 2.0 if out.iterations <= EASY_ITERATIONS else 1.0
+            dt = min(dt * min(max(relaxation, easy), 10.0), 1e12)
             ev = new
         return psi
 
