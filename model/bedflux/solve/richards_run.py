@@ -19,8 +19,8 @@ from ..fluxes import BUDGET_LINES, Fluxes, derive
 from ..results import add_variables, build_dataset
 from .richards import Evaluation, RichardsSystem, StepForcing
 from .richards_newton import NEWTON, JacobianSolver
-from .richards_steps import (Budget, SectionBoundaries, Stepper, forcing_breakpoints, run_steps, soil_water,
-                             step_budget)
+from .richards_steps import (Budget, SectionBoundaries, Stepper, flooding_times, forcing_breakpoints, run_steps,
+                             soil_water, step_budget)
 from .section import Section
 from .steady import solve_steady
 from .transient import output_times
@@ -78,7 +78,8 @@ def _transient(section: Section, system: RichardsSystem, stepper: Stepper, bound
                ev: Evaluation, forcing: StepForcing, state, attrs: dict, progress) -> xr.Dataset:
     ts = section.scenario.time
     times = output_times(ts.end, ts.output_every)
-    stops = np.union1d(times[1:], forcing_breakpoints(section.scenario, ts.end))
+    flooding = flooding_times(section, ts.end)
+    stops = np.union1d(np.union1d(times[1:], forcing_breakpoints(section.scenario, ts.end)), flooding)
     # at t = 0 storage takes up whatever the boundaries bring in (zero for a steady start)
     b0 = step_budget(system, ev, forcing, None, BUDGET_LINES)
     net = sum(b0.inflow.values()) - sum(b0.outflow.values())
@@ -117,7 +118,7 @@ def _transient(section: Section, system: RichardsSystem, stepper: Stepper, bound
     partial = ""
     records = []
     try:
-        records = run_steps(stepper, ev.psi, state, stops, ts.step, on_step, on_stop, progress)
+        records = run_steps(stepper, ev.psi, state, stops, ts.step, on_step, on_stop, progress, restarts=flooding)
     except KeyboardInterrupt:
         partial = f"interrupted; outputs up to t = {done[-1]:g} s of {ts.end:g} s"
     attrs.update({"run": "transient", "scheme": "backward-euler", "steps": len(records),

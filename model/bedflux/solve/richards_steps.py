@@ -16,9 +16,10 @@ Boundaries (per step, from the linear model's terms of :mod:`bedflux.solve.secti
 Time steps (backward Euler) start at ``[time] step``, which is also the longest; a step that
 converges in at most :data:`EASY_ITERATIONS` iterations lets the next grow by
 :data:`GROWTH`, one that needs more than :data:`HARD_ITERATIONS` shrinks it, and a step that fails
-is cut by :data:`CUT` and retried. Steps land exactly on the output times and on the breakpoints
+is cut by :data:`CUT` and retried. Steps land exactly on the output times, on the breakpoints
 of the forcing (pulse start and peak, flood-wave start and end, series times, the daily cycle's
-06:00 and 18:00).
+06:00 and 18:00) and on the instants when the stage floods or leaves a column; after those the
+step restarts at :data:`RESTART_STEP`.
 """
 from __future__ import annotations
 
@@ -46,6 +47,11 @@ CUT = 0.25
 MIN_STEP_FRACTION = 1e-6
 #: Passes of the seepage-face active set per step.
 STEP_PASSES = 8
+#: Sampling interval of the stage when the flooding instants of the columns are located (s).
+FLOOD_SAMPLE = 30.0
+#: After a column floods or falls dry the next step is at most this long (s): infiltration into
+#: newly flooded soil starts as t^-1/2 (sorptivity), which only short first steps resolve.
+RESTART_STEP = 10.0
 #: First pseudo-time step of the steady solve's continuation (s).
 CONTINUATION_START = 600.0
 #: Steady solve: Newton iterations before pseudo-transient continuation takes over.
@@ -81,6 +87,23 @@ def forcing_breakpoints(scenario: Scenario, end: float) -> np.ndarray:
         times += list(days * SECONDS_PER_DAY + 6 * 3600.0) + list(days * SECONDS_PER_DAY + 18 * 3600.0)
     t = np.unique(np.asarray(times, dtype=float))
     return t[(t > 0.0) & (t < end)]
+
+
+def flooding_times(section: Section, end: float) -> np.ndarray:
+    """Times in (0, end) at which the stage crosses the ground of a channel column (a column
+    floods or falls dry), from the stage sampled every :data:`FLOOD_SAMPLE` seconds and
+    interpolated linearly between samples."""
+    sc = section.scenario
+    if sc.stream is None or end <= 0.0:
+        return np.zeros(0)
+    cols = np.flatnonzero(section.channel)
+    t = np.linspace(0.0, end, int(np.ceil(end / FLOOD_SAMPLE)) + 1)
+    above = sc.stream.stage(t)[:, None] + sc.stream.slope * section.grid.xc[None, cols] - section.grid.ground[None, cols]
+    k, j = np.nonzero(np.sign(above[1:]) != np.sign(above[:-1]))
+    a, b = above[k, j], above[k + 1, j]
+    times = t[k] + (t[k + 1] - t[k]) * a / (a - b)
+    times = np.unique(times)
+    return times[(times > 0.0) & (times < end)]
 
 
 def _cycle_mean(t0: float, t1: float) -> float:
@@ -280,10 +303,13 @@ class Stepper:
 def run_steps(stepper: Stepper, psi: np.ndarray, state: ActiveSet, stops: np.ndarray, dt_max: float,
               on_step: Callable[[Outcome, StepForcing, Storage, float, float], float],
               on_stop: Callable[[Outcome, StepForcing, float], None],
-              progress: Callable[[float], None] | None = None) -> list[StepRecord]:
+              progress: Callable[[float], None] | None = None,
+              restarts: np.ndarray | None = None) -> list[StepRecord]:
     """Adaptive backward-Euler steps through the ``stops`` (output times and breakpoints, sorted,
     after t = 0). ``on_step`` sees every accepted step and returns its budget closure;
-    ``on_stop`` sees the state at every stop."""
+    ``on_stop`` sees the state at every stop. At the stops listed in ``restarts`` the next step
+    restarts short (:data:`RESTART_FRACTION`)."""
+    restarts = np.zeros(0) if restarts is None else np.asarray(restarts)
     records: list[StepRecord] = []
     t = 0.0
     dt = dt_max
@@ -312,4 +338,6 @@ def run_steps(stepper: Stepper, psi: np.ndarray, state: ActiveSet, stops: np.nda
             if progress is not None:
                 progress(t / end)
         on_stop(out, forcing, t)
+        if restarts.size and np.min(np.abs(restarts - t)) <= 1e-9 * max(t, 1.0):
+            dt = min(dt, RESTART_STEP)
     return records
