@@ -207,8 +207,11 @@ class RichardsSystem:
             residual = residual + storage_rate
             # the round-off of V theta / dt bounds how small the residual can get in short steps
             boundary_abs += float(np.abs(storage_rate).sum()) + self.roundoff * self.volume_total / storage.dt
-        # the round-off of the face flows bounds the residual too (large sections, steady states)
-        scale = boundary_abs + self.c_floor + self.roundoff * float(np.abs(q).sum())
+        # heads are psi + z, so the face flows carry the round-off of |psi| + |z| times their
+        # conductance; it bounds how small the residual can get (large sections, deep cells)
+        head_roundoff = np.abs(psi) + np.abs(self.zr)
+        scale = boundary_abs + self.c_floor + 4.0 * np.finfo(float).eps * float(
+            (self.conductance * fkr * (head_roundoff[self.lo] + head_roundoff[self.hi])).sum())
         return Evaluation(psi, props, residual, scale, fkr, up_lo, term_kr, term_from_face,
                           taken, storage_rate)
 

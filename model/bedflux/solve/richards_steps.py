@@ -319,7 +319,8 @@ def run_steps(stepper: Stepper, psi: np.ndarray, state: ActiveSet, stops: np.nda
         while t < stop - 1e-9 * max(stop, 1.0):
             h = min(dt, stop - t)
             if stop - (t + h) < 0.05 * h:
-                h = stop - t
+                # no sliver before the stop: stretch up to the longest step, else halve the rest
+                h = stop - t if stop - t <= dt_max else 0.5 * (stop - t)
             out, forcing, storage, new_state = stepper.solve_step(psi, t, t + h, state)
             if not out.converged:
                 dt = h * CUT
