@@ -291,7 +291,7 @@ class Stepper:
                 continue
             psi = out.psi
             new = self.system.evaluate(psi, forcing, None)
-            if new.norm <= 1e-6 * new.scale:
+            if new.converged(1e-6):
                 return psi
             relaxation = ev.norm / max(new.norm, 1e-300)
             easy = 2.0 if out.iterations <= EASY_ITERATIONS else 1.0
