@@ -35,6 +35,8 @@ def summarise(ds: xr.Dataset) -> dict:
         "budget_in_m2_per_s": {k: float(v) for k, v in zip(BUDGET_LINES, last["budget_in"].values)},
         "budget_out_m2_per_s": {k: float(v) for k, v in zip(BUDGET_LINES, last["budget_out"].values)},
     }
+    if ds.attrs.get("water_table_warning"):
+        out["water_table_warning"] = ds.attrs["water_table_warning"]
     if "time" in ds.dims:
         ex = ds["exchange"].values
         out["exchange_min_m2_per_s"] = float(ex.min())
@@ -65,4 +67,6 @@ def summary_text(s: dict) -> str:
     if et > 0:
         lines.append(f"riparian evapotranspiration from groundwater: {et * day:.4g} m3/d per metre")
     lines.append(f"water budget closure: {s['budget_closure']:.2e} of the inflow")
+    if s.get("water_table_warning"):
+        lines.append(f"warning: {s['water_table_warning']}")
     return "\n".join(lines) + "\n"
