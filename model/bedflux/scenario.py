@@ -172,7 +172,8 @@ class Scenario:
     def with_values(self, values: Mapping[str, float]) -> "Scenario":
         """A copy with values replaced by parameter path (SI), re-validated.
 
-        Paths are ``ZONE.PROPERTY`` (``bed.kv``, ``aquifer.ss``) or a table path
+        Paths are ``ZONE.PROPERTY`` (``bed.kv``, ``aquifer.ss``), ``ZONE.retention.KEY``
+        (``aquifer.retention.alpha``, ``.n``, ``.residual``, ``.saturated``) or a table path
         (``recharge.rate``, ``stream.stage``, ``riparian.0.rate``, ``sides.left.head``,
         ``stream.bedform.amplitude``).
         """
@@ -580,6 +581,13 @@ def _locate(raw: dict, path: str, source: str) -> tuple[Any, Any]:
     parts = path.split(".")
     zones = raw.get("zone") or []
     names = [z.get("name") for z in zones if isinstance(z, Mapping)]
+    if len(parts) == 3 and parts[0] in names and parts[1] == "retention":
+        zone = zones[names.index(parts[0])]
+        if not isinstance(zone.get("retention"), Mapping) or parts[2] not in zone["retention"] \
+                or parts[2] not in ("alpha", "n", "residual", "saturated"):
+            raise InputError(f"'{path}' is not a value of zone '{parts[0]}': its retention table has "
+                             "alpha, n (van Genuchten), residual and saturated", source=source, where=path)
+        return zone["retention"], parts[2]
     if len(parts) == 2 and parts[0] in names:
         if parts[1] not in ("kh", "kv", "ss", "sy", "porosity", "depth"):
             raise InputError(f"zone property '{parts[1]}' cannot be set; use kh, kv, ss, sy, porosity or depth",
@@ -611,6 +619,8 @@ def _set_path(raw: dict, path: str, value: float, source: str) -> None:
 
 def _resolved_value(s: Scenario, path: str) -> float:
     parts = path.split(".")
+    if len(parts) == 3 and parts[0] in s.zone_names() and parts[1] == "retention":
+        return float(getattr(s.zones[s.zone_names().index(parts[0])].retention, parts[2]))
     if len(parts) == 2 and parts[0] in s.zone_names():
         value = getattr(s.zones[s.zone_names().index(parts[0])], parts[1])
         if value is None:

@@ -50,28 +50,63 @@ def run_variably_saturated(section: Section, method: str = NEWTON, solver: str =
              "cells": section.n}
     if notes:
         attrs["notes"] = " ".join(notes)
-    if not sc.transient or sc.initial_head is None:
-        # the steady state of the t = 0 forcing, from the linear model's solution
-        linear = solve_steady(section, 0.0, method="direct" if section.n <= 100_000 else "auto")
-        linear.factor = None
-        out, forcing, state = stepper.solve_steady(system.psi_from_u(linear.u), 0.0, linear.state)
-    else:
-        psi = sc.initial_head - section.h_ref - system.zr
-        state = boundaries.initial_state()
-        forcing = boundaries.forcing(0.0, 0.0, state, steady=False)
-        state = boundaries.update(system.evaluate(psi, forcing, None), forcing, 0.0, state)
-        forcing = boundaries.forcing(0.0, 0.0, state, steady=False)
-        out = None
-        ev0 = system.evaluate(psi, forcing, None)
+    ev, forcing, state = _start(section, system, stepper, boundaries)
     if not sc.transient:
-        budget = step_budget(system, out.evaluation, forcing, None, BUDGET_LINES)
-        fl, extra = _state(system, out.evaluation, forcing, 0.0, budget)
+        budget = step_budget(system, ev, forcing, None, BUDGET_LINES)
+        fl, extra = _state(system, ev, forcing, 0.0, budget)
         attrs.update({"run": "steady", "iterations": stepper.iterations})
         ds = build_dataset(section, [fl], [section.stage(0.0)], None, attrs)
         add_variables(ds, {k: (dims, v) for k, (dims, v) in extra.items()})
         return ds
-    return _transient(section, system, stepper, boundaries, out.evaluation if out else ev0, forcing, state,
-                      attrs, progress)
+    return _transient(section, system, stepper, boundaries, ev, forcing, state, attrs, progress)
+
+
+def _start(section: Section, system: RichardsSystem, stepper: Stepper, boundaries: SectionBoundaries):
+    """The state at t = 0: the steady state of the t = 0 forcing (from the linear model's
+    solution), or hydrostatic at ``[initial] head``; its evaluation, forcing and active set."""
+    sc = section.scenario
+    if not sc.transient or sc.initial_head is None:
+        linear = solve_steady(section, 0.0, method="direct" if section.n <= 100_000 else "auto")
+        linear.factor = None
+        out, forcing, state = stepper.solve_steady(system.psi_from_u(linear.u), 0.0, linear.state)
+        return out.evaluation, forcing, state
+    psi = sc.initial_head - section.h_ref - system.zr
+    state = boundaries.initial_state()
+    forcing = boundaries.forcing(0.0, 0.0, state, steady=False)
+    state = boundaries.update(system.evaluate(psi, forcing, None), forcing, 0.0, state)
+    forcing = boundaries.forcing(0.0, 0.0, state, steady=False)
+    return system.evaluate(psi, forcing, None), forcing, state
+
+
+def states_at(section: Section, times: np.ndarray, method: str = NEWTON
+              ) -> list[tuple[np.ndarray, list, Section]]:
+    """Relative heads, Kr-scaled terms and the Kr-scaled section view (for
+    :func:`bedflux.observe.predict`) at each of ``times`` (0 for a steady run); the steps land on
+    them. Used by calibration and planning."""
+    system = RichardsSystem(section, soil_water(section.scenario, section))
+    boundaries = SectionBoundaries(section)
+    stepper = Stepper(system, boundaries, method, JacobianSolver(section.n))
+    ev, forcing, state = _start(section, system, stepper, boundaries)
+    wanted = np.unique(np.asarray(times, dtype=float))
+    found: dict[float, tuple] = {}
+
+    def keep(ev, forcing, t):
+        view, terms = system.flow_view(ev, forcing)
+        found[t] = (system.head_u(ev.psi), terms, view)
+
+    keep(ev, forcing, 0.0)
+    later = wanted[wanted > 0.0]
+    if later.size:
+        ts = section.scenario.time
+        flooding = flooding_times(section, ts.end)
+        stops = np.union1d(np.union1d(later, forcing_breakpoints(section.scenario, ts.end)), flooding)
+
+        def on_stop(out, forcing, t):
+            if np.min(np.abs(later - t)) <= 1e-9 * max(t, 1.0):
+                keep(out.evaluation, forcing, float(later[np.argmin(np.abs(later - t))]))
+
+        run_steps(stepper, ev.psi, state, stops, ts.step, lambda *a: 0.0, on_stop, restarts=flooding)
+    return [found[float(t)] for t in wanted]
 
 
 def _transient(section: Section, system: RichardsSystem, stepper: Stepper, boundaries: SectionBoundaries,
