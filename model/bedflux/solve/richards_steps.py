@@ -51,7 +51,7 @@ STEP_PASSES = 8
 FLOOD_SAMPLE = 30.0
 #: After a column floods or falls dry the next step is at most this long (s): infiltration into
 #: newly flooded soil starts as t^-1/2 (sorptivity), which only short first steps resolve.
-RESTART_STEP = 10.0
+RESTART_STEP = 30.0
 #: First pseudo-time step of the steady solve's continuation (s).
 CONTINUATION_START = 600.0
 #: Steady solve: Newton iterations before pseudo-transient continuation takes over.
