@@ -131,7 +131,7 @@ def large():
         z["retention"] = {"model": "van-genuchten", "alpha": "3.6 1/m", "n": 1.56, "residual": 0.078,
                           "saturated": 0.43}
     d["ground"] = {"profile": [[-50.0, 1.2], [-20.0, 0.8], [-19.0, 0.0], [19.0, 0.0], [20.0, 0.8], [50.0, 1.2]]}
-    d["stream"] = {"pulse": {"base": 0.5, "peak": 1.3, "start": "2 h", "rise": "6 h", "fall": "12 h"},
+    d["stream"] = {"pulse": {"base": 0.4, "peak": 0.75, "start": "2 h", "rise": "6 h", "fall": "12 h"},
                    "channel": [-20.0, 20.0]}
     d["time"] = {"end": "1 d", "step": "15 min", "output_every": "3 h"}
     ds, secs, err = run(d)
