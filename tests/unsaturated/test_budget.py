@@ -2,7 +2,6 @@
 boundaries and root uptake behave as specified (seepage faces, uptake only where not submerged)."""
 from __future__ import annotations
 
-import copy
 
 import numpy as np
 import pytest

@@ -8,7 +8,6 @@ test stays short; the full scenario's figures are in docs/verification.md.
 """
 from __future__ import annotations
 
-import copy
 import tomllib
 import warnings
 from pathlib import Path

@@ -10,7 +10,6 @@ Wu & Pruess 1995); the grids halve the spacing, so the observed order log2(e_i /
 from __future__ import annotations
 
 import numpy as np
-import pytest
 
 from .analytic import tracy_pressure, tracy_relative_conductivity
 from .columns import box, pressure_terms, stepper

@@ -58,7 +58,7 @@ def run_variably_saturated(section: Section, method: str = NEWTON, solver: str =
         ds = build_dataset(section, [fl], [section.stage(0.0)], None, attrs)
         add_variables(ds, {k: (dims, v) for k, (dims, v) in extra.items()})
         return ds
-    return _transient(section, system, stepper, boundaries, ev, forcing, state, attrs, progress)
+    return _transient(section, system, stepper, ev, forcing, state, attrs, progress)
 
 
 def _start(section: Section, system: RichardsSystem, stepper: Stepper, boundaries: SectionBoundaries):
@@ -97,24 +97,31 @@ def states_at(section: Section, times: np.ndarray, method: str = NEWTON
     keep(ev, forcing, 0.0)
     later = wanted[wanted > 0.0]
     if later.size:
-        ts = section.scenario.time
-        flooding = flooding_times(section, ts.end)
-        stops = np.union1d(np.union1d(later, forcing_breakpoints(section.scenario, ts.end)), flooding)
+        stops, flooding = _stops(section, later)
 
         def on_stop(out, forcing, t):
             if np.min(np.abs(later - t)) <= 1e-9 * max(t, 1.0):
                 keep(out.evaluation, forcing, float(later[np.argmin(np.abs(later - t))]))
 
-        run_steps(stepper, ev.psi, state, stops, ts.step, lambda *a: 0.0, on_stop, restarts=flooding)
+        run_steps(stepper, ev.psi, state, stops, section.scenario.time.step, lambda *_: 0.0, on_stop,
+                  restarts=flooding)
     return [found[float(t)] for t in wanted]
 
 
-def _transient(section: Section, system: RichardsSystem, stepper: Stepper, boundaries: SectionBoundaries,
-               ev: Evaluation, forcing: StepForcing, state, attrs: dict, progress) -> xr.Dataset:
+def _stops(section: Section, times: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Where the steps must land after t = 0 (the given times, the forcing's breakpoints and the
+    flooding instants) and the flooding instants, after which steps restart short."""
+    end = section.scenario.time.end
+    flooding = flooding_times(section, end)
+    later = np.asarray(times, dtype=float)
+    return np.union1d(np.union1d(later[later > 0.0], forcing_breakpoints(section.scenario, end)), flooding), flooding
+
+
+def _transient(section: Section, system: RichardsSystem, stepper: Stepper, ev: Evaluation,
+               forcing: StepForcing, state, attrs: dict, progress) -> xr.Dataset:
     ts = section.scenario.time
     times = output_times(ts.end, ts.output_every)
-    flooding = flooding_times(section, ts.end)
-    stops = np.union1d(np.union1d(times[1:], forcing_breakpoints(section.scenario, ts.end)), flooding)
+    stops, flooding = _stops(section, times)
     # at t = 0 storage takes up whatever the boundaries bring in (zero for a steady start)
     b0 = step_budget(system, ev, forcing, None, BUDGET_LINES)
     net = sum(b0.inflow.values()) - sum(b0.outflow.values())
