@@ -137,9 +137,8 @@ class SectionBoundaries:
         terms = [t for t in s.terms(t1, state, steady=True) if t.kind != "evapotranspiration"]
         uptake = None
         if s.et_cells.size:
-            open_ = ~s.submerged(t1)[s.et_cols]
+            keep = ~s.submerged(t1)[s.et_cols]  # no uptake under the stream
             factor = np.where(s.et_cycle & (not steady), _cycle_mean(t0, t1), 1.0)
-            keep = open_
             uptake = Uptake(s.et_cells[keep], s.et_cols[keep], (s.et_rate * factor)[keep], self.uptake_heads[:, keep])
         return StepForcing(terms, [boundary_pressure(s, t) for t in terms], uptake)
 
@@ -150,11 +149,10 @@ class SectionBoundaries:
         g = s.grid
         new = state.copy()
         wet = s.submerged(t)
-        psi = ev.psi
         zc = g.z_centre[g.active]
-        h_top = psi[s.top_cells] + zc[s.top_cells]
+        h_top = ev.psi[s.top_cells] + zc[s.top_cells]
         new.seepage[~wet & ~state.seepage & (h_top > g.ground)] = True
-        u = psi + zc - s.h_ref
+        u = ev.psi + zc - s.h_ref
         for term, kr in zip(forcing.terms, ev.term_kr):
             if term.kind == "seepage_face":
                 inflow = kr * (term.r - term.g * u[term.cells]) / g.dx[term.place]
