@@ -163,6 +163,10 @@ class RichardsSystem:
         """Heads relative to the section's reference head."""
         return psi + self.zr
 
+    def head_roundoff(self, psi: np.ndarray) -> float:
+        """Round-off of the heads ``psi + z`` (m): an update below it changes nothing."""
+        return 100.0 * np.finfo(float).eps * float(np.max(np.abs(psi) + np.abs(self.zr)))
+
     def psi_from_u(self, u: np.ndarray) -> np.ndarray:
         """Pressure heads from relative heads."""
         return u - self.zr

@@ -6,7 +6,7 @@ that lowers ``|F|`` by the Armijo rule (``|F(psi + l d)| <= (1 - 1e-4 l) |F(psi)
 Schnabel 1983, sec. 6.3); modified Picard takes the full step. The iteration stops when the
 sum of the absolute cell residuals is below ``tolerance`` times the throughput of the step (the sum of the absolute boundary flows,
 uptake and storage changes), or when the Newton update falls to the round-off of the heads
-with the residual within 1e3 times that: the water budget then closes to that fraction.
+(psi + z) with the residual within 100 times that: the water budget then closes to that fraction.
 
 Linear solves: the Newton Jacobian is not symmetric (upstream Kr), so the direct solver is
 SuperLU with minimum-degree ordering on A^T + A (the matrix is structurally symmetric) and
@@ -35,9 +35,6 @@ PICARD = "picard"
 MAX_ITERATIONS = 20
 #: Sum of absolute cell residuals allowed, relative to the step's throughput.
 TOLERANCE = 1e-10
-#: A Newton update this small (m) ends the iteration when the residual is within 1e3 times the
-#: tolerance: the heads are then at their round-off (large sections, heads of tens of metres).
-STAGNATION = 1e-11
 #: Halvings of the step length tried by the line search.
 LINE_SEARCH_HALVINGS = 6
 #: Relative residual accepted from the diagonal-pivot factorization before partial pivoting is used.
@@ -162,7 +159,7 @@ def iterate(system: RichardsSystem, psi: np.ndarray, forcing: StepForcing, stora
         else:
             if not trial.converged(100.0 * tolerance):
                 return Outcome(trial, it + 1, False)
-        if np.abs(step * d).max() <= STAGNATION and trial.converged(1e3 * tolerance):
+        if np.abs(step * d).max() <= system.head_roundoff(trial.psi) and trial.converged(1e2 * tolerance):
             # the update is at the round-off of the heads (psi + z): the residual cannot fall further
             return Outcome(trial, it + 1, True)
         ev = trial
