@@ -44,15 +44,11 @@ def peak_attrs(scenario: Scenario) -> dict[str, float]:
     if s is None or scenario.time is None or isinstance(s.stage, Constant):
         return {}
     t_peak, stage = s.stage.highest(scenario.time.end)
-    out = {"peak_stage_m": stage, "peak_stage_time_s": t_peak,
-           "flooded_width_m": flooded_width(scenario, stage)}
-    if scenario.time.origin is not None:
-        out["start"] = str(np.datetime64(int(round(scenario.time.origin)), "s"))
-    return out
+    return {"peak_stage_m": stage, "peak_stage_time_s": t_peak, "flooded_width_m": flooded_width(scenario, stage)}
 
 
 def flood_figures(attrs: dict) -> dict[str, float | str]:
-    """The peak figures of a result's attributes, for the run summary."""
+    """The peak figures of a result's attributes (and the run's ``start``), for the run summary."""
     keys = ("peak_stage_m", "peak_stage_time_s", "flooded_width_m", "start")
     return {k: (attrs[k] if k == "start" else float(attrs[k])) for k in keys if k in attrs}
 
@@ -63,7 +59,7 @@ def flood_lines(s: dict) -> list[str]:
         return []
     t = s["peak_stage_time_s"]
     when = f"t = {t / 3600.0:.4g} h"
-    if "start" in s:
+    if s.get("start"):
         when += f" ({np.datetime64(s['start']) + np.timedelta64(int(round(t)), 's')})"
     return [f"peak stage: {s['peak_stage_m']:.4g} m at {when}; "
             f"ground flooded then: {s['flooded_width_m']:.4g} m wide"]

@@ -165,10 +165,12 @@ def closure_summary(ds) -> tuple[float | None, str]:
     if not judged.any():
         return None, reasons[-1]
     value = float(np.max(np.abs(c[judged])))
-    skipped = [r for r in reasons if r]
-    if not skipped:
+    skipped = np.nonzero(~judged)[0]
+    if not skipped.size:
         return value, ""
-    return value, f"not judgeable at {len(skipped)} of {len(reasons)} outputs: {skipped[-1]}"
+    times = np.atleast_1d(ds["time"].values) if "time" in ds.dims else np.zeros(1)
+    return value, (f"not judgeable at {skipped.size} of {judged.size} outputs, the first at "
+                   f"t = {times[skipped[0]]:g} s: {reasons[skipped[0]]}")
 
 
 def closure_phrase(value: float | None, note: str = "") -> str:

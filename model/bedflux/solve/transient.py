@@ -217,6 +217,8 @@ def run_transient(section: Section, progress: Callable[[float], None] | None = N
     attrs = {"run": "transient", "scheme": ts.scheme, "solver": "direct", "cells": section.n,
              "steps": steps, "factorizations": cache.builds,
              "factorization_seconds": round(cache.build_seconds, 4), **peak_attrs(sc)}
+    if ts.origin is not None:
+        attrs["start"] = str(np.datetime64(int(round(ts.origin)), "s"))
     if partial:
         attrs["partial"] = partial
     ds = build_dataset(section, states, stages, done_times, attrs)
