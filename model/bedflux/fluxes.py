@@ -71,8 +71,8 @@ def not_judgeable(inflow: float, outflow: float, gross: float, limit: float) -> 
         return "nothing flows (no head differs from the reference head and nothing is imposed)"
     flow = max(inflow, outflow)
     if flow <= limit * gross:
-        return (f"the flows ({flow:.3g} m2/s) are within {limit:g} of the gross flow ({gross:.3g} m2/s), "
-                "too small for the budget to check")
+        return (f"the net flows ({flow:.3g} m2/s) are below {limit:g} of the gross flow the budget is "
+                f"computed from ({gross:.3g} m2/s), so an error in them would not show")
     return ""
 
 
