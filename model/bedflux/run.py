@@ -2,8 +2,8 @@
 
 All outputs are staged and moved into the output folder only when everything has been written,
 so bad input or a failed solve leaves nothing behind. An interrupted transient run, and one
-stopped because a step's water budget did not close, keep the outputs computed so far, marked as
-partial (the stopped run still ends with its :class:`SolverError`).
+stopped by a failing step (a water budget that does not close), keep the outputs computed so far,
+marked as partial (the stopped run still ends with its :class:`SolverError`).
 """
 from __future__ import annotations
 

@@ -16,8 +16,9 @@ the floodplain once refactors only when the set of faces changes.
 Steps are shortened where needed so that outputs fall exactly on the requested times.
 
 The water budget of every step is checked: a closure above :data:`bedflux.fluxes.CLOSURE_LIMIT`
-stops the run with a :class:`SolverError` that names the step and carries the outputs so far
-(``partial`` attribute), as an interrupt does.
+stops the run with a :class:`SolverError` that names the step. A step that fails (that, or face
+states that do not settle) keeps the outputs so far in the error's ``partial`` attribute, marked
+partial as after an interrupt.
 """
 from __future__ import annotations
 
@@ -142,8 +143,9 @@ def run_transient(section: Section, progress: Callable[[float], None] | None = N
     Raises
     ------
     SolverError
-        When a step's water budget does not close (see :data:`bedflux.fluxes.CLOSURE_LIMIT`); its
-        ``partial`` attribute holds the Dataset of the outputs before that step, marked partial.
+        When a step fails: its water budget does not close (see :data:`bedflux.fluxes.CLOSURE_LIMIT`)
+        or its face states do not settle; the error's ``partial`` attribute holds the Dataset of the
+        outputs before that step, marked partial.
     """
     sc = section.scenario
     ts = sc.time
