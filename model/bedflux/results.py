@@ -26,7 +26,9 @@ VARIABLES: dict[str, tuple[str, str, str]] = {
     "zone": ("1", "cell", "index of the material zone (see attribute zone_names)"),
     "budget_in": ("m2 s-1", "section", "flow into the aquifer through each boundary, per metre of width"),
     "budget_out": ("m2 s-1", "section", "flow out of the aquifer through each boundary, per metre of width"),
-    "budget_closure": ("1", "section", "budget imbalance relative to the total inflow"),
+    "budget_closure": ("1", "section", "budget imbalance (in - out) over the gross flow; NaN when nothing flows"),
+    "budget_gross": ("m2 s-1", "section", "gross flow: sum of the magnitudes of the parts every budget flow is "
+                                          "the difference of (the scale of the closure)"),
 }
 
 
@@ -59,6 +61,7 @@ def build_dataset(section: Section, states: Sequence[Fluxes], stages: Sequence[f
         "budget_in": (lead + ("term",), stack(lambda s: np.array([s.budget_in[k] for k in BUDGET_LINES]))),
         "budget_out": (lead + ("term",), stack(lambda s: np.array([s.budget_out[k] for k in BUDGET_LINES]))),
         "budget_closure": (lead, stack(lambda s: np.float64(s.closure))),
+        "budget_gross": (lead, stack(lambda s: np.float64(s.gross))),
         "ground": (("x",), g.ground),
         "kh": (("z", "x"), np.where(g.active, m.kh, np.nan)),
         "kv": (("z", "x"), np.where(g.active, m.kv, np.nan)),

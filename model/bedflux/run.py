@@ -1,8 +1,9 @@
 """``bedflux run``: load a scenario, simulate, and write result.nc, the summary and figures.
 
 All outputs are staged and moved into the output folder only when everything has been written,
-so bad input or a failed solve leaves nothing behind. An interrupted transient run keeps the
-outputs computed so far, marked as partial.
+so bad input or a failed solve leaves nothing behind. An interrupted transient run, and one
+stopped by a failing step (a water budget that does not close), keep the outputs computed so far,
+marked as partial (the stopped run still ends with its :class:`SolverError`).
 """
 from __future__ import annotations
 
@@ -11,6 +12,7 @@ from pathlib import Path
 
 from . import __version__
 from .atomic import staged_directory, write_text
+from .errors import SolverError
 from .io import copy_inputs, input_files, write_result, write_summary
 from .progress import ProgressBar
 from .scenario import load
@@ -23,8 +25,15 @@ def run_scenario(path: Path, outdir: Path, unit: str = "m/d", quiet: bool = Fals
 
     scenario = load(path)
     bar = ProgressBar(enabled=not quiet, label="time steps")
-    ds = simulate(scenario, progress=bar.update if scenario.transient else None)
-    bar.close()
+    failure = None
+    try:
+        ds = simulate(scenario, progress=bar.update if scenario.transient else None)
+    except SolverError as err:
+        if err.partial is None:
+            raise
+        ds, failure = err.partial, err
+    finally:
+        bar.close()
     with staged_directory(outdir) as stage:
         write_result(ds, stage / "result.nc")
         summary = write_summary(ds, stage)
@@ -35,4 +44,6 @@ def run_scenario(path: Path, outdir: Path, unit: str = "m/d", quiet: bool = Fals
         prov = {"bedflux_version": __version__, "inputs": copy_inputs(stage, input_files(scenario))}
         write_text(stage / "provenance.json", json.dumps(prov, indent=2) + "\n")
     summary["partial"] = ds.attrs.get("partial", "")
+    if failure is not None:
+        raise SolverError(f"{failure}. The outputs before that step are in {outdir}/, marked partial") from None
     return summary

@@ -8,7 +8,7 @@ from __future__ import annotations
 import copy
 import math
 import tomllib
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any, Mapping
 
@@ -17,7 +17,7 @@ import numpy as np
 from . import checks
 from .elliott_brooks import dynamic_head_amplitude
 from .errors import InputError
-from .forcing import Constant, FloodWave, Pulse, Series, Signal, Wave, read_series
+from .forcing import Constant, FloodWave, Pulse, Series, Signal, Wave, parse_datetime, read_series
 
 #: Plausibility limits (SI). Values outside are errors that suggest the unit meant.
 K_MAX = 1.0  # m/s: coarse gravel is about 1e-2 m/s (Freeze & Cherry 1979, table 2.2)
@@ -114,12 +114,23 @@ class RiparianSpec:
 
 @dataclass(frozen=True)
 class TimeSpec:
-    """Transient run control (s)."""
+    """Transient run control (s).
+
+    ``origin`` is the clock time of ``t = 0`` in seconds since 1970-01-01 00:00 (local clock):
+    ``[time] start``, or without it the first date-time of the stage series (of the first side-head
+    series without one); None when neither gives a date, and then ``t = 0`` is a midnight.
+    """
 
     end: float
     step: float
     output_every: float
     scheme: str = "backward-euler"
+    origin: float | None = None
+
+    @property
+    def clock0(self) -> float:
+        """Clock time of ``t = 0`` in seconds after midnight."""
+        return 0.0 if self.origin is None else self.origin % 86400.0
 
 
 @dataclass(frozen=True)
@@ -210,12 +221,15 @@ def _build(d: dict, base_dir: Path, source: str) -> Scenario:
     zones = _zones(d.get("zone"), grid)
     time = _time(checks.table(d, "time", "top level"))
     t_end = time.end if time else 0.0
-    stream = _stream(checks.table(d, "stream", "top level"), base_dir, grid, t_end)
+    clock = _Clock(time.origin if time else None)
+    stream = _stream(checks.table(d, "stream", "top level"), base_dir, grid, t_end, clock)
     sides = checks.table(d, "sides", "top level")
     checks.reject_unknown(sides, ["left", "right", "bottom"], where="[sides]")
-    left = _boundary(sides, "left", stream, base_dir, grid, t_end)
-    right = _boundary(sides, "right", stream, base_dir, grid, t_end)
-    bottom = _boundary(sides, "bottom", stream, base_dir, grid, t_end)
+    left = _boundary(sides, "left", stream, base_dir, grid, t_end, clock)
+    right = _boundary(sides, "right", stream, base_dir, grid, t_end, clock)
+    bottom = _boundary(sides, "bottom", stream, base_dir, grid, t_end, clock)
+    if time is not None and clock.origin != time.origin:
+        time = replace(time, origin=clock.origin)
     if (left.kind == "periodic") != (right.kind == "periodic"):
         raise InputError("periodic sides come in pairs: set both left and right to \"periodic\"", where="[sides]")
     if bottom.kind in ("periodic", "stream"):
@@ -334,7 +348,25 @@ def _zones(zs: Any, grid: GridSpec) -> tuple[ZoneSpec, ...]:
     return tuple(out)
 
 
-def _signal_stage(t: dict, base_dir: Path, grid: GridSpec, t_end: float) -> Signal:
+class _Clock:
+    """The clock of a run while its series are read: the date-time of ``t = 0`` (or None).
+
+    Without ``[time] start`` the first series read with date-times sets it (the stage series is
+    read first); every later date-time series is aligned to it.
+    """
+
+    def __init__(self, origin: float | None):
+        self.origin = origin
+
+    def align(self, series: Series) -> Series:
+        if series.origin is None:
+            return series
+        if self.origin is None:
+            self.origin = series.origin
+        return series.aligned(self.origin)
+
+
+def _signal_stage(t: dict, base_dir: Path, grid: GridSpec, t_end: float, clock: _Clock) -> Signal:
     forms = [k for k in ("stage", "stage_csv", "pulse", "flood_wave", "wave") if k in t]
     if len(forms) != 1:
         raise InputError("give exactly one of stage = V, stage_csv = \"file.csv\", [stream.pulse], "
@@ -343,7 +375,7 @@ def _signal_stage(t: dict, base_dir: Path, grid: GridSpec, t_end: float) -> Sign
     if form == "stage":
         sig: Signal = Constant(checks.quantity(t, "stage", "length", "[stream]"))
     elif form == "stage_csv":
-        sig = _series_from(t, "stage_csv", "[stream]", base_dir)
+        sig = _series_from(t, "stage_csv", "[stream]", base_dir, clock)
     elif form == "pulse":
         p = checks.table(t, "pulse", "[stream]")
         w = "[stream.pulse]"
@@ -355,8 +387,13 @@ def _signal_stage(t: dict, base_dir: Path, grid: GridSpec, t_end: float) -> Sign
     elif form == "flood_wave":
         p = checks.table(t, "flood_wave", "[stream]")
         w = "[stream.flood_wave]"
-        checks.reject_unknown(p, ["base", "amplitude", "duration", "decay", "start"], where=w)
-        sig = FloodWave(checks.quantity(p, "base", "length", w), checks.quantity(p, "amplitude", "length", w),
+        if "amplitude" in p:
+            raise InputError("amplitude is not read any more (it was Cooper & Rorabaugh's N0, half the "
+                             "flood's height when decay = 0); give peak_rise = the highest rise of the "
+                             "stage above base, e.g. peak_rise = \"1.2 m\"", where=w)
+        checks.reject_unknown(p, ["base", "peak_rise", "duration", "decay", "start"], where=w)
+        sig = FloodWave(checks.quantity(p, "base", "length", w),
+                        checks.quantity(p, "peak_rise", "length", w, low=0.0, low_inclusive=False),
                         checks.quantity(p, "duration", "time", w, low=0.0, low_inclusive=False),
                         _rate(p, "decay", w), checks.quantity(p, "start", "time", w, default=0.0, low=0.0))
     else:
@@ -374,10 +411,10 @@ def _rate(t: dict, key: str, where: str) -> float:
     return checks.quantity(t, key, "per_time", where, default=0.0, low=0.0)
 
 
-def _series_from(t: dict, key: str, where: str, base_dir: Path) -> Series:
+def _series_from(t: dict, key: str, where: str, base_dir: Path, clock: _Clock) -> Series:
     name = checks.text(t, key, where)
     try:
-        return read_series(base_dir / name, "length", None)
+        return clock.align(read_series(base_dir / name, "length", None))
     except InputError as err:
         raise err.located(where=f"{where} {key}") from None
 
@@ -394,13 +431,13 @@ def _check_head_signal(sig: Signal, key: str, where: str, grid: GridSpec, t_end:
                          f"({grid.bottom:g} m); check the unit or the datum", where=where)
 
 
-def _stream(t: dict, base_dir: Path, grid: GridSpec, t_end: float) -> StreamSpec | None:
+def _stream(t: dict, base_dir: Path, grid: GridSpec, t_end: float, clock: _Clock) -> StreamSpec | None:
     if not t:
         return None
     where = "[stream]"
     checks.reject_unknown(t, ["stage", "stage_csv", "pulse", "flood_wave", "wave", "channel", "leakance",
                               "bedform", "slope"], where=where)
-    stage = _signal_stage(t, base_dir, grid, t_end)
+    stage = _signal_stage(t, base_dir, grid, t_end, clock)
     channel = checks.interval(t, "channel", where, default=None)
     leak = checks.quantity(t, "leakance", "per_time", where, default=None, low=0.0, low_inclusive=False,
                            high=LEAKANCE_MAX, high_hint="1/d")
@@ -439,7 +476,7 @@ def _bedform(b: dict) -> BedformSpec:
 
 
 def _boundary(sides: dict, key: str, stream: StreamSpec | None, base_dir: Path, grid: GridSpec,
-              t_end: float) -> BoundarySpec:
+              t_end: float, clock: _Clock) -> BoundarySpec:
     where = "[sides]"
     v = sides.get(key, "no-flow")
     if isinstance(v, str):
@@ -460,7 +497,7 @@ def _boundary(sides: dict, key: str, stream: StreamSpec | None, base_dir: Path, 
         _check_head_signal(sig, "head", w, grid, t_end)
         return BoundarySpec("head", sig)
     if k == "head_csv":
-        sig = _series_from(dict(v), "head_csv", w, base_dir)
+        sig = _series_from(dict(v), "head_csv", w, base_dir, clock)
         _check_head_signal(sig, "head", w, grid, t_end)
         return BoundarySpec("head", sig)
     if k == "flux":
@@ -494,7 +531,7 @@ def _time(t: dict) -> TimeSpec | None:
     if not t:
         return None
     where = "[time]"
-    checks.reject_unknown(t, ["end", "step", "output_every", "scheme"], where=where)
+    checks.reject_unknown(t, ["end", "step", "output_every", "scheme", "start"], where=where)
     end = checks.quantity(t, "end", "time", where, low=0.0, low_inclusive=False)
     step = checks.quantity(t, "step", "time", where, low=0.0, low_inclusive=False)
     every = checks.quantity(t, "output_every", "time", where, default=step, low=0.0, low_inclusive=False)
@@ -503,7 +540,17 @@ def _time(t: dict) -> TimeSpec | None:
         raise InputError(f"step = {step:g} s is longer than end = {end:g} s", where=where)
     if end / step > 2e6:
         raise InputError(f"end / step = {end / step:.3g} steps is more than 2e6; use a longer step", where=where)
-    return TimeSpec(end, step, every, scheme)
+    origin = None
+    if "start" in t:
+        try:
+            origin = parse_datetime(t["start"])
+        except InputError as err:
+            raise err.located(where=f"{where} start") from None
+        if origin is None:
+            raise InputError(f"start = {t['start']!r} is not a date-time; write it as ISO 8601 local time, "
+                             "e.g. start = 2024-06-01T00:00:00 or start = \"2024-06-01 06:30\"",
+                             where=f"{where} start")
+    return TimeSpec(end, step, every, scheme, origin)
 
 
 # --------------------------------------------------------------------------------------------

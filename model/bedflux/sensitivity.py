@@ -433,7 +433,7 @@ class Forward:
                 dR = np.column_stack([residual_derivative(section, init.terms, u, k, v)[0]
                                       for k, v in zip(kinds, values)])
                 s = init.factor.solve(dR)
-            st.update(u=u, s=s, s_prev=s.copy(), terms=terms, t=0.0)
+            st.update(u=u, s=s, terms=terms, t=0.0)
             at0 = times <= 0.0
             if at0.any():
                 vals, dJ = observe(u, s, terms, 0.0)
@@ -443,7 +443,7 @@ class Forward:
             st["obs0"] = observe(u, s, terms, 0.0)
 
         def on_step(info):
-            s1 = _step_sensitivity(section, info, st["s"], st["s_prev"], kinds, values) if P else st["s"]
+            s1 = _step_sensitivity(section, info, st["s"], kinds, values) if P else st["s"]
             self.n_sensitivity_solves += P
             inside = (times > info.t0) & (times <= info.t1 + 1e-9 * max(info.t1, 1.0))
             obs1 = observe(info.u1, s1, info.terms1, info.t1)
@@ -454,39 +454,40 @@ class Forward:
                 d[inside] = ((1 - a[:, 0]) * v0[inside] + a[:, 0] * v1[inside])
                 if P:
                     J[inside] = (1 - a) * j0[inside] + a * j1[inside]
-            st.update(s_prev=st["s"], s=s1, obs0=obs1)
+            st.update(s=s1, obs0=obs1)
 
         run_transient(section, on_start=on_start, on_step=on_step)
         return d, J
 
 
-def _lag_derivative(section: Section, terms: list[Term], t: float, u_lag: np.ndarray) -> np.ndarray:
-    """``dR/du_lag`` per unknown: ET of a daily cycle taken at the heads of the step's start."""
+def _lag_derivative(section: Section, factor: float, u_lag: np.ndarray) -> np.ndarray:
+    """``dR/du_lag`` per unknown: ET of a daily cycle (mean ``factor`` over the step) taken at the
+    heads of the step's start."""
     out = np.zeros(section.n)
     if not section.et_cells.size or not section.et_cycle.any():
         return out
     depth = section.grid.ground[section.et_cols] - (u_lag[section.et_cells] + section.h_ref)
     linear = section.et_cycle & (depth > 0.0) & (depth < section.et_ext)
-    f = section.et_factor(t, steady=False)
-    coef = np.where(linear, -f * section.et_rate / section.et_ext, 0.0)
+    coef = np.where(linear, -factor * section.et_rate / section.et_ext, 0.0)
     return np.bincount(section.et_cells, weights=coef, minlength=section.n)
 
 
-def _step_sensitivity(section: Section, info, s0: np.ndarray, s_prev: np.ndarray, kinds: list[_Kind],
+def _step_sensitivity(section: Section, info, s0: np.ndarray, kinds: list[_Kind],
                       values: list[float]) -> np.ndarray:
     """Carry the sensitivities over one step with the step's own factorization.
 
-    (S/dt + theta A1) s1 = S_el/dt s0 + S_wt/dt s0_wt - dfill/dh0 s0 + theta (dR1/dp + dR1/du_lag s0)
-                           + (1 - theta) (dR0/dp - A0 s0 + dR0/du_lag s_prev)
+    (S/dt + theta A1) s1 = S_el/dt s0 + S_wt/dt s0_wt - dfill/dh0 s0 + dR/du_lag s0
+                           + theta dR1/dp + (1 - theta) (dR0/dp - A0 s0)
                            - dS_el/dp (h1 - h0)/dt - dS_wt/dp (h1 - h0_wt)/dt - dfill/dp
+
+    (the ET of a daily cycle is taken at the heads of the step's start in the terms of both ends)
     """
     th, dt = info.theta, info.dt
     g = section.grid
     clipped = info.u0_wt != info.u0  # water table held at the ground at the start: fixed there
     s0_wt = np.where(clipped[:, None], 0.0, s0)
     rhs = (info.elastic / dt)[:, None] * s0 + (info.water_table / dt)[:, None] * s0_wt
-    lag1 = _lag_derivative(section, info.terms1, info.t1, info.u0)[:, None]
-    rhs += th * lag1 * s0
+    rhs += _lag_derivative(section, info.et_factor, info.u0)[:, None] * s0
     if info.filled.any():
         top = section.top_cells[info.filled]
         sy = section.materials.sy[g.top_row[info.filled], np.nonzero(info.filled)[0]]
@@ -499,9 +500,7 @@ def _step_sensitivity(section: Section, info, s0: np.ndarray, s_prev: np.ndarray
         diag0 = np.zeros(section.n)
         for t in info.terms0:
             diag0 += np.bincount(t.cells, weights=t.g, minlength=section.n)
-        A0s = section.L @ s0 + diag0[:, None] * s0
-        lag0 = _lag_derivative(section, info.terms0, info.t0, info.u_prev)[:, None]
-        rhs += (1.0 - th) * (-A0s + lag0 * s_prev)
+        rhs -= (1.0 - th) * (section.L @ s0 + diag0[:, None] * s0)
     for j, (k, v) in enumerate(zip(kinds, values)):
         col = th * residual_derivative(section, info.terms1, info.u1, k, v)[0]
         if th != 1.0:

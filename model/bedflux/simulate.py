@@ -6,7 +6,7 @@ from typing import Callable, Mapping
 import numpy as np
 import xarray as xr
 
-from .fluxes import derive
+from .fluxes import CLOSURE_LIMIT, check_closure, derive
 from .results import build_dataset
 from .scenario import Scenario
 from .solve.section import Section, discretise
@@ -27,6 +27,12 @@ def simulate(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = None,
         Linear solver: ``"auto"`` (by size), ``"direct"`` or ``"amg-cg"``.
     progress
         Called with the fraction done during transient runs.
+
+    Raises
+    ------
+    SolverError
+        When a solve fails, or its water budget does not close (a transient run's error then
+        carries the outputs before the failing step in its ``partial`` attribute).
     """
     section = discretise(scenario, fields)
     if scenario.transient:
@@ -41,6 +47,8 @@ def steady_dataset(section: Section, method: str = "auto") -> xr.Dataset:
     sol = solve_steady(section, 0.0, method=method)
     sol.factor = None  # free the factorization or multigrid hierarchy before the derived fields
     fl = derive(section, sol.u, sol.terms, wet=section.submerged(0.0))
+    check_closure(fl.budget_in, fl.budget_out, fl.gross, CLOSURE_LIMIT[sol.method],
+                  f"in the steady solve ({sol.method})")
     attrs = {"run": "steady", "solver": sol.method, "active_set_passes": sol.passes,
              "cells": section.n}
     return build_dataset(section, [fl], [section.stage(0.0)], None, attrs)

@@ -4,7 +4,8 @@ from __future__ import annotations
 import numpy as np
 import xarray as xr
 
-from .fluxes import BUDGET_LINES
+from .flood import flood_figures, flood_lines
+from .fluxes import BUDGET_LINES, closure_phrase, closure_summary
 
 
 def summarise(ds: xr.Dataset) -> dict:
@@ -17,6 +18,7 @@ def summarise(ds: xr.Dataset) -> dict:
     dx = np.diff(ds["x_edge"].values)
     q = last["bed_flux"].values
     wet = np.isfinite(q)
+    closure, closure_note = closure_summary(ds)
     out = {
         "title": ds.attrs.get("title", ""),
         "run": ds.attrs.get("run", "steady"),
@@ -31,7 +33,8 @@ def summarise(ds: xr.Dataset) -> dict:
         "submerged_length_m": float(dx[wet].sum()),
         "max_gaining_flux_m_per_s": float(np.nanmax(q)) if wet.any() else float("nan"),
         "max_losing_flux_m_per_s": float(np.nanmin(q)) if wet.any() else float("nan"),
-        "budget_closure": float(np.max(np.abs(ds["budget_closure"].values))),
+        "budget_closure": closure,
+        "budget_closure_note": closure_note,
         "budget_in_m2_per_s": {k: float(v) for k, v in zip(BUDGET_LINES, last["budget_in"].values)},
         "budget_out_m2_per_s": {k: float(v) for k, v in zip(BUDGET_LINES, last["budget_out"].values)},
     }
@@ -40,6 +43,7 @@ def summarise(ds: xr.Dataset) -> dict:
         out["exchange_min_m2_per_s"] = float(ex.min())
         out["exchange_max_m2_per_s"] = float(ex.max())
         out["end_time_s"] = float(ds["time"].values[-1])
+    out.update(flood_figures(ds.attrs))
     return out
 
 
@@ -64,5 +68,6 @@ def summary_text(s: dict) -> str:
     et = s["budget_out_m2_per_s"]["evapotranspiration"]
     if et > 0:
         lines.append(f"riparian evapotranspiration from groundwater: {et * day:.4g} m3/d per metre")
-    lines.append(f"water budget closure: {s['budget_closure']:.2e} of the inflow")
+    lines += flood_lines(s)
+    lines.append(f"water budget closure: {closure_phrase(s['budget_closure'], s['budget_closure_note'])}")
     return "\n".join(lines) + "\n"

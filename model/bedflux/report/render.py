@@ -16,6 +16,7 @@ import pandas as pd
 
 from .. import __version__
 from . import findings as fd
+from ..fluxes import closure_phrase
 from ..io import sha256
 from .collect import MAX_REPRODUCED_BYTES, TEXT_SUFFIXES, Output, Project, read_table
 from .style import STYLESHEET
@@ -169,7 +170,7 @@ def _run_section(o: Output, unit: str) -> str:
             ("losing length", fd.length(s.get("losing_length_m"))),
             ("bed flux range (+ = upward)", f"{fd.flux(s.get('max_losing_flux_m_per_s'), unit)} to "
                                             f"{fd.flux(s.get('max_gaining_flux_m_per_s'), unit)}"),
-            ("water budget closure", f"{float(s.get('budget_closure', float('nan'))):.1e} of the inflow")]
+            ("water budget closure", closure_phrase(s.get("budget_closure"), s.get("budget_closure_note", "")))]
     if "exchange_min_m2_per_s" in s:
         rows.insert(3, ("net exchange over the run", f"{fd.signed_per_metre(s['exchange_min_m2_per_s'])} to "
                                                      f"{fd.signed_per_metre(s['exchange_max_m2_per_s'])}"))

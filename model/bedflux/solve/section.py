@@ -28,13 +28,12 @@ import scipy.sparse as sp
 
 from ..elliott_brooks import bedform_head
 from ..errors import InputError
+from ..forcing import daylight_mean
 from ..grid import Grid, build_grid
 from ..materials import Materials, materials
 from ..scenario import BoundarySpec, Scenario
 from .operator import (Faces, conductance_matrix, diagonal_positions, horizontal_faces, unknown_positions,
                        vertical_faces)
-
-SECONDS_PER_DAY = 86400.0
 
 
 @dataclass
@@ -130,16 +129,10 @@ class Section:
         """Stage above each column at time ``t`` (the stage plus the water-surface slope)."""
         return self.scenario.stream.local_stage(t, self.grid.xc)
 
-    def et_factor(self, t: float, steady: bool) -> float:
-        """Multiplier of the ET rate at time ``t``: 1, or the daily cycle in transient runs.
-
-        The daily cycle has no uptake between 18:00 and 06:00 (the run starts at midnight) and
-        ``pi sin(pi (tau - 6 h) / 12 h)`` in daytime, whose daily mean is 1.
-        """
-        if steady:
-            return 1.0
-        tau = (t % SECONDS_PER_DAY) / 3600.0
-        return float(np.pi * np.sin(np.pi * (tau - 6.0) / 12.0)) if 6.0 <= tau <= 18.0 else 0.0
+    def et_factor(self, t0: float, t1: float) -> float:
+        """Mean multiplier of the ET rate over ``[t0, t1]`` of a transient run: the daily cycle on
+        the run's clock (:func:`bedflux.forcing.daylight_mean`); its value at ``t0`` when ``t1 == t0``."""
+        return daylight_mean(t0, t1, self.scenario.time.clock0)
 
     # ---------------------------------------------------------------------------- active sets
     def initial_active_set(self) -> ActiveSet:
@@ -147,11 +140,12 @@ class Section:
         return ActiveSet(np.zeros(self.grid.nx, dtype=bool), np.ones(self.et_cells.size, dtype=np.int8))
 
     def terms(self, t: float, state: ActiveSet, steady: bool = True,
-              u_lag: np.ndarray | None = None) -> list[Term]:
+              u_lag: np.ndarray | None = None, et_window: tuple[float, float] | None = None) -> list[Term]:
         """The boundary and sink terms at time ``t`` for the given active set.
 
         With a daily ET cycle in a transient run, ET is taken at the heads ``u_lag`` of the start
-        of the step (explicit); otherwise it is implicit on the branch of the active set.
+        of the step (explicit) with the cycle's mean over ``et_window`` (the step; default the
+        instant ``t``); otherwise it is implicit on the branch of the active set.
         """
         g = self.grid
         cols = np.arange(g.nx)
@@ -197,7 +191,7 @@ class Section:
             ground = g.ground[self.et_cols]
             mode = state.et_mode.copy()
             explicit = self.et_cycle & (u_lag is not None) & (not steady)
-            f = np.where(explicit, self.et_factor(t, steady), 1.0)
+            f = np.where(explicit, self.et_factor(*(et_window or (t, t))) if explicit.any() else 1.0, 1.0)
             rate = self.et_rate * f
             if explicit.any():
                 # daily cycle: ET taken at the heads of the start of the step (explicit); its

@@ -8,11 +8,17 @@ each step solves
     Crank-Nicolson:  (S/dt + A1/2) u1 = (S/dt - A0/2) u0 + (b0 + b1)/2
 
 where ``A = L + diag(g)`` and ``b = r`` come from the boundary terms. The matrix depends only on
-the step length and on which faces are submerged, seeping or evapotranspiring on which branch;
-factorizations are cached by exactly that, so a constant step reuses one factor and a flood that
-floods and drains the floodplain once refactors only when the set of faces changes.
+the step length, the scheme's theta (Crank-Nicolson runs also take backward-Euler half steps) and
+on which faces are submerged, seeping or evapotranspiring on which branch; factorizations are
+cached by exactly that, so a constant step reuses one factor and a flood that floods and drains
+the floodplain once refactors only when the set of faces changes.
 
 Steps are shortened where needed so that outputs fall exactly on the requested times.
+
+The water budget of every step is checked: a closure above :data:`bedflux.fluxes.CLOSURE_LIMIT`
+stops the run with a :class:`SolverError` that names the step. A step that fails (that, or face
+states that do not settle) keeps the outputs so far in the error's ``partial`` attribute, marked
+partial as after an interrupt.
 """
 from __future__ import annotations
 
@@ -24,7 +30,8 @@ import numpy as np
 import xarray as xr
 
 from ..errors import SolverError
-from ..fluxes import BUDGET_LINES, Fluxes, derive
+from ..flood import peak_attrs
+from ..fluxes import BUDGET_LINES, CLOSURE_LIMIT, Fluxes, check_closure, derive, gross_flow
 from ..results import build_dataset
 from .linear import Factor, factorize
 from .section import ActiveSet, Section, Term
@@ -49,7 +56,6 @@ class StepInfo:
     u0: np.ndarray
     u1: np.ndarray
     u0_wt: np.ndarray
-    u_prev: np.ndarray
     terms0: list[Term]
     terms1: list[Term]
     factor: Factor
@@ -58,10 +64,11 @@ class StepInfo:
     fill: np.ndarray
     filled: np.ndarray
     state: ActiveSet
+    et_factor: float
 
 
 class FactorCache:
-    """The last few factorizations keyed by (dt, face states); counts builds and their cost."""
+    """The last few factorizations keyed by (dt, theta, face states); counts builds and their cost."""
 
     def __init__(self, section: Section, size: int = CACHE_SIZE):
         self.section = section
@@ -101,8 +108,8 @@ def output_times(end: float, every: float) -> np.ndarray:
     return t
 
 
-def _state_key(wet: np.ndarray, state: ActiveSet, dt: float) -> tuple:
-    return (round(dt, 9), wet.tobytes(), state.seepage.tobytes(), state.et_mode.tobytes())
+def _state_key(wet: np.ndarray, state: ActiveSet, dt: float, theta: float) -> tuple:
+    return (round(dt, 9), theta, wet.tobytes(), state.seepage.tobytes(), state.et_mode.tobytes())
 
 
 def _apply(terms: list[Term], u: np.ndarray, section: Section) -> np.ndarray:
@@ -132,6 +139,13 @@ def run_transient(section: Section, progress: Callable[[float], None] | None = N
 
     An interrupt (Ctrl-C) ends the run cleanly: the Dataset holds the outputs so far and its
     ``partial`` attribute says where it stopped.
+
+    Raises
+    ------
+    SolverError
+        When a step fails: its water budget does not close (see :data:`bedflux.fluxes.CLOSURE_LIMIT`)
+        or its face states do not settle; the error's ``partial`` attribute holds the Dataset of the
+        outputs before that step, marked partial.
     """
     sc = section.scenario
     ts = sc.time
@@ -156,10 +170,11 @@ def run_transient(section: Section, progress: Callable[[float], None] | None = N
     stages = [section.stage(0.0)]
     done_times = [0.0]
     partial = ""
+    failure = None
     steps = 0
     damp = RANNACHER_STEPS if theta != 1.0 else 0
-    u_prev = u
     last_key = None
+    limit = CLOSURE_LIMIT["direct"]
     try:
         for t_out in times[1:]:
             while t < t_out - 1e-9 * max(t_out, 1.0):
@@ -174,49 +189,58 @@ def run_transient(section: Section, progress: Callable[[float], None] | None = N
                 else:
                     parts = [(dt, theta)]
                 pieces = []
+                t_start = t
                 for h, th in parts:
-                    info, storage_part, budget_part = _step(section, cache, u, t, h, th, state, terms0, u_prev)
+                    info, storage_part, budget_part = _step(section, cache, u, t, h, th, state, terms0)
                     pieces.append((h / dt, storage_part, budget_part))
-                    u_prev = u
                     u, state, terms0 = info.u1, info.state, info.terms1
                     t += h
                     if on_step is not None:
                         on_step(info)
                 storage_in, budget = _combine(pieces)
+                steps += 1
+                check_closure(*budget, limit, f"in step {steps} (t = {t_start:g} s to {t:g} s)")
                 key = (section.submerged(t).tobytes(), state.seepage.tobytes(), state.et_mode.tobytes())
                 if theta != 1.0 and last_key is not None and key != last_key:
                     damp = RANNACHER_STEPS
                 last_key = key
-                steps += 1
                 if progress is not None:
                     progress(t / ts.end)
             fl = derive(section, u, terms0, storage_in, wet=section.submerged(t))
-            fl.budget_in, fl.budget_out = budget
+            fl.budget_in, fl.budget_out, fl.gross = budget
             states.append(fl)
             stages.append(section.stage(t))
             done_times.append(t)
     except KeyboardInterrupt:
         partial = f"interrupted at t = {t:g} s; outputs up to t = {done_times[-1]:g} s of {ts.end:g} s"
+    except SolverError as err:
+        failure = err
+        partial = f"stopped: {err}; outputs up to t = {done_times[-1]:g} s of {ts.end:g} s"
     attrs = {"run": "transient", "scheme": ts.scheme, "solver": "direct", "cells": section.n,
              "steps": steps, "factorizations": cache.builds,
-             "factorization_seconds": round(cache.build_seconds, 4)}
+             "factorization_seconds": round(cache.build_seconds, 4), **peak_attrs(sc)}
+    if ts.origin is not None:
+        attrs["start"] = str(np.datetime64(int(round(ts.origin)), "s"))
     if partial:
         attrs["partial"] = partial
-    return build_dataset(section, states, stages, done_times, attrs)
+    ds = build_dataset(section, states, stages, done_times, attrs)
+    if failure is not None:
+        raise SolverError(str(failure), partial=ds) from failure
+    return ds
 
 
-def _combine(pieces: list) -> tuple[np.ndarray, tuple[dict, dict]]:
-    """Time-weighted mean of the storage release and budget of the parts of one step."""
+def _combine(pieces: list) -> tuple[np.ndarray, tuple[dict, dict, float]]:
+    """Time-weighted mean of the storage release, budget and gross flow of the parts of one step."""
     if len(pieces) == 1:
         return pieces[0][1], pieces[0][2]
     storage = sum(w * st for w, st, _ in pieces)
     bin_ = {k: sum(w * b[0][k] for w, _, b in pieces) for k in BUDGET_LINES}
     bout = {k: sum(w * b[1][k] for w, _, b in pieces) for k in BUDGET_LINES}
-    return storage, (bin_, bout)
+    return storage, (bin_, bout, sum(w * b[2] for w, _, b in pieces))
 
 
-def _budget(section: Section, terms: list[Term], u: np.ndarray, storage_in: np.ndarray,
-            weight: float = 1.0, into: tuple[dict, dict] | None = None) -> tuple[dict, dict]:
+def _budget(section: Section, terms: list[Term], u: np.ndarray, weight: float,
+            into: tuple[dict, dict] | None = None) -> tuple[dict, dict]:
     bin_, bout = into if into is not None else ({k: 0.0 for k in BUDGET_LINES}, {k: 0.0 for k in BUDGET_LINES})
     for term in terms:
         q = term.inflow(u)
@@ -226,9 +250,12 @@ def _budget(section: Section, terms: list[Term], u: np.ndarray, storage_in: np.n
 
 
 def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: float, theta: float,
-          state: ActiveSet, terms0: list[Term], u_prev: np.ndarray):
+          state: ActiveSet, terms0: list[Term]):
     """One step from ``t0`` to ``t0 + dt``; returns its :class:`StepInfo`, the storage release
-    per cell and the step's water budget.
+    per cell and the step's water budget with its gross flow.
+
+    ET with a daily cycle uses the cycle's exact mean over the step at the heads of the step's
+    start, in the terms of both ends, so that the scheme's weights add up to that mean.
 
     Water-table storage acts only below the ground: a column whose top face is a seepage face or
     is flooded at the end of the step has its water table at the ground, so its pore space above
@@ -245,6 +272,10 @@ def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: f
     # ground under a column that was flooded (its pores are full whatever the head at the centre)
     u0_wt = np.minimum(u0, ground_u)
     u0_wt[section.top_cells[was_wet]] = ground_u[section.top_cells[was_wet]]
+    window = (t0, t1)
+    et_factor = section.et_factor(t0, t1) if section.et_cycle.any() else 1.0
+    if section.et_cycle.any():
+        terms0 = section.terms(t0, state, steady=False, u_lag=u0, et_window=window)
     explicit0 = np.zeros(section.n)
     if theta != 1.0:
         explicit0 = (1.0 - theta) * (_apply(terms0, u0, section) - section.rhs(terms0))
@@ -257,8 +288,8 @@ def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: f
             fill[top] = section.top_sy[filled] * g.dx[filled] * np.maximum(ground_u[top] - u0[top], 0.0) / dt
         S = S_el + S_wt
         base = S_el / dt * u0 + S_wt / dt * u0_wt - fill - explicit0
-        terms1 = section.terms(t1, state, steady=False, u_lag=u0)
-        factor = cache.get(_state_key(wet, state, dt), terms1, S / dt, theta)
+        terms1 = section.terms(t1, state, steady=False, u_lag=u0, et_window=window)
+        factor = cache.get(_state_key(wet, state, dt, theta), terms1, S / dt, theta)
         u1 = factor.solve(base + theta * section.rhs(terms1))
         new = section.update_active_set(u1, terms1, t1, state)
         if new.same(state):
@@ -268,12 +299,15 @@ def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: f
         raise SolverError(f"seepage faces / evapotranspiration branches did not settle in the step to "
                           f"t = {t1:g} s; shorten [time] step")
     storage_in = -(S_el * (u1 - u0) + S_wt * (u1 - u0_wt)) / dt - fill
-    budget = _budget(section, terms1, u1, storage_in, weight=theta)
+    bin_, bout = _budget(section, terms1, u1, theta)
+    gross = theta * gross_flow(terms1, u1)
     if theta != 1.0:
-        budget = _budget(section, terms0, u0, storage_in, weight=1.0 - theta, into=budget)
-    bin_, bout = budget
+        _budget(section, terms0, u0, 1.0 - theta, into=(bin_, bout))
+        gross += (1.0 - theta) * gross_flow(terms0, u0)
     bin_["storage"] = float(storage_in[storage_in > 0].sum())
     bout["storage"] = -float(storage_in[storage_in < 0].sum())
-    info = StepInfo(t0, t1, dt, theta, u0, u1, u0_wt, u_prev, terms0, terms1, factor, S_el, S_wt, fill,
-                    filled, state)
-    return info, storage_in, (bin_, bout)
+    gross += float((S_el * (np.abs(u1) + np.abs(u0)) + S_wt * (np.abs(u1) + np.abs(u0_wt))).sum() / dt
+                   + np.abs(fill).sum())
+    info = StepInfo(t0, t1, dt, theta, u0, u1, u0_wt, terms0, terms1, factor, S_el, S_wt, fill,
+                    filled, state, et_factor)
+    return info, storage_in, (bin_, bout, gross)
