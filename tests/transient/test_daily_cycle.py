@@ -3,8 +3,8 @@
 Sources:
 - Shape: a half-sine between sunrise (06:00) and sunset (18:00), zero at night, peaking at solar
   noon, scaled so that its daily mean is the given daily rate: the usual sinusoidal daytime
-  distribution of daily evapotranspiration (common practice; e.g. Ambikadevi 2004, M.S. project,
-  University of Massachusetts Amherst, EWRE 22, as cited in public tool documentation; the form is
+  distribution of daily evapotranspiration (common practice: daytime radiation, and with it transpiration, follows roughly a sine between
+  sunrise and sunset, Campbell & Norman 1998, An Introduction to Environmental Biophysics, ch. 11;
   from memory). Its integrals are computed here independently in closed form:
       integral of pi sin(pi (tau - 6 h) / 12 h) over [a, b] (clipped to [6 h, 18 h])
           = (12 h) (cos(pi (a - 6 h) / 12 h) - cos(pi (b - 6 h) / 12 h)),
