@@ -118,3 +118,12 @@ def test_worked_fit_misfit_is_what_its_errors_explain(tmp_path):
     dof = st["degrees_of_freedom"]
     lo, hi = stats.chi2.ppf([0.005, 0.995], dof)
     assert lo <= st["weighted_sum_of_squares"] <= hi
+
+
+def test_report_says_which_observations_were_left_out(demo):
+    from bedflux.report.findings import field_finding
+
+    _, summary = demo
+    sentences = field_finding(summary).sentences
+    assert any("B3" in s and "left out of the calibration" in s for s in sentences)
+    assert any(s.startswith("With the flagged meters the reach would give") for s in sentences)
