@@ -40,7 +40,7 @@ def test_unit_that_would_fit_is_suggested(campaign, tmp_path):
     # Velocity heads of 5 and 14 written under [m] are 5-14 m (v = sqrt(2 g dh) = 10-17 m/s,
     # beyond any stream); in mm every value is plausible.
     campaign("velocity.csv", "site,time [h],head_difference [m]\nA1,1,5.2\nA2,1,13.6\n")
-    assert "plausible in [mm]" in _error(campaign, tmp_path)
+    assert "plausible in [mm] or [cm]" in _error(campaign, tmp_path)
 
 
 def test_header_with_semicolons_names_the_separator(campaign, tmp_path):

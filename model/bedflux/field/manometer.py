@@ -27,8 +27,6 @@ _UNIFORM = 1.0 / np.sqrt(12.0)
 #: between-piezometer term: two piezometers driven to the same nominal depth sample heads a
 #: centimetre or so apart along the gradient.
 DEPTH_SIGMA = 0.01
-#: Piezometer flags that keep a piezometer out of the observations by default.
-EXCLUDING_FLAGS = ("velocity_head",)
 
 
 def amplification(fluid_density: ArrayLike, water_density: ArrayLike = WATER_DENSITY) -> np.ndarray:

@@ -16,7 +16,8 @@ import pandas as pd
 COLUMNS = ["kind", "x", "depth", "time", "value", "sigma"]
 FLAGGED_COLUMNS = COLUMNS + ["site", "flags", "reason", "in_observations"]
 
-#: Flags that leave an observation out by default, with the reason given for it.
+#: Flags that leave an observation out by default, with the reason given for it (the meter flags
+#: are those of :data:`bedflux.field.seepage.EXCLUDING_FLAGS`).
 LEAVE_OUT = {
     "robust_outlier": "the meter mean lies far from the other meters of its transect (|modified z| > 3.5, "
                       "Iglewicz & Hoaglin 1993): a hot spot or a faulty installation that a section model "

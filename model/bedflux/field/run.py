@@ -18,7 +18,7 @@ from .diagnosis import systematic_cause
 from .mapping import BedMap, krige_bed_flux
 from .observations import observation_table
 from .recovery import add_ln_k_sigma, reduce_permeameter, reduce_slug
-from .seepage import EXCLUDING_FLAGS, reduce_seepage
+from .seepage import flagged_meters, reduce_seepage
 from .sheets import Rejected, Sheet, read_sheet, reject_unknown_sites
 from .sites import Sites, read_sites
 from .velocity import head_from_velocity, reduce_velocity
@@ -123,12 +123,6 @@ def _reach(meters: pd.DataFrame) -> tuple[BedMap | None, dict]:
     }
 
 
-def _flagged_meters(meters: pd.DataFrame) -> np.ndarray:
-    if meters.empty:
-        return np.zeros(0, dtype=bool)
-    return meters["flags"].str.split().map(lambda f: any(x in EXCLUDING_FLAGS for x in f)).to_numpy(bool)
-
-
 def run_field(sheets_dir: str | Path, outdir: str | Path, *, quiet: bool = False,
               keep_flagged: bool = False) -> dict:
     """Reduce a folder of field sheets and write tables, observations and figures.
@@ -193,7 +187,7 @@ def run_field(sheets_dir: str | Path, outdir: str | Path, *, quiet: bool = False
     comparison = compare_methods(meters, piezos, slug_k, perm_k, flags)
     observations, flagged = observation_table(meters, piezos, keep_flagged=keep_flagged)
 
-    left_out = _flagged_meters(meters)
+    left_out = flagged_meters(meters)
     bed_all, reach_all = _reach(meters)
     bed_clean, reach_clean = _reach(meters[~left_out]) if left_out.any() else (bed_all, reach_all)
     bed = bed_all if keep_flagged else bed_clean

@@ -227,6 +227,13 @@ def reduce_seepage(sheet: Sheet, sites: Sites, rejected: Rejected, flags: Flags)
     return SeepageResult(readings, meters, transects, _add_between(meters))
 
 
+def flagged_meters(meters: pd.DataFrame) -> np.ndarray:
+    """Which meters carry a flag of :data:`EXCLUDING_FLAGS`."""
+    if meters.empty:
+        return np.zeros(0, dtype=bool)
+    return meters["flags"].str.split().map(lambda f: any(x in EXCLUDING_FLAGS for x in f)).to_numpy(bool)
+
+
 def _add_between(meters: pd.DataFrame) -> BetweenTerm:
     """Estimate the between-meter term from the unflagged meters and fold it into every sigma.
 
@@ -235,7 +242,7 @@ def _add_between(meters: pd.DataFrame) -> BetweenTerm:
     """
     if meters.empty:
         return BetweenTerm(DEFAULT_BETWEEN_METER, "default", 0)
-    clean = ~meters["flags"].str.split().map(lambda f: any(x in EXCLUDING_FLAGS for x in f))
+    clean = ~flagged_meters(meters)
     between = between_meter_scatter(meters.loc[clean, "mean [m/s]"], meters.loc[clean, "within_sigma [m/s]"],
                                     meters.loc[clean, "transect"])
     scale = np.maximum(meters["mean [m/s]"].abs(), meters["detection_flux [m/s]"])

@@ -201,10 +201,10 @@ def _implausible(source: str, line: int, col: Column, cell: str, factor: float, 
         rng += f" ({lo:.6g} to {hi:.6g} {si})"
     message = (f"{cell} {shown} is outside the plausible range {rng} for {col.meaning or col.name}; "
                "a value this far out is a slip (a wrong unit or a shifted column), not a reading")
-    fits = unit_that_fits(written, col.dimension, col.plausible, unit)
+    fits = _units_that_fit(written, col.dimension, col.plausible, unit)
     if fits:
-        message += (f". Every value of the column would be plausible in [{fits}]: is the header "
-                    f"'{col.name} [{unit}]' right?")
+        message += (f". Every value of the column would be plausible in {' or '.join(f'[{u}]' for u in fits)}: "
+                    f"is the header '{col.name} [{unit}]' right?")
     return InputError(message, source, f"line {line}, column '{col.name}'")
 
 
@@ -219,9 +219,9 @@ _COMMON_UNITS = {
 }
 
 
-def unit_that_fits(written: np.ndarray, dimension: str, plausible: tuple[float, float],
-                   header_unit: str) -> str | None:
-    """A common unit of ``dimension`` in which every written value is plausible, if one exists.
+def _units_that_fit(written: np.ndarray, dimension: str, plausible: tuple[float, float],
+                    header_unit: str) -> list[str]:
+    """The common units of ``dimension`` in which every written value would be plausible.
 
     Parameters
     ----------
@@ -237,16 +237,15 @@ def unit_that_fits(written: np.ndarray, dimension: str, plausible: tuple[float, 
     v = np.asarray(written, dtype=float)
     v = v[np.isfinite(v)]
     if v.size == 0:
-        return None
+        return []
     lo, hi = plausible
     current = unit_factor(header_unit, dimension) if header_unit else 1.0
+    fits = []
     for unit in _COMMON_UNITS.get(dimension, ()):
         f = unit_factor(unit, dimension)
-        if np.isclose(f, current, rtol=1e-12):
-            continue
-        if np.all((v * f >= lo) & (v * f <= hi)):
-            return unit
-    return None
+        if not np.isclose(f, current, rtol=1e-12) and np.all((v * f >= lo) & (v * f <= hi)):
+            fits.append(unit)
+    return fits
 
 
 def read_sheet(path: str | Path, spec: SheetSpec, rejected: Rejected) -> Sheet:
