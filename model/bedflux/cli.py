@@ -36,7 +36,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
 def _cmd_field(args: argparse.Namespace) -> int:
     from .field import run_field
 
-    run_field(Path(args.sheets), Path(args.output), quiet=args.quiet)
+    run_field(Path(args.sheets), Path(args.output), quiet=args.quiet, keep_flagged=args.keep_flagged)
     if not args.quiet:
         print(f"outputs written to {args.output}/")
     return 0
@@ -73,6 +73,10 @@ def build_parser() -> argparse.ArgumentParser:
     f.add_argument("sheets", help="folder with the field sheets")
     f.add_argument("-o", "--output", default="bedflux-field", help="output folder (default: bedflux-field)")
     f.add_argument("-q", "--quiet", action="store_true", help="no summary on screen")
+    f.add_argument("--keep-flagged", action="store_true",
+                   help="keep flagged meters and piezometers (robust outliers, scattered repeats, gradients "
+                        "within the velocity head) in observations.csv; by default they are left out and "
+                        "listed in flagged_observations.csv")
     f.set_defaults(func=_cmd_field)
     for extra in _EXTRA_VERBS:
         extra(sub)

@@ -9,6 +9,37 @@ from .flags import Flags
 from .sheets import Rejected, Sheet, reject_duplicates, reject_where
 from .slug import (bouwer_rice_k_from_lag, falling_head_fit, fit_recovery, hvorslev_k_from_lag,
                    permeameter_kv_from_lag)
+from .stats import BetweenTerm
+
+#: Standard deviation of ln K between test locations used when a campaign has too few tests
+#: of a kind to estimate its own: sqrt(1.88), the smallest run variance of ln Kv that Genereux
+#: et al. (2008) report for permeameter tests in a sandy streambed.
+DEFAULT_BETWEEN_LN_K = float(np.sqrt(1.88))
+#: Tests (of one kind, unflagged) needed to estimate the between-test spread of ln K.
+MIN_TESTS = 5
+
+
+def add_ln_k_sigma(tests: pd.DataFrame, k_column: str) -> BetweenTerm:
+    """Give each test a standard deviation of ln K: fit error and between-test term in quadrature.
+
+    The fit error is the slope's relative standard error (K is proportional to the slope). The
+    between-test term is the spread of ln K over the campaign's unflagged tests of this kind,
+    less the mean fit variance (method of moments), when there are at least
+    :data:`MIN_TESTS`; otherwise :data:`DEFAULT_BETWEEN_LN_K`. Adds the columns
+    ``ln_k_fit_sigma [1]``, ``ln_k_between_sigma [1]`` and ``ln_k_sigma [1]``.
+    """
+    fit = (tests["slope_se [1/s]"].astype(float) * tests["time_lag [s]"].astype(float)).fillna(0.0)
+    use = (tests["flags"] == "") & (tests[k_column].astype(float) > 0)
+    n = int(use.sum())
+    if n >= MIN_TESTS:
+        spread = float(np.var(np.log(tests.loc[use, k_column].astype(float)), ddof=1) - np.mean(fit[use] ** 2))
+        between = BetweenTerm(float(np.sqrt(max(spread, 0.0))), "estimated", n - 1)
+    else:
+        between = BetweenTerm(DEFAULT_BETWEEN_LN_K, "default", max(n - 1, 0))
+    tests["ln_k_fit_sigma [1]"] = fit
+    tests["ln_k_between_sigma [1]"] = between.value
+    tests["ln_k_sigma [1]"] = np.hypot(fit, between.value)
+    return between
 
 
 def _test_constants(sheet: Sheet, names: tuple[str, ...], optional: tuple[str, ...],
@@ -41,12 +72,12 @@ def _test_constants(sheet: Sheet, names: tuple[str, ...], optional: tuple[str, .
         else:
             out[test] = values
     row_reasons = [reasons[t] for t in tests[bad]]
-    return reject_where(sheet, bad, "test", row_reasons, rejected), out
+    return reject_where(sheet, bad, "test", row_reasons, rejected, "test"), out
 
 
 def _reject_test(sheet: Sheet, test: str, reason: str, rejected: Rejected) -> None:
     for line in sheet.line[sheet.texts["test"] == test]:
-        rejected.add(sheet.source, line, "test", reason)
+        rejected.add(sheet.source, line, "test", reason, "test", test)
 
 
 def reduce_slug(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.DataFrame:
@@ -87,12 +118,13 @@ def reduce_slug(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.DataFrame:
             "n": fit.n,
             "time_lag [s]": fit.time_lag,
             "r2 [1]": fit.r2,
+            "slope_se [1/s]": fit.slope_se,
             "k_hvorslev [m/s]": k_h,
             "k_bouwer_rice [m/s]": k_br,
             "flags": ";".join(test_flags),
         })
-    return pd.DataFrame(rows, columns=["test", "site", "n", "time_lag [s]", "r2 [1]", "k_hvorslev [m/s]",
-                                       "k_bouwer_rice [m/s]", "flags"])
+    return pd.DataFrame(rows, columns=["test", "site", "n", "time_lag [s]", "r2 [1]", "slope_se [1/s]",
+                                       "k_hvorslev [m/s]", "k_bouwer_rice [m/s]", "flags"])
 
 
 def reduce_permeameter(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.DataFrame:
@@ -121,7 +153,9 @@ def reduce_permeameter(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.Dat
             "n": fit.n,
             "time_lag [s]": lag,
             "r2 [1]": r2,
+            "slope_se [1/s]": fit.slope_se,
             "kv [m/s]": kv,
             "flags": "" if ok else "not_log_linear",
         })
-    return pd.DataFrame(rows, columns=["test", "site", "n", "time_lag [s]", "r2 [1]", "kv [m/s]", "flags"])
+    return pd.DataFrame(rows, columns=["test", "site", "n", "time_lag [s]", "r2 [1]", "slope_se [1/s]", "kv [m/s]",
+                                       "flags"])

@@ -34,6 +34,25 @@ class Summary:
         return self.mean + self.half_width
 
 
+@dataclass(frozen=True)
+class BetweenTerm:
+    """A between-instrument term: the scatter of one instrument's value about its neighbours'.
+
+    Attributes
+    ----------
+    value
+        The standard deviation (relative, or of ln K, as its user documents).
+    source
+        ``"estimated"`` from the campaign's own instruments, or ``"default"``.
+    dof
+        Degrees of freedom the campaign offered for the estimate.
+    """
+
+    value: float
+    source: str
+    dof: int
+
+
 def summarise(values: np.ndarray, level: float = 0.95) -> Summary:
     """n, mean, sample standard deviation, coefficient of variation, standard error, t interval.
 

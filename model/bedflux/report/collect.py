@@ -30,7 +30,7 @@ FIT_FIGURES = ("observed_vs_simulated.png", "residuals.png", "parameter_interval
 PLAN_FIGURES = ("plan_map.png", "detectability.png")
 #: Field tables shown in the report (others are listed by name).
 FIELD_TABLES = ("seepage_meters.csv", "piezometers.csv", "slug_tests.csv", "permeameter_tests.csv",
-                "consistency.csv", "flags.csv", "rejected.csv")
+                "consistency.csv", "flags.csv", "flagged_observations.csv", "rejected.csv", "not_read.csv")
 #: Input files reproduced as text (larger ones are listed with their hash only).
 TEXT_SUFFIXES = (".toml", ".csv", ".txt")
 MAX_REPRODUCED_BYTES = 60_000

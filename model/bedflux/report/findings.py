@@ -288,6 +288,18 @@ def field_finding(field_summary: dict, source: str = ".", unit: str = "m/d") -> 
         f.sentences.append(f"The slug tests give a median conductivity of {conductivity(k_slug)}.")
     if finite(k_perm):
         f.sentences.append(f"The permeameter cores give a median vertical conductivity of {conductivity(k_perm)}.")
+    left = (fs.get("flagged_observations") or {})
+    sites = sorted({str(r.get("site")) for r in left.get("rows") or []})
+    if sites:
+        how = "are kept in" if left.get("kept") else "are left out of"
+        f.sentences.append(f"The observations of flagged instruments ({', '.join(sites)}) {how} the calibration "
+                           "(listed in flagged_observations.csv).")
+        other = fs.get("reach_with_flagged_meters" if not left.get("kept") else "reach_without_flagged_meters") or {}
+        alt = other.get("per_metre_of_channel [m^2/s]")
+        if finite(alt) and finite(per_m):
+            which = "with" if not left.get("kept") else "without"
+            f.sentences.append(f"{which.capitalize()} the flagged meters the reach would give {per_metre(alt)} "
+                               f"instead of {per_metre(per_m)}.")
     rejected = fs.get("rejected_rows", 0) or 0
     flagged = sum(int(v) for v in (fs.get("flags") or {}).values() if finite(v))
     if rejected or flagged:
