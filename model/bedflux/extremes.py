@@ -19,7 +19,8 @@ import numpy as np
 import pandas as pd
 import xarray as xr
 
-#: Percentiles quoted beside the extremes (of the upward and of the downward flux).
+#: Percentiles quoted beside the extremes (of the upward and of the downward flux), as in the keys
+#: ``p95_m_per_s`` and ``p05_m_per_s``.
 UPPER, LOWER = 95.0, 5.0
 
 
@@ -102,10 +103,10 @@ def flux_extremes(ds: xr.Dataset) -> dict:
         hi, lo = np.nanmax(qs), np.nanmin(qs)
         if hi > 0:
             part["gaining"] = {"peak_m_per_s": float(hi), **_place(ds, np.nanargmax(qs), transient),
-                               f"p{UPPER:.0f}_m_per_s": weighted_percentile(qs, weights, UPPER)}
+                               "p95_m_per_s": weighted_percentile(qs, weights, UPPER)}
         if lo < 0:
             part["losing"] = {"peak_m_per_s": float(lo), **_place(ds, np.nanargmin(qs), transient),
-                              f"p{LOWER:.0f}_m_per_s": weighted_percentile(qs, weights, LOWER)}
+                              "p05_m_per_s": weighted_percentile(qs, weights, LOWER)}
         out[name] = part
     return out
 

@@ -106,13 +106,13 @@ def bed_text(bed: dict, transient: bool) -> list[str]:
         else:
             lines.append(f"  strongest upward flux {g['peak_m_per_s'] * DAY:.3g} m/d at x = {g['x_m']:.4g} m"
                          f"{_when(g)}; {UPPER:.0f}th percentile over the wetted bed "
-                         f"{g[f'p{UPPER:.0f}_m_per_s'] * DAY:.3g} m/d")
+                         f"{g['p95_m_per_s'] * DAY:.3g} m/d")
         if lo is None:
             lines.append("  no losing reach")
         else:
             lines.append(f"  strongest downward flux {lo['peak_m_per_s'] * DAY:.3g} m/d at x = {lo['x_m']:.4g} m"
                          f"{_when(lo)}; {LOWER:.0f}th percentile over the wetted bed "
-                         f"{lo[f'p{LOWER:.0f}_m_per_s'] * DAY:.3g} m/d")
+                         f"{lo['p05_m_per_s'] * DAY:.3g} m/d")
         pen = part.get("penetration")
         if pen is not None:
             lines.append(f"  stream water reaches {pen['depth_m']:.3g} m below the bed at x = {pen['x_m']:.4g} m"

@@ -110,9 +110,9 @@ def parse_quantity(value: Any, dimension: str) -> float:
     if not isinstance(value, str):
         raise InputError(f"expected {words} as a number or a string like '5 {si or ''}'; got {value!r}")
     m = _QUANTITY.match(value)
-    form = (f"a quantity is one number and one unit, e.g. '5 {si}' (or a bare SI number); "
-            "arithmetic, lists and several units are not allowed") if si else \
-        "a dimensionless quantity is one number (arithmetic is not allowed)"
+    form = (f"write one number and a unit, e.g. '5 {si}', or a bare SI number; arithmetic, lists "
+            "and several units are not allowed") if si else \
+        "write one number (arithmetic is not allowed)"
     if not m:
         raise InputError(f"cannot read '{value}' as {words}: {form}")
     number = float(value[: m.start("unit")])
