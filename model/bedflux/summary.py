@@ -92,6 +92,7 @@ def bed_text(bed: dict, transient: bool) -> list[str]:
     """Lines on the channel bed and the floodplain: each extreme with its x (and time) beside the
     5th/95th percentile over the wetted part."""
     lines = []
+    over = " and the run" if transient else ""
     names = {"channel": "channel bed (" + ("submerged throughout" if transient else "submerged") + ")",
              "floodplain": "floodplain (submerged only at high stage)"}
     for name, part in bed.items():
@@ -105,13 +106,13 @@ def bed_text(bed: dict, transient: bool) -> list[str]:
             lines.append("  no gaining reach")
         else:
             lines.append(f"  strongest upward flux {g['peak_m_per_s'] * DAY:.3g} m/d at x = {g['x_m']:.4g} m"
-                         f"{_when(g)}; {UPPER:.0f}th percentile over the wetted bed "
+                         f"{_when(g)}; {UPPER:.0f}th percentile over the wetted bed{over} "
                          f"{g['p95_m_per_s'] * DAY:.3g} m/d")
         if lo is None:
             lines.append("  no losing reach")
         else:
             lines.append(f"  strongest downward flux {lo['peak_m_per_s'] * DAY:.3g} m/d at x = {lo['x_m']:.4g} m"
-                         f"{_when(lo)}; {LOWER:.0f}th percentile over the wetted bed "
+                         f"{_when(lo)}; {LOWER:.0f}th percentile over the wetted bed{over} "
                          f"{lo['p05_m_per_s'] * DAY:.3g} m/d")
         pen = part.get("penetration")
         if pen is not None:
@@ -145,10 +146,10 @@ def summary_text(s: dict, events: str = "") -> str:
     ]
     if s["submerged_length_m"] > 0:
         at = f" at the end (t = {s['end_time_s'] / HOUR:.1f} h)" if "end_time_s" in s else ""
-        sign = (" (no losing reach)" if s["max_losing_flux_m_per_s"] is None else
-                " (no gaining reach)" if s["max_gaining_flux_m_per_s"] is None else "")
+        sign = ("; no losing reach" if s["max_losing_flux_m_per_s"] is None else
+                "; no gaining reach" if s["max_gaining_flux_m_per_s"] is None else "")
         lines.append(f"bed flux{at}: from {s['bed_flux_min_m_per_s'] * day:.3g} to "
-                     f"{s['bed_flux_max_m_per_s'] * day:.3g} m/d (positive = upward, gaining){sign}")
+                     f"{s['bed_flux_max_m_per_s'] * day:.3g} m/d (positive = upward, gaining{sign})")
     lines += bed_text(s.get("bed") or {}, transient)
     if "exchange_min_m2_per_s" in s:
         lines.append(f"net exchange over the run: {s['exchange_min_m2_per_s'] * day:.4g} to "

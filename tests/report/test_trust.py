@@ -35,8 +35,8 @@ def test_extremes_have_places_in_findings_and_tables(tmp_path):
     s = _summary_with_places()
     f = fd.exchange_finding(s, "run")
     assert "On the channel bed (x = 10.0 to 40.0 m) no part gains (no gaining reach)" in f.text
-    assert (f"the strongest downward flux is {fd.flux(-2e-6)} at x = 10.2 m, while 95 % of the wetted bed "
-            f"stays above {fd.flux(-1.1e-6)}") in f.text
+    assert (f"the strongest downward flux is {fd.flux(-2e-6)} at x = 10.2 m, while over 95 % of the wetted "
+            f"bed it stays above {fd.flux(-1.1e-6)}") in f.text
     write_run(tmp_path / "p" / "run", s)
     page = html.unescape(build_report(tmp_path / "p").read_text())
     assert "Where the bed flux is strongest" in page

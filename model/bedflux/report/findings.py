@@ -198,9 +198,9 @@ def exchange_finding(summary: dict, source: str = ".", unit: str = "m/d") -> Fin
         lo = summary.get("bed_flux_min_m_per_s", summary.get("max_losing_flux_m_per_s"))
         hi = summary.get("bed_flux_max_m_per_s", summary.get("max_gaining_flux_m_per_s"))
         if finite(lo) and finite(hi):
-            none = (" (no losing reach)" if float(lo) >= 0 else " (no gaining reach)" if float(hi) <= 0 else "")
+            none = ("; no losing reach" if float(lo) >= 0 else "; no gaining reach" if float(hi) <= 0 else "")
             f.sentences.append(f"The bed flux ranges from {flux(lo, unit)} to {flux(hi, unit)} "
-                               f"(positive upward, into the stream){none}.")
+                               f"(positive upward, into the stream{none}).")
         if not transient:
             f.sentences += bed_sentences(summary.get("bed"), unit)
     else:
@@ -235,14 +235,15 @@ def bed_sentences(bed: dict | None, unit: str = "m/d") -> list[str]:
         head = f"On {_PARTS.get(name, name)} (x = {where} m)"
         g, lo, pen = part.get("gaining"), part.get("losing"), part.get("penetration")
         parts = []
+        bulk = "95 % of the wetted bed" + (" and of the run" if finite((g or lo or {}).get("time_s")) else "")
         if isinstance(g, dict):
-            parts.append(f"the strongest upward flux is {flux(g.get('peak_m_per_s'), unit)} {_at(g)}, while 95 % "
-                         f"of the wetted bed stays below {flux(g.get('p95_m_per_s'), unit)}")
+            parts.append(f"the strongest upward flux is {flux(g.get('peak_m_per_s'), unit)} {_at(g)}, while over "
+                         f"{bulk} it stays below {flux(g.get('p95_m_per_s'), unit)}")
         else:
             parts.append("no part gains (no gaining reach)")
         if isinstance(lo, dict):
             parts.append(f"the strongest downward flux is {flux(lo.get('peak_m_per_s'), unit)} {_at(lo)}, while "
-                         f"95 % of the wetted bed stays above {flux(lo.get('p05_m_per_s'), unit)}")
+                         f"over {bulk} it stays above {flux(lo.get('p05_m_per_s'), unit)}")
         else:
             parts.append("no part loses (no losing reach)")
         text = f"{head} {'; '.join(parts)}."
