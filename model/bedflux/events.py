@@ -56,19 +56,13 @@ def _positive_part_integral(t: np.ndarray, y: np.ndarray) -> float:
     return total
 
 
-def penetration_depth(ds: xr.Dataset, release_times: np.ndarray, substeps: int = 10) -> np.ndarray:
-    """Deepest point below the ground reached by particles released at the bed of each column.
-
-    ``release_times`` has one entry per column (NaN: no particle). Returns metres (NaN where none).
-    """
-    return track_particles(ds, release_times, substeps)[0]
-
-
 def track_particles(ds: xr.Dataset, release_times: np.ndarray,
                     substeps: int = 10) -> tuple[np.ndarray, np.ndarray]:
-    """Deepest point below the ground of the particle of each column, and when it is reached.
+    """Deepest point below the ground reached by the particle released at the bed of each column,
+    and when it is reached.
 
-    Returns ``(depth, time)``, metres and seconds since the start, NaN where no particle.
+    ``release_times`` has one entry per column (NaN: no particle). Returns ``(depth, time)``,
+    metres and seconds since the start, NaN where no particle.
     """
     x = ds["x"].values
     z = ds["z"].values[::-1]
