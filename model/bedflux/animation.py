@@ -21,7 +21,7 @@ from matplotlib.figure import Figure
 from PIL import Image
 
 from .atomic import atomic_path, write_with
-from .plots import GAINING, HEAD_MAP, LOSING, flux_factor
+from .plots import GAINING, HEAD_MAP, LOSING, flux_factor, partial_label
 
 #: Default upper limit on the number of frames (outputs are thinned evenly beyond it).
 MAX_FRAMES = 60
@@ -139,6 +139,10 @@ def render_frames(ds: xr.Dataset, unit: str = "m/d", max_frames: int = MAX_FRAME
     axs.set_ylabel("stage (m)", fontsize=7)
 
     name = ds.attrs.get("title", "")
+    stopped = partial_label(ds)
+    if stopped:
+        ax.text(0.99, 0.03, stopped, transform=ax.transAxes, ha="right", va="bottom", color=LOSING, fontsize=7,
+                fontweight="bold", bbox={"facecolor": "white", "edgecolor": LOSING, "pad": 2}, zorder=5)
     frames = []
     for i in idx:
         mesh.set_array(np.ma.masked_invalid(head[i]).ravel())

@@ -7,7 +7,8 @@ Definitions (all from the result Dataset):
   linearly between output times; a reversal still running at the end of the run has no end.
 - *Peak losing flux*: the most negative bed flux (m/s).
 - *Volume into bank storage* (reach): ``integral of max(exchange(0) - exchange(t), 0) dt``, the water
-  the stream gave to the aquifer relative to the exchange at the start (m^3 per metre of channel);
+  the stream gave to the aquifer relative to the exchange at the start (m^3 per metre of section
+  width: of channel, or of channel width for a section along the channel);
   *volume returned*: ``integral of max(exchange(t) - exchange(0), 0) dt`` up to the end of the run.
   Per column the same with the bed flux (m^3 per m^2 of bed).
 - *Penetration depth*: a water particle enters the bed at each column when its flux turns
@@ -55,10 +56,13 @@ def _positive_part_integral(t: np.ndarray, y: np.ndarray) -> float:
     return total
 
 
-def penetration_depth(ds: xr.Dataset, release_times: np.ndarray, substeps: int = 10) -> np.ndarray:
-    """Deepest point below the ground reached by particles released at the bed of each column.
+def track_particles(ds: xr.Dataset, release_times: np.ndarray,
+                    substeps: int = 10) -> tuple[np.ndarray, np.ndarray]:
+    """Deepest point below the ground reached by the particle released at the bed of each column,
+    and when it is reached.
 
-    ``release_times`` has one entry per column (NaN: no particle). Returns metres (NaN where none).
+    ``release_times`` has one entry per column (NaN: no particle). Returns ``(depth, time)``,
+    metres and seconds since the start, NaN where no particle.
     """
     x = ds["x"].values
     z = ds["z"].values[::-1]
@@ -69,11 +73,13 @@ def penetration_depth(ds: xr.Dataset, release_times: np.ndarray, substeps: int =
     ground = ds["ground"].values
     go = np.isfinite(release_times)
     depth = np.full(x.size, np.nan)
+    when = np.full(x.size, np.nan)
     if not go.any() or z.size < 2:
-        return depth
+        return depth, when
     px = x.astype(float).copy()
     pz = ground.astype(float).copy() - 1e-6
     deepest = np.zeros(x.size)
+    reached = np.array(release_times, dtype=float)
 
     def velocity(k: int, frac: float, X: np.ndarray, Z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         pts = np.column_stack([np.clip(Z, z[0], z[-1]), np.clip(X, x[0], x[-1])])
@@ -100,9 +106,13 @@ def penetration_depth(ds: xr.Dataset, release_times: np.ndarray, substeps: int =
             pz[moving] += 0.5 * h * (w1 + w2)
             gz = np.interp(px[moving], x, ground)
             pz[moving] = np.minimum(pz[moving], gz - 1e-6)
-            deepest[moving] = np.maximum(deepest[moving], gz - pz[moving])
+            below = gz - pz[moving]
+            deeper = below > deepest[moving]
+            reached[np.nonzero(moving)[0][deeper]] = tn + h
+            deepest[moving] = np.maximum(deepest[moving], below)
     depth[go] = deepest[go]
-    return depth
+    when[go] = reached[go]
+    return depth, when
 
 
 def exchange_events(ds: xr.Dataset) -> tuple[pd.DataFrame, dict]:
@@ -114,7 +124,8 @@ def exchange_events(ds: xr.Dataset) -> tuple[pd.DataFrame, dict]:
         One row per column that is submerged at some time: ``x``, ``wet_at_start``,
         ``submerged_duration``, ``initial_flux`` (NaN for a column flooded later),
         ``reversals``, ``first_reversal_start``, ``last_reversal_end``, ``reversed_duration``,
-        ``peak_losing_flux``, ``volume_into_bed``, ``volume_returned``, ``penetration_depth`` (SI).
+        ``peak_losing_flux``, ``volume_into_bed``, ``volume_returned``, ``penetration_depth`` and
+        ``penetration_time`` (when the particle is deepest) (SI).
     reach : dict
         ``initial_exchange``, ``reversals`` (list of (start, end) s), ``reversed_duration``,
         ``peak_losing_exchange``, ``bank_storage_volume``, ``returned_volume``,
@@ -149,10 +160,12 @@ def exchange_events(ds: xr.Dataset) -> tuple[pd.DataFrame, dict]:
             "volume_into_bed": _positive_part_integral(t, q0 - qj),
             "volume_returned": _positive_part_integral(t, qj - q0),
         })
-    depth = penetration_depth(ds, release)
+    depth, when = track_particles(ds, release)
     table = pd.DataFrame(rows)
     if not table.empty:
-        table["penetration_depth"] = [depth[int(np.argmin(np.abs(ds["x"].values - xv)))] for xv in table["x"]]
+        at = [int(np.argmin(np.abs(ds["x"].values - xv))) for xv in table["x"]]
+        table["penetration_depth"] = depth[at]
+        table["penetration_time"] = when[at]
     ex = ds["exchange"].values
     e0 = ex[0]
     neutral = abs(e0) <= 1e-9 * float(np.max(np.abs(ex)))
@@ -173,9 +186,13 @@ def exchange_events(ds: xr.Dataset) -> tuple[pd.DataFrame, dict]:
     return table, reach
 
 
-def events_text(reach: dict, table: pd.DataFrame) -> str:
-    """Plain lines for the run summary."""
-    day, hour = 86400.0, 3600.0
+def events_text(reach: dict, table: pd.DataFrame, per_metre_of: str = "channel") -> str:
+    """Plain lines for the run summary (the places of the extremes are in the summary's bed block).
+
+    ``per_metre_of`` is ``channel`` for a section across the channel and ``channel width`` for one
+    along it.
+    """
+    hour = 3600.0
     lines = []
     if reach["reversals"]:
         parts = []
@@ -194,13 +211,10 @@ def events_text(reach: dict, table: pd.DataFrame) -> str:
         lines.append(f"bed flux reverses over {len(rev)} of {int(table['wet_at_start'].sum())} columns of the "
                      "channel bed "
                      f"(x = {rev['x'].min():.3g} to {rev['x'].max():.3g} m), longest "
-                     f"{rev['reversed_duration'].max() / hour:.1f} h, peak losing flux "
-                     f"{rev['peak_losing_flux'].min() * day:.3g} m/d")
-    lines.append(f"bank storage: {reach['bank_storage_volume']:.4g} m3 per metre of channel taken in, "
+                     f"{rev['reversed_duration'].max() / hour:.1f} h")
+    lines.append(f"bank storage: {reach['bank_storage_volume']:.4g} m3 per metre of {per_metre_of} taken in, "
                  f"{reach['returned_volume']:.4g} m3 returned by the end"
                  + (f" ({100 * reach['returned_fraction']:.0f} %)" if np.isfinite(reach["returned_fraction"]) else ""))
-    if not table.empty and (table["peak_losing_flux"] < 0).any():
-        lines.append(f"stream water reaches {reach['max_penetration_depth']:.3g} m below the bed at most")
-    elif not table.empty:
+    if not table.empty and not (table["peak_losing_flux"] < 0).any():
         lines.append("the bed does not lose water at any time")
     return "\n".join(lines) + "\n"

@@ -2,7 +2,6 @@
 from __future__ import annotations
 
 import hashlib
-import json
 import shutil
 from pathlib import Path
 
@@ -10,7 +9,7 @@ import xarray as xr
 
 from .atomic import write_text, write_with
 from .scenario import Scenario
-from .summary import summarise, summary_text
+from .summary import build_summary, summary_json
 
 
 def write_result(ds: xr.Dataset, path: str | Path) -> Path:
@@ -30,20 +29,11 @@ def write_summary(ds: xr.Dataset, outdir: str | Path) -> dict:
     """Write summary.txt and summary.json into ``outdir`` (with the exchange events of a
     transient run, also events.csv); return the summary with its ``text``."""
     outdir = Path(outdir)
-    s = summarise(ds)
-    text = summary_text(s)
-    if "time" in ds.dims and ds.sizes["time"] > 1:
-        from .events import events_text, exchange_events
-
-        table, reach = exchange_events(ds)
+    s, text, table = build_summary(ds)
+    if table is not None:
         write_with(outdir / "events.csv", lambda tmp: table.to_csv(tmp, index=False))
-        s["events"] = {k: (v if k != "reversals" else [list(r) for r in v]) for k, v in reach.items()}
-        text += events_text(reach, table)
-    if ds.attrs.get("partial"):
-        s["partial"] = ds.attrs["partial"]
-        text += f"PARTIAL RESULT: {ds.attrs['partial']}\n"
     write_text(outdir / "summary.txt", text)
-    write_text(outdir / "summary.json", json.dumps(s, indent=2, allow_nan=True) + "\n")
+    write_text(outdir / "summary.json", summary_json(s))
     s["text"] = text
     return s
 

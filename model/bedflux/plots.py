@@ -52,6 +52,28 @@ def save(fig: plt.Figure, path: str | Path) -> Path:
     return path
 
 
+def partial_label(ds: xr.Dataset) -> str:
+    """``INTERRUPTED at t = 2.5 h of 4 h: state at t = 2.0 h`` for a partial run, else ``""``."""
+    from .results import partial_run
+
+    p = partial_run(ds)
+    if p is None:
+        return ""
+    word = "INTERRUPTED" if p["reason"].startswith("interrupted") else "STOPPED"
+    text = f"{word} at t = {p['stopped_at_s'] / 3600.0:.4g} h"
+    if p["planned_end_s"] is not None:
+        text += f" of {p['planned_end_s'] / 3600.0:.4g} h"
+    return text + f": outputs up to t = {p['last_output_s'] / 3600.0:.4g} h"
+
+
+def mark_partial(fig: plt.Figure, ds: xr.Dataset) -> None:
+    """Label a figure of a partial run above everything else in it (nothing for a complete run);
+    the saved image grows to hold the label."""
+    label = partial_label(ds)
+    if label:
+        fig.text(0.5, 1.0, label, ha="center", va="bottom", color=LOSING, fontsize=10, fontweight="bold")
+
+
 def _streamlines(ax, ds: xr.Dataset) -> None:
     """Flow paths from qx, qz interpolated to a regular grid (streamplot needs one)."""
     x = ds["x"].values
@@ -81,6 +103,7 @@ def _streamlines(ax, ds: xr.Dataset) -> None:
 def section_figure(ds: xr.Dataset, path: str | Path, unit: str = "m/d", time_index: int | None = None) -> Path:
     """Head contours and flow paths over the zones, with the bed-flux profile beneath."""
     apply_style()
+    whole = ds
     if "time" in ds.dims:
         ds = ds.isel(time=-1 if time_index is None else time_index)
     fac = flux_factor(unit)
@@ -111,6 +134,7 @@ def section_figure(ds: xr.Dataset, path: str | Path, unit: str = "m/d", time_ind
     bed_profile(axf, ds, fac, unit)
     axf.set_xlabel("x (m)")
     fig.tight_layout()
+    mark_partial(fig, whole)
     return save(fig, path)
 
 
@@ -145,11 +169,13 @@ def bed_flux_map(ds: xr.Dataset, path: str | Path, unit: str = "m/d") -> Path:
     fig.colorbar(m, ax=[ax_s, ax], label=f"bed flux ({unit}), up = gaining", shrink=0.8, extend="both")
     ax.set_xlabel("time (h)")
     ax.set_ylabel("x (m)")
+    mark_partial(fig, ds)
     return save(fig, path)
 
 
 def exchange_figure(ds: xr.Dataset, path: str | Path) -> Path:
-    """Net exchange per metre of channel with the stage hydrograph."""
+    """Net exchange per metre of section width (of channel, or of channel width for a section along
+    the channel) with the stage hydrograph."""
     apply_style()
     t_h = ds["time"].values / 3600.0
     ex = ds["exchange"].values * 86400.0
@@ -159,11 +185,13 @@ def exchange_figure(ds: xr.Dataset, path: str | Path) -> Path:
     ax.fill_between(t_h, ex, 0, where=ex > 0, color=GAINING, alpha=0.4, label="gaining")
     ax.fill_between(t_h, ex, 0, where=ex < 0, color=LOSING, alpha=0.4, label="losing (into bank storage)")
     ax.set_xlabel("time (h)")
-    ax.set_ylabel("net exchange (m3/d per m)")
+    of = "channel width" if ds.attrs.get("section_runs") == "along" else "channel"
+    ax.set_ylabel(f"net exchange\n(m3/d per m of {of})")
     ax2 = ax.twinx()
     ax2.plot(t_h, ds["stage"].values, color="#2166ac", ls="--", label="stage")
     ax2.set_ylabel("stage (m)")
     ax.legend(loc="upper right", fontsize=7)
+    mark_partial(fig, ds)
     return save(fig, path)
 
 

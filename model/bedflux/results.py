@@ -1,6 +1,7 @@
 """The result Dataset: variables, their units, locations and meanings declared once."""
 from __future__ import annotations
 
+import re
 from typing import Sequence
 
 import numpy as np
@@ -88,6 +89,52 @@ def build_dataset(section: Section, states: Sequence[Fluxes], stages: Sequence[f
         "zone_names": ",".join(m.zone_names),
         "section_runs": section.scenario.grid.runs,
         "stage_slope": float(section.scenario.stream.slope) if section.scenario.stream is not None else 0.0,
+        "flux_boundaries": ",".join(side for side in ("left", "right", "bottom")
+                                    if getattr(section.scenario, side).kind == "flux"),
         **attrs,
     })
+    if section.scenario.grid.runs == "along":
+        ds["exchange"].attrs["long_name"] = ("net exchange with the stream over the section, per metre of "
+                                             "channel width (section along the channel), positive when gaining")
+    if steady:
+        ds.attrs["prescribed_head_min"], ds.attrs["prescribed_head_max"] = prescribed_head_range(section)
+    elif section.scenario.time is not None:
+        ds.attrs["planned_end_s"] = float(section.scenario.time.end)
     return ds
+
+
+def prescribed_head_range(section: Section) -> tuple[float, float]:
+    """Lowest and highest head the boundaries hold in a steady run (m).
+
+    The stage on the submerged bed (with the bedform head), head and stream sides, and the ground
+    of every exposed column (where a seepage face may hold the head at the ground). Without
+    sources or sinks, the heads of a steady solve lie between these two (maximum principle).
+    """
+    held = [section.grid.ground[~section.submerged(0.0)]]
+    for term in section.terms(0.0, section.initial_active_set()):
+        if term.kind in ("stream", "left", "right", "bottom") and term.g.size and np.all(term.g > 0):
+            held.append(term.r / term.g + section.h_ref)
+    values = np.concatenate(held) if held else np.zeros(0)
+    if values.size == 0:
+        return float("nan"), float("nan")
+    return float(values.min()), float(values.max())
+
+
+def partial_run(ds: xr.Dataset) -> dict | None:
+    """How far a partial (interrupted or stopped) transient run got, or None for a complete run.
+
+    Returns ``reason`` (the ``partial`` attribute), ``stopped_at_s`` (the time the run stopped,
+    when the reason names it, else the last output), ``last_output_s`` and ``planned_end_s``
+    (None when unknown).
+    """
+    reason = str(ds.attrs.get("partial", "") or "")
+    if not reason:
+        return None
+    last = float(ds["time"].values[-1]) if "time" in ds.dims and ds.sizes["time"] else 0.0
+    at = re.search(r"\bt = ([-+0-9.eE]+) s", reason)
+    planned = ds.attrs.get("planned_end_s")
+    if planned is None:
+        of = re.search(r"\bof ([-+0-9.eE]+) s", reason)
+        planned = float(of.group(1)) if of else None
+    return {"reason": reason, "stopped_at_s": float(at.group(1)) if at else last, "last_output_s": last,
+            "planned_end_s": None if planned is None else float(planned)}

@@ -31,7 +31,7 @@ DIMENSIONS: dict[str, tuple[str, str, str]] = {
     "per_time": ("1 / [time]", "1/s", "a rate (1/time)"),
 }
 
-#: A number followed by a unit (no arithmetic between quantities).
+#: A number followed by a unit (the unit must parse as a unit alone: no factors, no arithmetic).
 _QUANTITY = re.compile(r"^\s*[-+]?(\d+(\.\d*)?|\.\d+)([eE][-+]?\d+)?(?P<unit>.*)$")
 
 #: Tokens that mean "per day" etc. written the way field notes do.
@@ -64,9 +64,10 @@ def unit_factor(unit: str, dimension: str) -> float:
     dim, si, words = DIMENSIONS[dimension]
     ureg = registry()
     try:
-        q = ureg.Quantity(1.0, _normalise(unit)) if unit.strip() else ureg.Quantity(1.0)
+        q = ureg.Quantity(1.0, ureg.parse_units(_normalise(unit))) if unit.strip() else ureg.Quantity(1.0)
     except Exception:
-        raise InputError(f"unknown unit '{unit}'; expected {words} such as '{si or '1'}'") from None
+        raise InputError(f"unknown unit '{unit}'; expected {words} such as '{si or '1'}' (one unit, "
+                         "no numbers or arithmetic)") from None
     if not _has_dimension(q, dim):
         raise InputError(f"unit '{unit}' is not {words} (expected a unit like '{si or '1'}')")
     return float(q.to(si).magnitude) if si else float(q.to("dimensionless").magnitude)
@@ -109,19 +110,25 @@ def parse_quantity(value: Any, dimension: str) -> float:
     if not isinstance(value, str):
         raise InputError(f"expected {words} as a number or a string like '5 {si or ''}'; got {value!r}")
     m = _QUANTITY.match(value)
-    if not m or any(op in m.group("unit") for op in ("+", ",", " - ", "=")):
-        raise InputError(f"cannot read '{value}' as {words}: write a number and a unit, e.g. '5 {si}', "
-                         "or a bare SI number")
-    ureg = registry()
-    try:
-        q = ureg.Quantity(_normalise(value))
-    except Exception:
-        raise InputError(f"cannot read '{value}' as {words} (write e.g. '5 {si}' or a bare SI number)") from None
-    if not isinstance(q, pint.Quantity):
-        return float(q)
-    if not _has_dimension(q, dim):
-        raise InputError(f"must be {words}; got '{value}'")
-    out = float(q.to(si).magnitude) if si else float(q.to("dimensionless").magnitude)
+    form = (f"write one number and a unit, e.g. '5 {si}', or a bare SI number; arithmetic, lists "
+            "and several units are not allowed") if si else \
+        "write one number (arithmetic is not allowed)"
+    if not m:
+        raise InputError(f"cannot read '{value}' as {words}: {form}")
+    number = float(value[: m.start("unit")])
+    text = m.group("unit").strip()
+    if not text:
+        out = number
+    else:
+        ureg = registry()
+        try:
+            unit = ureg.parse_units(_normalise(text))
+        except Exception:
+            raise InputError(f"cannot read '{value}' as {words}: '{text}' is not a unit; {form}") from None
+        q = ureg.Quantity(number, unit)
+        if not _has_dimension(q, dim):
+            raise InputError(f"must be {words}; got '{value}'")
+        out = float(q.to(si).magnitude) if si else float(q.to("dimensionless").magnitude)
     if not np.isfinite(out):
         raise InputError(f"expected a finite value for {words}; got '{value}'")
     return out

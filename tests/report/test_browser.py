@@ -159,8 +159,8 @@ def test_findings_state_the_numbers_of_the_runs(project, page):
         assert f"{abs(ex) * 86400:.3g} m³/d per metre of {s['per_metre_of']}" in text, run
         for key in ("gaining_length_m", "losing_length_m", "submerged_length_m"):
             assert fd.length(s[key]) in text, (run, key)
-        assert fd.flux(s["max_gaining_flux_m_per_s"]) in text
-        assert fd.flux(s["max_losing_flux_m_per_s"]) in text
+        assert fd.flux(s["bed_flux_max_m_per_s"]) in text
+        assert fd.flux(s["bed_flux_min_m_per_s"]) in text
     ev = json.loads((project / "pulse" / "summary.json").read_text())["events"]
     assert ev["reversals"], "the worked flood pulse should reverse the exchange"
     for start, end in ev["reversals"]:

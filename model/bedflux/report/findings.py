@@ -21,6 +21,7 @@ HOUR = 3600.0
 
 #: Section of the findings each topic belongs to, in display order.
 TOPICS = {
+    "warnings": "What should not be believed as it stands",
     "exchange": "Is the reach gaining or losing?",
     "pulse": "Does the flood pulse reverse the exchange?",
     "field": "What the field measurements say",
@@ -84,9 +85,9 @@ def per_metre(m2_per_s: float, of: str = "channel") -> str:
     return f"{number(abs(m2_per_s) * DAY)} m³/d per metre of {of}"
 
 
-def signed_per_metre(m2_per_s: float) -> str:
-    """A net exchange with its sign, in m³/d per metre (positive = gaining)."""
-    return f"{number(m2_per_s * DAY)} m³/d per metre"
+def signed_per_metre(m2_per_s: float, of: str = "") -> str:
+    """A net exchange with its sign, in m³/d per metre (of ``of`` when given; positive = gaining)."""
+    return f"{number(m2_per_s * DAY)} m³/d per metre" + (f" of {of}" if of else "")
 
 
 def length(m: float) -> str:
@@ -169,6 +170,8 @@ def exchange_finding(summary: dict, source: str = ".", unit: str = "m/d") -> Fin
     transient = summary.get("run") == "transient"
     when = f"At the end of the run ({hours(summary['end_time_s'])}) the" if transient and \
         finite(summary.get("end_time_s")) else "The"
+    if summary.get("partial") and finite(summary.get("end_time_s")):
+        when = f"At the last output of the interrupted run ({hours(summary['end_time_s'])}) the"
     f = Finding("exchange", source, title=summary.get("title", ""))
     of = summary.get("per_metre_of", "channel")
     over = (f" over the {length(float(summary['section_length_m']))} of the section"
@@ -192,10 +195,14 @@ def exchange_finding(summary: dict, source: str = ".", unit: str = "m/d") -> Fin
         else:
             f.sentences.append(f"Of {length(sub)} of submerged bed, {length(gain)} is gaining and "
                                f"{length(lose)} losing.")
-        lo, hi = summary.get("max_losing_flux_m_per_s"), summary.get("max_gaining_flux_m_per_s")
+        lo = summary.get("bed_flux_min_m_per_s", summary.get("max_losing_flux_m_per_s"))
+        hi = summary.get("bed_flux_max_m_per_s", summary.get("max_gaining_flux_m_per_s"))
         if finite(lo) and finite(hi):
+            none = ("; no losing reach" if float(lo) >= 0 else "; no gaining reach" if float(hi) <= 0 else "")
             f.sentences.append(f"The bed flux ranges from {flux(lo, unit)} to {flux(hi, unit)} "
-                               "(positive upward, into the stream).")
+                               f"(positive upward, into the stream{none}).")
+        if not transient:
+            f.sentences += bed_sentences(summary.get("bed"), unit)
     else:
         f.sentences.append("No part of the bed is under water; the exchange is through the channel "
                            "sides only.")
@@ -204,8 +211,78 @@ def exchange_finding(summary: dict, source: str = ".", unit: str = "m/d") -> Fin
         e0 = float(events["initial_exchange"])
         way0 = _direction(e0, scale)
         word = {"gaining": "gained", "losing": "lost", "neutral": "exchanged"}[way0]
-        f.sentences.append(f"At the start it {word} {per_metre(e0)}.")
+        f.sentences.append(f"At the start it {word} {per_metre(e0, of)}.")
     return f
+
+
+_PARTS = {"channel": "the channel bed", "floodplain": "the floodplain (under water only at high stage)"}
+
+
+def _at(place: dict) -> str:
+    text = f"at x = {length(place.get('x_m'))}"
+    return text + (f", t = {hours(place['time_s'])}" if finite(place.get("time_s")) else "")
+
+
+def bed_sentences(bed: dict | None, unit: str = "m/d") -> list[str]:
+    """Where the bed flux is strongest, for the channel bed and the floodplain apart: each extreme
+    with its x (and time) beside the 5th/95th percentile over the wetted part (``bed`` block of
+    summary.json)."""
+    out = []
+    for name, part in (bed or {}).items():
+        if not isinstance(part, dict):
+            continue
+        where = " and ".join(f"{number(a)} to {number(b)}" for a, b in part.get("stretches_m") or [])
+        head = f"On {_PARTS.get(name, name)} (x = {where} m)"
+        g, lo, pen = part.get("gaining"), part.get("losing"), part.get("penetration")
+        parts = []
+        bulk = "95 % of the wetted bed" + (" and of the run" if finite((g or lo or {}).get("time_s")) else "")
+        if isinstance(g, dict):
+            parts.append(f"the strongest upward flux is {flux(g.get('peak_m_per_s'), unit)} {_at(g)}, while over "
+                         f"{bulk} it stays below {flux(g.get('p95_m_per_s'), unit)}")
+        else:
+            parts.append("no part gains (no gaining reach)")
+        if isinstance(lo, dict):
+            parts.append(f"the strongest downward flux is {flux(lo.get('peak_m_per_s'), unit)} {_at(lo)}, while "
+                         f"over {bulk} it stays above {flux(lo.get('p05_m_per_s'), unit)}")
+        else:
+            parts.append("no part loses (no losing reach)")
+        text = f"{head} {'; '.join(parts)}."
+        if isinstance(pen, dict):
+            text += (f" Stream water reaches {length(pen.get('depth_m'))} below the bed {_at(pen)}; over 95 % of "
+                     f"this part it stays within {length(pen.get('p95_m'))}.")
+        out.append(text)
+    return out
+
+
+def interruption(summary: dict) -> str | None:
+    """``interrupted at t = 2.5 h, of 4.0 h`` (with the last output) for a partial run, else None."""
+    reason = summary.get("partial")
+    if not reason:
+        return None
+    p = summary.get("partial_run") or {}
+    word = "interrupted" if str(reason).startswith("interrupted") else "stopped"
+    at = p.get("stopped_at_s", summary.get("end_time_s"))
+    text = f"{word} at t = {hours(at)}" if finite(at) else word
+    if finite(p.get("planned_end_s")):
+        text += f", of {hours(p['planned_end_s'])}"
+    last = p.get("last_output_s", summary.get("end_time_s"))
+    if finite(last):
+        text += f"; its last output is at t = {hours(last)}"
+    return text
+
+
+def warnings_finding(summary: dict, source: str = ".") -> Finding | None:
+    """An interrupted run and the warnings of a run's summary (impossible heads, a stream that may
+    be disconnected), or None when there is nothing to say."""
+    f = Finding("warnings", source, title=summary.get("title", ""))
+    stop = interruption(summary)
+    if stop:
+        f.sentences.append(f"This run was {stop}: its numbers, and every figure of the end of the run, show "
+                           "that last output, not the planned end.")
+    for w in summary.get("warnings") or []:
+        text = str(w).strip()
+        f.sentences.append(text[:1].upper() + text[1:] + ("" if text.endswith(".") else "."))
+    return f if f.sentences else None
 
 
 def pulse_finding(summary: dict, events_table: pd.DataFrame | None = None, source: str = ".",
@@ -218,6 +295,7 @@ def pulse_finding(summary: dict, events_table: pd.DataFrame | None = None, sourc
     if not ev:
         return None
     f = Finding("pulse", source, title=summary.get("title", ""))
+    of = summary.get("per_metre_of", "channel")
     e0 = float(ev.get("initial_exchange", summary.get("exchange_m2_per_s", 0.0)))
     start_word = "gaining" if e0 > 0 else "losing"
     other_word = "losing" if e0 > 0 else "gaining"
@@ -231,7 +309,7 @@ def pulse_finding(summary: dict, events_table: pd.DataFrame | None = None, sourc
                            f"{'; '.join(parts)} ({hours(ev.get('reversed_duration', float('nan')))} in all).")
         peak = ev.get("peak_losing_exchange")
         if e0 > 0 and finite(peak) and float(peak) < 0:
-            f.sentences.append(f"At the peak the stream loses {per_metre(float(peak))} into its bed and banks.")
+            f.sentences.append(f"At the peak the stream loses {per_metre(float(peak), of)} into its bed and banks.")
     else:
         lo, hi = summary.get("exchange_min_m2_per_s"), summary.get("exchange_max_m2_per_s")
         f.sentences.append(f"No: the net exchange stays {start_word} throughout the run"
@@ -251,15 +329,19 @@ def pulse_finding(summary: dict, events_table: pd.DataFrame | None = None, sourc
     bank = ev.get("bank_storage_volume")
     if finite(bank) and float(bank) > 0:
         back = ev.get("returned_volume")
-        text = f"Bank storage takes in {number(bank)} m³ per metre of channel"
+        text = f"Bank storage takes in {number(bank)} m³ per metre of {of}"
         if finite(back):
             end = summary.get("end_time_s")
             text += (f"; {number(back)} m³ ({percent(ev.get('returned_fraction'))}) has come back by the "
                      f"end of the run{f' ({hours(end)})' if finite(end) else ''}")
         f.sentences.append(text + ".")
-    depth = ev.get("max_penetration_depth")
-    if finite(depth) and float(depth) > 0:
-        f.sentences.append(f"Stream water reaches {length(depth)} below the bed at most.")
+    bed = summary.get("bed")
+    if isinstance(bed, dict) and bed:
+        f.sentences += bed_sentences(bed, unit)
+    else:
+        depth = ev.get("max_penetration_depth")
+        if finite(depth) and float(depth) > 0:
+            f.sentences.append(f"Stream water reaches {length(depth)} below the bed at most.")
     return f
 
 
@@ -306,6 +388,34 @@ def field_finding(field_summary: dict, source: str = ".", unit: str = "m/d") -> 
         f.sentences.append(f"{int(rejected)} rows of the sheets were rejected and {flagged} flags raised "
                            "(listed in the field section).")
     return f
+
+
+def same_length_sentence(field_summary: dict, run_summary: dict, run_label: str) -> str | None:
+    """The field's and a model run's exchange quoted per the same length, saying which.
+
+    A section across the channel gives flow per metre of channel length, as the meters' reach
+    total per metre of channel does. A section along the channel gives flow per metre of channel
+    width over the section's length; the meters' mean flux over that same length gives the field
+    figure on that basis.
+    """
+    reach = field_summary.get("reach") or {}
+    mean, per_m = reach.get("mean_flux [m/s]"), reach.get("per_metre_of_channel [m^2/s]")
+    ex = run_summary.get("exchange_m2_per_s")
+    if not finite(ex):
+        return None
+    if run_summary.get("per_metre_of") == "channel width":
+        span = run_summary.get("section_length_m")
+        if not (finite(mean) and finite(span)):
+            return None
+        return (f"On the basis of the model run in {run_label}, drawn along the channel (per metre of channel "
+                f"width, over the same {length(span)} of channel; + = gaining), the meters give "
+                f"{number(float(mean) * float(span) * DAY)} m³/d and the model "
+                f"{number(float(ex) * DAY)} m³/d.")
+    if not finite(per_m):
+        return None
+    return (f"Per metre of channel length, as the model run in {run_label} (drawn across the channel) is "
+            f"quoted (+ = gaining): the meters give {number(float(per_m) * DAY)} m³/d and the model "
+            f"{number(float(ex) * DAY)} m³/d.")
 
 
 def _is_conductivity(path: str) -> bool:
@@ -437,13 +547,22 @@ def findings(project, unit: str = "m/d") -> list[Finding]:
     out: list[Finding] = []
     for o in project.of_kind("run"):
         s = o.data["summary"]
+        w = warnings_finding(s, o.label)
+        if w is not None:
+            out.append(w)
         out.append(exchange_finding(s, o.label, unit))
         events = read_table(o.tables["events.csv"]) if "events.csv" in o.tables else None
         p = pulse_finding(s, events, o.label, unit)
         if p is not None:
             out.append(p)
+    runs = [(o.label, o.data["summary"]) for o in project.of_kind("run")]
     for o in project.of_kind("field"):
-        out.append(field_finding(o.data["field_summary"], o.label, unit))
+        f = field_finding(o.data["field_summary"], o.label, unit)
+        for label, s in runs:
+            same = same_length_sentence(o.data["field_summary"], s, label)
+            if same:
+                f.sentences.append(same)
+        out.append(f)
     fits = [(o.label, o.data["fit_results"]) for o in project.of_kind("fit")]
     for label, res in fits:
         out.append(conductivity_finding(res, label))

@@ -72,9 +72,10 @@ def data_uri(path: Path) -> str:
     return f"data:{mime};base64," + base64.b64encode(path.read_bytes()).decode("ascii")
 
 
-def figure(path: Path, kind: str, alt: str) -> str:
-    """An embedded figure with its caption."""
-    cap = CAPTIONS.get((kind, path.name), "")
+def figure(path: Path, kind: str, alt: str, note: str = "", per_metre_of: str = "channel") -> str:
+    """An embedded figure with its caption (``note`` first, e.g. that the run was interrupted)."""
+    cap = CAPTIONS.get((kind, path.name), "").replace("per metre of channel", f"per metre of {per_metre_of}")
+    cap = f"{note} {cap}".strip()
     return (f'<figure><img src="{data_uri(path)}" alt="{esc(alt)}">'
             f"<figcaption><b>{esc(path.name)}</b>. {esc(cap)}</figcaption></figure>")
 
@@ -163,17 +164,23 @@ def _cautions_section() -> str:
 def _run_section(o: Output, unit: str) -> str:
     s = o.data["summary"]
     day = fd.DAY
+    of = s.get("per_metre_of", "channel")
+    lo = s.get("bed_flux_min_m_per_s", s.get("max_losing_flux_m_per_s"))
+    hi = s.get("bed_flux_max_m_per_s", s.get("max_gaining_flux_m_per_s"))
     rows = [("run", s.get("run", "")), ("cells, solver", f"{s.get('cells', '')}, {s.get('solver', '')}"),
-            ("net exchange (+ = gaining)", fd.signed_per_metre(s["exchange_m2_per_s"])),
+            ("net exchange (+ = gaining)", fd.signed_per_metre(s["exchange_m2_per_s"], of)),
             ("submerged bed", fd.length(s.get("submerged_length_m"))),
             ("gaining length", fd.length(s.get("gaining_length_m"))),
             ("losing length", fd.length(s.get("losing_length_m"))),
-            ("bed flux range (+ = upward)", f"{fd.flux(s.get('max_losing_flux_m_per_s'), unit)} to "
-                                            f"{fd.flux(s.get('max_gaining_flux_m_per_s'), unit)}"),
+            ("bed flux range (+ = upward)", f"{fd.flux(lo, unit)} to {fd.flux(hi, unit)}" if fd.finite(lo)
+             else "no bed under water"),
             ("water budget closure", closure_phrase(s.get("budget_closure"), s.get("budget_closure_note", "")))]
+    stop = fd.interruption(s)
+    if stop:
+        rows.insert(0, ("PARTIAL RESULT", stop))
     if "exchange_min_m2_per_s" in s:
         rows.insert(3, ("net exchange over the run", f"{fd.signed_per_metre(s['exchange_min_m2_per_s'])} to "
-                                                     f"{fd.signed_per_metre(s['exchange_max_m2_per_s'])}"))
+                                                     f"{fd.signed_per_metre(s['exchange_max_m2_per_s'], of)}"))
         rows.insert(1, ("end of run", fd.hours(s.get("end_time_s"))))
     ev = s.get("events") or {}
     if ev:
@@ -181,10 +188,12 @@ def _run_section(o: Output, unit: str) -> str:
         rows += [("net exchange reversals", "; ".join(
                      f"{fd.hours(a)} to {'end' if b is None else fd.hours(b)}" for a, b in rev) or "none"),
                  ("reversed for", fd.hours(ev.get("reversed_duration"))),
-                 ("bank storage taken in", f"{fd.number(ev.get('bank_storage_volume'))} m³ per metre"),
-                 ("returned by the end", f"{fd.number(ev.get('returned_volume'))} m³ per metre "
+                 ("bank storage taken in", f"{fd.number(ev.get('bank_storage_volume'))} m³ per metre of {of}"),
+                 ("returned by the end", f"{fd.number(ev.get('returned_volume'))} m³ per metre of {of} "
                                          f"({fd.percent(ev.get('returned_fraction'))})"),
                  ("deepest stream water below the bed", fd.length(ev.get("max_penetration_depth")))]
+    for w in s.get("warnings") or []:
+        rows.append(("WARNING", str(w)))
     parts = [f'<section id="{o.anchor}"><h2>Model run: {esc(s.get("title", o.label))}</h2>',
              f'<p class="meta">folder {esc(o.label)}</p>', keys_table(rows, "Key numbers (SI files; shown in "
                                                                           f"m³/d per metre and {unit})")]
@@ -195,8 +204,12 @@ def _run_section(o: Output, unit: str) -> str:
         bud = pd.DataFrame({"term": terms, "in (m³/d per m)": [bin_[t] * day for t in terms],
                             "out (m³/d per m)": [bout.get(t, 0.0) * day for t in terms]})
         parts.append(table(bud, "Water budget" + (" at the last output time" if ev else "")))
+    extremes = _extremes_table(s.get("bed"), unit)
+    if extremes:
+        parts.append(extremes)
+    note = f"PARTIAL RESULT, {stop}." if stop else ""
     for fig in o.figures:
-        parts.append(figure(fig, "run", f"{fig.stem} of {s.get('title', o.label)}"))
+        parts.append(figure(fig, "run", f"{fig.stem} of {s.get('title', o.label)}", note, of))
     if "movie" in o.data:
         parts.append(f'<p class="note">A video of the same animation is beside the outputs: '
                      f"{esc(Path(o.data['movie']).name)}.</p>")
@@ -205,7 +218,8 @@ def _run_section(o: Output, unit: str) -> str:
         if not event_table.empty:
             shown = event_table.copy()
             fac = fd.flux_factor(unit)
-            for c in ("submerged_duration", "first_reversal_start", "last_reversal_end", "reversed_duration"):
+            for c in ("submerged_duration", "first_reversal_start", "last_reversal_end", "reversed_duration",
+                      "penetration_time"):
                 if c in shown:
                     shown[c] = shown[c] / fd.HOUR
             for c in ("initial_flux", "peak_losing_flux"):
@@ -216,13 +230,42 @@ def _run_section(o: Output, unit: str) -> str:
                 "first_reversal_start": "first reversal (h)", "last_reversal_end": "last reversal end (h)",
                 "reversed_duration": "reversed (h)", "peak_losing_flux": f"peak losing flux ({unit})",
                 "volume_into_bed": "into bed (m³/m²)", "volume_returned": "returned (m³/m²)",
-                "penetration_depth": "depth reached (m)"})
+                "penetration_depth": "depth reached (m)", "penetration_time": "deepest at (h)"})
             parts.append(table(shown, "Exchange events by column", source=f"{o.label}/events.csv"))
     if o.inputs:
         parts.append("<h3>Scenario files</h3>")
         parts += [reproduce(p, p.relative_to(o.folder).as_posix()) for p in o.inputs]
     parts.append("</section>")
     return "".join(parts)
+
+
+def _extremes_table(bed: dict | None, unit: str) -> str:
+    """Where the bed flux is strongest, per part of the bed, beside the robust percentile."""
+    rows = []
+    words = {"channel": "channel bed", "floodplain": "floodplain"}
+    for name, part in (bed or {}).items():
+        if not isinstance(part, dict):
+            continue
+        for key, label, robust, rlabel in (("gaining", "strongest upward flux", "p95_m_per_s", "95th percentile"),
+                                          ("losing", "strongest downward flux", "p05_m_per_s", "5th percentile")):
+            e = part.get(key)
+            rows.append({"part of the bed": words.get(name, name), "extreme": label,
+                         "value": fd.flux(e.get("peak_m_per_s"), unit) if isinstance(e, dict)
+                         else f"none (no {key} reach)",
+                         "x (m)": e.get("x_m") if isinstance(e, dict) else float("nan"),
+                         "t (h)": e["time_s"] / fd.HOUR if isinstance(e, dict) and fd.finite(e.get("time_s"))
+                         else float("nan"),
+                         "robust figure": f"{rlabel} {fd.flux(e.get(robust), unit)}" if isinstance(e, dict) else ""})
+        pen = part.get("penetration")
+        if isinstance(pen, dict):
+            rows.append({"part of the bed": words.get(name, name), "extreme": "deepest stream water below the bed",
+                         "value": fd.length(pen.get("depth_m")), "x (m)": pen.get("x_m"),
+                         "t (h)": pen["time_s"] / fd.HOUR if fd.finite(pen.get("time_s")) else float("nan"),
+                         "robust figure": f"95th percentile {fd.length(pen.get('p95_m'))}"})
+    if not rows:
+        return ""
+    return table(pd.DataFrame(rows), "Where the bed flux is strongest: each extreme with its place, beside a "
+                                     "percentile over the wetted part of the bed (length- and time-weighted)")
 
 
 def _field_section(o: Output, unit: str) -> str:
