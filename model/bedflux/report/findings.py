@@ -323,6 +323,9 @@ def conductivity_finding(fit_results: dict, source: str = ".") -> Finding:
                 text += f", within a factor of {number(max(hi / b, b / lo))} of the best value"
         verdict = verdicts.get(p)
         f.sentences.append(text + (f": {verdict}." if verdict else "."))
+    for p, note in (fit_results.get("at_bound") or {}).items():
+        if p not in chosen:  # a conductivity's verdict already says it
+            f.sentences.append(f"{note}.")
     st = fit_results.get("statistics") or {}
     rchi = st.get("reduced_chi_square")
     if finite(rchi):
