@@ -213,10 +213,10 @@ def summarise(forward: Forward, m: np.ndarray, evaluate=None) -> FitResult:
     verdicts = _verdicts(forward, m, css, corr, sdm, sv, Vt, J, info, s2, tq)
     # gradient of the objective in the estimation space: where the data pull a parameter on a bound
     gradient = -2.0 * J.T @ (w * resid) + 2.0 * np.where(has, (m - centre) / sd**2, 0.0)
-    unseen = {p for p, v in verdicts.items() if v.startswith("not identifiable")}
-    at_bound = bound_notes(forward.free, m, gradient, unseen)
+    blind = {q.path for q, u, c in zip(forward.free, unseen, css) if u or c == 0.0}
+    at_bound = bound_notes(forward.free, m, gradient, blind)
     for path, note in at_bound.items():
-        verdicts[path] = _bound_verdict(note, verdicts[path])
+        verdicts[path] = _bound_verdict(note, verdicts[path], path in blind)
     notes = {q.path: q.note for q in forward.free if q.note}
     sd_si = {q.path: float(sd_j * q.dnatural(v)) for q, v, sd_j in zip(forward.free, m, sdm)}
     return FitResult(best, ci, cov, corr, table, J, forward.n_forward_runs, stats_d, css_d, sv, Vt,
@@ -230,7 +230,8 @@ def bound_notes(free: list, m: np.ndarray, gradient: np.ndarray, unseen: set[str
 
     ``gradient`` is that of the objective in the estimation space: a negative value at the upper
     bound (a positive one at the lower) means the fit would go on past the bound. For a parameter
-    in ``unseen`` (not identifiable) the bound, not the data, sets the value.
+    in ``unseen`` (on a null direction of the information: the data do not respond to it) the
+    bound, not the data, sets the value.
     """
     from .display import with_unit
 
@@ -251,15 +252,16 @@ def bound_notes(free: list, m: np.ndarray, gradient: np.ndarray, unseen: set[str
     return out
 
 
-def _bound_verdict(note: str, verdict: str) -> str:
-    """The verdict of a parameter on a bound: for an unseen parameter the verdict then the note,
-    else the note (without the path), followed by a correlation verdict if there is one."""
+def _bound_verdict(note: str, verdict: str, blind: bool) -> str:
+    """The verdict of a parameter on a bound. Unseen (``blind``): its verdict, then the note.
+    Otherwise the note (without the path) replaces a verdict on the spread, which the bound makes
+    meaningless, and is followed by a correlation if there is one."""
     text = note.split(" ", 1)[1]
-    if verdict.startswith("not identifiable"):
+    if blind:
         return f"{verdict}; it {text}"
-    if verdict.startswith(("well determined", "poorly determined")):
-        return text
-    return f"{text}; also {verdict}"
+    if verdict.startswith("correlated"):
+        return f"{text}; also {verdict}"
+    return text
 
 
 def unseen_parameters(info: np.ndarray, rtol: float = 1e-10) -> np.ndarray:
