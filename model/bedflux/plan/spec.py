@@ -48,6 +48,8 @@ from .fit_start import FitStart, fits_beside, read_fit
 
 _KEYS = ["fit", "scenario", "n", "target", "length", "existing", "min_spacing", "max_per_transect", "pan_diameter",
          "reading_time", "candidates", "instruments", "free"]
+CANDIDATE_KEYS = ["seepage_spacing", "piezometer_spacing", "depths", "max_depth", "table"]
+INSTRUMENT_KEYS = ["seepage_relative_sd", "seepage_floor", "head_resolution"]
 
 
 @dataclass
@@ -125,8 +127,7 @@ def load_plan(path: str | Path, output: str | Path | None = None) -> PlanSpec:
         mpt = None if mpt is None else checks.integer(d, "max_per_transect", "top level", low=1)
         pan = checks.quantity(d, "pan_diameter", "length", "top level", default=0.57, low=0.0, low_inclusive=False)
         c = checks.table(d, "candidates", "top level", required=True)
-        checks.reject_unknown(c, ["seepage_spacing", "piezometer_spacing", "depths", "max_depth", "table"],
-                              where="[candidates]")
+        checks.reject_unknown(c, CANDIDATE_KEYS, where="[candidates]")
         max_depth = checks.quantity(c, "max_depth", "length", "[candidates]", default=DEFAULT_MAX_DEPTH,
                                     low=0.0, low_inclusive=False)
         depths_raw = c.get("depths", [0.1, 0.2, max_depth])
@@ -135,7 +136,7 @@ def load_plan(path: str | Path, output: str | Path | None = None) -> PlanSpec:
         depths = [checks.quantity({"depths": v}, "depths", "length", "[candidates]", low=0.0, low_inclusive=False)
                   for v in depths_raw]
         ins = checks.table(d, "instruments", "top level")
-        checks.reject_unknown(ins, ["seepage_relative_sd", "seepage_floor", "head_resolution"], where="[instruments]")
+        checks.reject_unknown(ins, INSTRUMENT_KEYS, where="[instruments]")
         default = Instruments()
         instruments = Instruments(
             checks.number(ins, "seepage_relative_sd", "[instruments]", default=default.seepage_relative_sd,
