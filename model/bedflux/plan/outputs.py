@@ -12,7 +12,7 @@ from ..atomic import write_text, write_with
 def summary_dict(table: pd.DataFrame, target: str) -> dict:
     """plan_summary.json content (SI; ``unit`` names the unit of the spreads)."""
     a = table.attrs
-    return {
+    out = {
         "target": a.get("target", target),
         "unit": a.get("unit"),
         "display_unit": a.get("display_unit"),
@@ -36,6 +36,7 @@ def summary_dict(table: pd.DataFrame, target: str) -> dict:
                   "prior_sd": "spread of the target before any new instrument (with a fit: the fit's own)",
                   "method": "linear (first-order) Bayesian data worth, greedy selection"},
     }
+    return {k: v for k, v in out.items() if v is not None}
 
 
 def _spread(table: pd.DataFrame, sd: float) -> str:

@@ -400,6 +400,7 @@ def next_finding(plans: Iterable[tuple[str, dict | None, pd.DataFrame | None]],
         elif finite(shown[0].get("expected_sd")):
             f.sentences.append(f"After the first pick the expected standard deviation of {target} is "
                                f"{spread(target, shown[0]['expected_sd'])}.")
+        f.sentences += [f"Warning: {w}." for w in (summary or {}).get("warnings") or [] if isinstance(w, str)]
     if plans:
         return f
     hints = []
