@@ -32,7 +32,8 @@ def default_reading_time(scenario: Scenario) -> float:
 
 @dataclass
 class Reading:
-    """The reading times of a plan, the stage then (at the stage's reference x), text and warnings."""
+    """The reading times of a plan, the stage then (where the stage signal holds, x = 0), text and
+    warnings."""
 
     times: list[float]
     stages: list[float]
@@ -50,8 +51,9 @@ def describe_reading(scenario: Scenario, times: np.ndarray) -> Reading:
     stream = scenario.stream
     if not scenario.transient:
         stage = float(stream.stage(0.0)) if stream is not None else float("nan")
+        where = " at x = 0" if stream is not None and stream.slope else ""
         text = ("steady scenario: read the instruments while the stream stands at the modelled stage"
-                + (f", {stage:.4g} m" if np.isfinite(stage) else ""))
+                + (f", {stage:.4g} m{where}" if np.isfinite(stage) else ""))
         return Reading([0.0], [stage], text)
     unique = sorted({float(t) for t in np.atleast_1d(times)})
     stages = [float(stream.stage(t)) if stream is not None else float("nan") for t in unique]
