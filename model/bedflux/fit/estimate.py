@@ -28,6 +28,7 @@ from scipy import optimize, stats
 from ..errors import InputError, SolverError
 from ..observe import HAND_DRIVEN_MAX_DEPTH, HEAD_RESOLUTION, SEEPAGE_FLOOR, SEEPAGE_RELATIVE_SD
 from ..sensitivity import LN10, Forward
+from .display import with_unit
 
 #: Correlations above this are reported as parameters the data cannot tell apart.
 CORRELATION_LIMIT = 0.95
@@ -233,8 +234,6 @@ def bound_notes(free: list, m: np.ndarray, gradient: np.ndarray, unseen: set[str
     in ``unseen`` (on a null direction of the information: the data do not respond to it) the
     bound, not the data, sets the value.
     """
-    from .display import with_unit
-
     out = {}
     for q, v, g in zip(free, m, gradient):
         lo, hi = q.internal(q.low), q.internal(q.high)
