@@ -240,10 +240,11 @@ def parameter_intervals(result, path: str | Path) -> Path:
         ax.plot([1], [i], "o", color=GAINING)
         ax.text(1.02, i + 0.18, f"{best:.3g}", fontsize=7)
     ax.set_yticks(range(len(paths)), paths)
+    ax.set_ylim(-0.5, len(paths) - 0.5)  # room for the value labels, also with one parameter
     ax.set_xscale("log")
     left, right = ax.get_xlim()
     if right / left < 1.1:  # intervals narrower than the axis can show (an exact fit)
-        ax.set_xlim(0.95, 1.05)
+        ax.set_xlim(0.5, 2.0)
     ax.axvline(1, color="0.6", lw=0.8)
     ax.set_xlabel("95 % interval / best value")
     fig.tight_layout()
