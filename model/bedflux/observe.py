@@ -31,9 +31,19 @@ COLUMNS = ("kind", "x", "depth", "time", "value", "sigma")
 KINDS = ("head", "vhg", "seepage")
 #: Pan diameter when none is given: the end of a 208 L (55 US gal) drum, about 0.57 m (common practice).
 DEFAULT_PAN_DIAMETER = 0.57
+#: Scatter of a seepage-meter reading about the true flux, as a fraction (about 30 % for careful
+#: repeat measurements with a half-drum meter: common practice).
+SEEPAGE_RELATIVE_SD = 0.3
+#: Smallest flux a seepage meter tells from zero (0.01 m/d, in m/s; common practice).
+SEEPAGE_FLOOR = 0.01 / 86400.0
+#: Head resolution of a manometer reading (0.1 mm, in m; common practice for an inverted U-tube).
+HEAD_RESOLUTION = 1e-4
+#: Deepest opening of a hand-driven mini-piezometer in sand (m; common practice). Deeper openings
+#: need a drive point (a steel pipe driven with a hammer or a slide).
+HAND_DRIVEN_MAX_DEPTH = 0.3
 
 
-def read_observations(path: str | Path) -> pd.DataFrame:
+def read_observations(path: str | Path, transient: bool | None = None) -> pd.DataFrame:
     """Read and check an observations CSV (see :func:`check_observations`)."""
     path = Path(path)
     if not path.is_file():
@@ -42,17 +52,22 @@ def read_observations(path: str | Path) -> pd.DataFrame:
         df = pd.read_csv(path)
     except Exception as err:  # pandas raises several parser error types
         raise InputError(f"cannot read as CSV: {err}", source=str(path)) from None
-    return check_observations(df, str(path))
+    return check_observations(df, str(path), transient)
 
 
-def check_observations(df: pd.DataFrame, source: str = "observations") -> pd.DataFrame:
+def check_observations(df: pd.DataFrame, source: str = "observations", transient: bool | None = None
+                       ) -> pd.DataFrame:
     """Validate an observation table; return a clean copy with float columns.
+
+    ``time`` may be empty (NaN) unless ``transient`` is True: a steady run has no clock. With
+    ``transient`` None (the run is not known yet) empty times are kept for a later check.
 
     Raises
     ------
     InputError
         Naming the row (counted as in the file, header = row 1) for a missing column, an unknown
-        kind, a non-numeric cell, a missing or non-positive sigma, a negative depth.
+        kind, a non-numeric cell, a missing or non-positive sigma, a negative depth, an empty time
+        in a transient run.
     """
     missing = [c for c in COLUMNS if c not in df.columns]
     if missing:
@@ -69,14 +84,22 @@ def check_observations(df: pd.DataFrame, source: str = "observations") -> pd.Dat
     for col in ("x", "depth", "time", "value", "sigma"):
         vals = pd.to_numeric(out[col], errors="coerce")
         bad = vals.isna()
+        if col == "time" and not transient:
+            # a steady run has no clock: an empty time is allowed, text never
+            bad &= out[col].notna() & (out[col].astype(str).str.strip() != "")
         if bad.any():
             i = int(np.flatnonzero(bad)[0])
-            hint = " (every observation needs its uncertainty: fill the sigma column)" if col == "sigma" else ""
+            hint = {"sigma": " (every observation needs its uncertainty: fill the sigma column)",
+                    "time": (" (a transient run needs the time of every observation, s since the start; "
+                             "only a steady run may leave it empty)" if transient else "")}.get(col, "")
             raise InputError(f"column '{col}' is empty or not a number{hint}", source=source,
                              where=f"row {i + 2}")
         out[col] = vals.astype(float)
     for col in ("x", "depth", "time", "value", "sigma"):
-        bad = ~np.isfinite(out[col].to_numpy())
+        vals = out[col].to_numpy()
+        bad = ~np.isfinite(vals)
+        if col == "time":
+            bad &= ~np.isnan(vals)  # empty: checked above
         if bad.any():
             i = int(np.flatnonzero(bad)[0])
             raise InputError(f"column '{col}' must be a finite number", source=source, where=f"row {i + 2}")

@@ -230,19 +230,22 @@ def observed_vs_simulated(residuals, path: str | Path) -> Path:
     return save(fig, path)
 
 
-def residual_figure(residuals, path: str | Path) -> Path:
-    """Weighted residuals against x and against time."""
+def residual_figure(residuals, path: str | Path, steady: bool = False) -> Path:
+    """Weighted residuals against x and against time (a steady run: against the observation's
+    row number, since a steady run has no clock)."""
     apply_style()
     fig, (a, b) = plt.subplots(1, 2, figsize=(8, 3.2), sharey=True)
     markers = {"head": "s", "vhg": "^", "seepage": "o"}
+    row = np.arange(1, len(residuals) + 1)
     for k, r in residuals.groupby("kind"):
         a.plot(r["x"], r["weighted_residual"], markers.get(k, "o"), ms=4, label=k, mfc="none", color="k")
-        b.plot(r["time"] / 3600.0, r["weighted_residual"], markers.get(k, "o"), ms=4, mfc="none", color="k")
+        across = row[residuals["kind"].to_numpy() == k] if steady else r["time"] / 3600.0
+        b.plot(across, r["weighted_residual"], markers.get(k, "o"), ms=4, mfc="none", color="k")
     for ax in (a, b):
         ax.axhline(0, color="0.5", lw=0.8)
         ax.axhspan(-2, 2, color="0.92", zorder=0)
     a.set_xlabel("x (m)")
-    b.set_xlabel("time (h)")
+    b.set_xlabel("observation (row of the table)" if steady else "time (h)")
     a.set_ylabel("(observed - simulated) / sigma")
     a.legend(fontsize=7)
     fig.tight_layout()
@@ -265,7 +268,11 @@ def parameter_intervals(result, path: str | Path) -> Path:
         ax.plot([1], [i], "o", color=GAINING)
         ax.text(1.02, i + 0.18, f"{best:.3g}", fontsize=7)
     ax.set_yticks(range(len(paths)), paths)
+    ax.set_ylim(-0.5, len(paths) - 0.5)  # room for the value labels, also with one parameter
     ax.set_xscale("log")
+    left, right = ax.get_xlim()
+    if right / left < 1.1:  # intervals narrower than the axis can show (an exact fit)
+        ax.set_xlim(0.5, 2.0)
     ax.axvline(1, color="0.6", lw=0.8)
     ax.set_xlabel("95 % interval / best value")
     fig.tight_layout()
@@ -305,7 +312,8 @@ def plan_map(table, scenario, path: str | Path) -> Path:
     ax.legend(loc="lower left", fontsize=7, ncol=3)
     sx = np.asarray(table.attrs.get("single_x", []))
     sk = np.asarray(table.attrs.get("single_kind", []))
-    sd = np.asarray(table.attrs.get("single_sd", []), dtype=float)
+    factor = float(table.attrs.get("display_factor", 1.0))
+    sd = np.asarray(table.attrs.get("single_sd", []), dtype=float) * factor
     sdep = np.asarray(table.attrs.get("single_depth", []), dtype=float)
     if sx.size:
         s = sk == "seepage"
@@ -317,8 +325,9 @@ def plan_map(table, scenario, path: str | Path) -> Path:
                      label=f"one piezometer {dep:.2g} m deep")
     prior = table.attrs.get("prior_sd")
     if prior is not None:
-        axs.axhline(prior, color="0.5", ls="--", lw=0.8, label="before")
-    axs.set_ylabel("expected spread")
+        axs.axhline(prior * factor, color="0.5", ls="--", lw=0.8, label="before")
+    unit = table.attrs.get("display_unit", "")
+    axs.set_ylabel(f"expected spread ({unit})" if unit and len(unit) < 20 else "expected spread")
     axs.set_xlabel("x (m)")
     axs.legend(fontsize=7)
     fig.tight_layout()

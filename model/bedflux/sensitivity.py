@@ -283,7 +283,8 @@ class Forward:
     scenario
         The base scenario (free values are replaced through ``Scenario.with_values``).
     observations
-        A table with columns ``kind, x, depth, time, value, sigma`` (SI).
+        A table with columns ``kind, x, depth, time, value, sigma`` (SI); ``time`` may be empty
+        in a steady run.
     free
         The free parameters.
     pan_diameter
@@ -300,7 +301,7 @@ class Forward:
     n_sensitivity_solves: int = field(default=0, init=False)
 
     def __post_init__(self):
-        self.observations = check_observations(self.observations, self.source)
+        self.observations = check_observations(self.observations, self.source, self.scenario.transient)
         self.kinds = [classify(self.scenario, p.path) for p in self.free]
         # every observation must lie in the section (checked once, before any fitting)
         build_operators(discretise(self.scenario_at(self.start())), self.observations, self.pan_diameter, self.source)

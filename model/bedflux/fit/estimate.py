@@ -10,6 +10,10 @@ residual variance ``s^2 = S / (n - p)``, 95 % intervals ``m +- t(0.975, n - p) s
 mapped back to SI; composite scaled sensitivities ``css_j = sqrt(sum_i (J_ij b_j sqrt(w_i))^2 / n)``
 with ``J_ij b_j`` the change of datum i per relative change of parameter j (Hill & Tiedeman 2007,
 eq. 4-3).
+
+A parameter that ends on one of its bounds (within :data:`BOUND_TOLERANCE` of the range in the
+estimation space) is not a best estimate but a limit: its verdict says so and which way the data
+pull (the sign of the objective's gradient there).
 """
 from __future__ import annotations
 
@@ -22,10 +26,14 @@ import pandas as pd
 from scipy import optimize, stats
 
 from ..errors import InputError, SolverError
+from ..observe import HAND_DRIVEN_MAX_DEPTH, HEAD_RESOLUTION, SEEPAGE_FLOOR, SEEPAGE_RELATIVE_SD
 from ..sensitivity import LN10, Forward
+from .display import with_unit
 
 #: Correlations above this are reported as parameters the data cannot tell apart.
 CORRELATION_LIMIT = 0.95
+#: A value this close to a bound (fraction of the range in the estimation space) is on the bound.
+BOUND_TOLERANCE = 1e-6
 
 
 @dataclass
@@ -49,6 +57,10 @@ class FitResult:
     posterior: dict | None = None
     starts: list[dict] = field(default_factory=list)
     bound_notes: dict[str, str] = field(default_factory=dict)
+    at_bound: dict[str, str] = field(default_factory=dict)
+    standard_deviation: dict[str, float] = field(default_factory=dict)
+    free: list = field(default_factory=list)
+    transient: bool = False
 
 
 def _prior_terms(forward: Forward) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -199,10 +211,56 @@ def summarise(forward: Forward, m: np.ndarray, evaluate=None) -> FitResult:
     table["simulated"] = d
     table["residual"] = resid
     table["weighted_residual"] = resid / sigma
-    verdicts = _verdicts(forward, m, css, corr, sdm, sv, Vt, J, info, s2)
+    verdicts = _verdicts(forward, m, css, corr, sdm, sv, Vt, J, info, s2, tq)
+    # gradient of the objective in the estimation space: where the data pull a parameter on a bound
+    gradient = -2.0 * J.T @ (w * resid) + 2.0 * np.where(has, (m - centre) / sd**2, 0.0)
+    blind = {q.path for q, u, c in zip(forward.free, unseen, css) if u or c == 0.0}
+    at_bound = bound_notes(forward.free, m, gradient, blind)
+    for path, note in at_bound.items():
+        verdicts[path] = _bound_verdict(note, verdicts[path], path in blind)
     notes = {q.path: q.note for q in forward.free if q.note}
+    sd_si = {q.path: float(sd_j * q.dnatural(v)) for q, v, sd_j in zip(forward.free, m, sdm)}
     return FitResult(best, ci, cov, corr, table, J, forward.n_forward_runs, stats_d, css_d, sv, Vt,
-                     verdicts, paths, np.asarray(m), bound_notes=notes)
+                     verdicts, paths, np.asarray(m), bound_notes=notes, at_bound=at_bound,
+                     standard_deviation=sd_si, free=list(forward.free), transient=forward.scenario.transient)
+
+
+def bound_notes(free: list, m: np.ndarray, gradient: np.ndarray, unseen: set[str] = frozenset()) -> dict[str, str]:
+    """A note for each parameter that ended on a bound, e.g. ``bed.kv stopped at its upper bound
+    50 m/d: the data want more; widen the bound or question the model``.
+
+    ``gradient`` is that of the objective in the estimation space: a negative value at the upper
+    bound (a positive one at the lower) means the fit would go on past the bound. For a parameter
+    in ``unseen`` (on a null direction of the information: the data do not respond to it) the
+    bound, not the data, sets the value.
+    """
+    out = {}
+    for q, v, g in zip(free, m, gradient):
+        lo, hi = q.internal(q.low), q.internal(q.high)
+        tol = BOUND_TOLERANCE * (hi - lo)
+        for side, bound, outward, more in (("upper", hi, -g, "more"), ("lower", lo, g, "less")):
+            if abs(v - bound) > tol:
+                continue
+            if q.path in unseen:
+                pull = "the data do not see it, so the bound, not the data, sets its value"
+            elif outward > 0:
+                pull = f"the data want {more}; widen the bound or question the model"
+            else:
+                pull = "the best fit lies on the bound; widen it to see whether the data want more room"
+            out[q.path] = f"{q.path} stopped at its {side} bound {with_unit(q.path, q.natural(bound))}: {pull}"
+    return out
+
+
+def _bound_verdict(note: str, verdict: str, blind: bool) -> str:
+    """The verdict of a parameter on a bound. Unseen (``blind``): its verdict, then the note.
+    Otherwise the note (without the path) replaces a verdict on the spread, which the bound makes
+    meaningless, and is followed by a correlation if there is one."""
+    text = note.split(" ", 1)[1]
+    if blind:
+        return f"{verdict}; it {text}"
+    if verdict.startswith("correlated"):
+        return f"{text}; also {verdict}"
+    return text
 
 
 def unseen_parameters(info: np.ndarray, rtol: float = 1e-10) -> np.ndarray:
@@ -220,20 +278,20 @@ def _is_head(path: str) -> bool:
     return path.endswith(".head") or path == "stream.stage"
 
 
-def _verdicts(forward: Forward, m, css, corr, sdm, sv, Vt, J, info, s2) -> dict[str, str]:
-    """Plain-language verdict per parameter.
+def _verdicts(forward: Forward, m, css, corr, sdm, sv, Vt, J, info, s2, tq: float) -> dict[str, str]:
+    """Plain-language verdict per parameter (``tq``: the t quantile of the 95 % intervals).
 
     - not identifiable: the 95 % interval (estimation space) covers more than 80 % of the range
       between the bounds, or the parameter loads on a (numerically) null direction of the
       weighted Jacobian, or the observations do not respond to it at all;
     - correlated: |correlation| with another parameter >= 0.95;
-    - well determined: the 95 % interval spans less than a factor of 3 (log parameters) or less
-      than the value itself (others); poorly determined otherwise.
+    - well determined: the 95 % interval (the same t interval as reported) spans less than a
+      factor of 3 (log parameters) or less than the value itself (others); poorly determined
+      otherwise.
     """
     paths = [q.path for q in forward.free]
     out = {}
     null = sv <= 1e-8 * (sv.max() if sv.size else 1.0)
-    tq = 1.96
     for j, q in enumerate(forward.free):
         span = q.internal(q.high) - q.internal(q.low)
         weak_combination = any(null[k] and abs(Vt[k, j]) > 0.3 for k in range(sv.size))
@@ -263,18 +321,29 @@ def _verdicts(forward: Forward, m, css, corr, sdm, sv, Vt, J, info, s2) -> dict[
     return out
 
 
-#: Candidate piezometer depths for suggestions (m below the bed).
-SUGGEST_DEPTHS = (0.3, 1.0, 3.0)
+#: Piezometer depths (m below the bed) a suggestion tries: hand-driven mini-piezometers down to
+#: :data:`bedflux.observe.HAND_DRIVEN_MAX_DEPTH`, and deeper ones that need a drive point.
+HAND_DEPTHS = (0.1, 0.2, HAND_DRIVEN_MAX_DEPTH)
+DRIVE_POINT_DEPTHS = (1.0, 3.0)
+
+
+def _instrument_words(kind: str, x: float, depth: float) -> str:
+    if kind == "seepage":
+        return f"a seepage meter near x = {x:.3g} m"
+    return f"a piezometer at x = {x:.3g} m, {depth:.2g} m below the bed"
 
 
 def suggest_instrument(forward: Forward, m: np.ndarray, j: int, k: int, info: np.ndarray, s2: float,
-                       relative_sd: float = 0.3, head_resolution: float = 1e-4) -> str | None:
+                       relative_sd: float = SEEPAGE_RELATIVE_SD, floor: float = SEEPAGE_FLOOR,
+                       head_resolution: float = HEAD_RESOLUTION) -> str | None:
     """The new instrument that most reduces the correlation of parameters ``j`` and ``k``.
 
     Candidates: a seepage meter over every submerged column (scatter ``relative_sd`` of the
-    flux, about 30 % for careful repeat measurements: common practice) and piezometers at
-    :data:`SUGGEST_DEPTHS` over the bed (gradient uncertainty = manometer resolution / depth,
-    0.1 mm of head by default: common practice).
+    flux, not below ``floor``) and piezometers at :data:`HAND_DEPTHS` and
+    :data:`DRIVE_POINT_DEPTHS` below the bed (gradient uncertainty = manometer resolution /
+    depth); the instrument defaults of ``bedflux plan`` (common practice). When the best is
+    deeper than a hand-driven mini-piezometer reaches, the suggestion says that it needs a drive
+    point and names the best instrument within reach by hand as well.
     """
     from ..sensitivity import Forward as _F
     from ..solve.section import discretise
@@ -286,7 +355,8 @@ def suggest_instrument(forward: Forward, m: np.ndarray, j: int, k: int, info: np
         return None
     xs = sec.grid.xc[wet][:: max(1, int(wet.sum()) // 40)]
     t_obs = float(forward.observations["time"].max()) if scen.transient else 0.0
-    rows = [("seepage", x, 0.0) for x in xs] + [("vhg", x, dep) for dep in SUGGEST_DEPTHS for x in xs]
+    depths = HAND_DEPTHS + DRIVE_POINT_DEPTHS
+    rows = [("seepage", x, 0.0) for x in xs] + [("vhg", x, dep) for dep in depths for x in xs]
     cand = pd.DataFrame({"kind": [r[0] for r in rows], "x": [r[1] for r in rows], "depth": [r[2] for r in rows],
                          "time": t_obs, "value": 0.0, "sigma": 1.0})
     base_z = sec.grid.z_edges[-1]
@@ -294,20 +364,25 @@ def suggest_instrument(forward: Forward, m: np.ndarray, j: int, k: int, info: np
     cand = cand[(cand["kind"] == "seepage") | (ground - cand["depth"] > base_z)].reset_index(drop=True)
     probe = _F(forward.scenario, cand, forward.free, forward.pan_diameter)
     d, Jc = probe.predict_and_jacobian(m)
-    sig = np.where(cand["kind"] == "seepage", relative_sd * np.abs(d) + 1e-10,
+    sig = np.where(cand["kind"] == "seepage", np.maximum(relative_sd * np.abs(d), floor),
                    head_resolution / np.maximum(cand["depth"].to_numpy(), 1e-6))
-    best_i, best_c = None, None
+    corr = np.empty(len(cand))
     for i in range(len(cand)):
         row = Jc[i] / sig[i]
         new = np.linalg.pinv(info + np.outer(row, row), rcond=1e-12) * s2
-        c = abs(new[j, k] / math.sqrt(max(new[j, j] * new[k, k], 1e-300)))
-        if best_c is None or c < best_c:
-            best_i, best_c = i, c
-    r = cand.iloc[best_i]
-    if r["kind"] == "seepage":
-        return f"add a seepage meter near x = {r['x']:.3g} m (correlation would fall to {best_c:.2f})"
-    return (f"add a piezometer at x = {r['x']:.3g} m, {r['depth']:.2g} m below the bed "
-            f"(correlation would fall to {best_c:.2f})")
+        corr[i] = abs(new[j, k] / math.sqrt(max(new[j, j] * new[k, k], 1e-300)))
+    by_hand = (cand["kind"] == "seepage").to_numpy() | (cand["depth"].to_numpy() <= HAND_DRIVEN_MAX_DEPTH + 1e-12)
+    best = int(np.argmin(corr))
+    r = cand.iloc[best]
+    words = _instrument_words(r["kind"], r["x"], r["depth"])
+    if by_hand[best]:
+        return f"add {words} (correlation would fall to {corr[best]:.2f})"
+    hand = int(np.flatnonzero(by_hand)[np.argmin(corr[by_hand])])
+    h = cand.iloc[hand]
+    return (f"add {words}, deeper than the {HAND_DRIVEN_MAX_DEPTH:g} m a hand-driven mini-piezometer "
+            f"reaches: it needs a drive point (correlation would fall to {corr[best]:.2f}); within reach by "
+            f"hand, {_instrument_words(h['kind'], h['x'], h['depth'])} (correlation would fall to "
+            f"{corr[hand]:.2f})")
 
 
 def sample_posterior(forward: Forward, result: FitResult, steps: int = 2000, walkers: int | None = None,

@@ -32,6 +32,7 @@ from ..errors import InputError
 from ..observe import DEFAULT_PAN_DIAMETER, check_observations, read_observations
 from ..scenario import Scenario, load
 from ..sensitivity import FreeParameter, free_parameters
+from .display import dimension_of
 
 _KEYS = ["scenario", "observations", "pan_diameter", "starts", "seed", "sample", "free"]
 _FREE_KEYS = ["path", "low", "high", "start", "log", "prior", "prior_sd"]
@@ -51,20 +52,6 @@ class FitSpec:
     starts: int
     seed: int
     sample: int
-
-
-def dimension_of(path: str) -> str:
-    """The dimension word of a parameter path's values (for unit strings in fit files)."""
-    last = path.rsplit(".", 1)[-1]
-    if last in ("kh", "kv", "rate", "flux"):
-        return "velocity"
-    if last == "ss":
-        return "per_length"
-    if last == "leakance":
-        return "per_time"
-    if last in ("sy", "porosity", "phase"):
-        return "dimensionless"
-    return "length"
 
 
 def observations_from(path: Path, source: str) -> pd.DataFrame:
@@ -157,5 +144,5 @@ def load_fit(path: str | Path) -> FitSpec:
     observations = observations_from(path.parent / obs_name, source)
     free_si = free_tables(d, source, scenario)
     free = free_parameters(scenario, free_si, source)
-    return FitSpec(source, path.parent / scen_name, scenario, check_observations(observations, obs_name),
+    return FitSpec(source, path.parent / scen_name, scenario, check_observations(observations, obs_name, scenario.transient),
                    str(path.parent / obs_name), free, pan, starts, seed, sample)

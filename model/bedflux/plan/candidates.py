@@ -8,6 +8,8 @@ opening below the bed; 0 for a meter), an optional transect label and an optiona
   common practice for careful repeat measurements with a half-drum meter);
 - piezometer: vertical gradient uncertainty = head resolution / depth (0.1 mm of head by
   default, e.g. 0.1 mm over 0.3 m: common practice for an inverted U-tube manometer).
+
+The defaults live in :mod:`bedflux.observe`, shared with the fit's suggestions.
 """
 from __future__ import annotations
 
@@ -17,19 +19,20 @@ import numpy as np
 import pandas as pd
 
 from ..errors import InputError
+from ..observe import HAND_DRIVEN_MAX_DEPTH, HEAD_RESOLUTION, SEEPAGE_FLOOR, SEEPAGE_RELATIVE_SD
 
 KINDS = {"seepage": "seepage", "piezometer": "vhg", "vhg": "vhg"}
 #: Deepest opening for hand-driven mini-piezometers in sand (m; common practice).
-DEFAULT_MAX_DEPTH = 0.3
+DEFAULT_MAX_DEPTH = HAND_DRIVEN_MAX_DEPTH
 
 
 @dataclass(frozen=True)
 class Instruments:
     """Measurement uncertainty of each instrument type (SI)."""
 
-    seepage_relative_sd: float = 0.3
-    seepage_floor: float = 0.01 / 86400.0
-    head_resolution: float = 1e-4
+    seepage_relative_sd: float = SEEPAGE_RELATIVE_SD
+    seepage_floor: float = SEEPAGE_FLOOR
+    head_resolution: float = HEAD_RESOLUTION
 
     def sigma(self, table: pd.DataFrame, simulated: np.ndarray) -> np.ndarray:
         """Error spread of each candidate (a ``sigma`` column overrides)."""
@@ -83,22 +86,33 @@ def check_candidates(df: pd.DataFrame, source: str = "candidates", max_depth: fl
     return out
 
 
-def generate(bed_x: np.ndarray, seepage_spacing: float, piezometer_spacing: float, depths: list[float],
-             max_depth: float = DEFAULT_MAX_DEPTH) -> pd.DataFrame:
-    """Candidates on a spacing over the submerged bed ``[min(bed_x), max(bed_x)]``."""
+def generate(bed_x: np.ndarray, seepage_spacing: float | None, piezometer_spacing: float | None,
+             depths: list[float], max_depth: float = DEFAULT_MAX_DEPTH) -> pd.DataFrame:
+    """Candidates on a spacing over the submerged bed ``[min(bed_x), max(bed_x)]``; a spacing of
+    None means no instruments of that kind.
+
+    Raises
+    ------
+    InputError
+        For a spacing that is not positive, a depth outside ``(0, max_depth]``, or no spacing.
+    """
     lo, hi = float(np.min(bed_x)), float(np.max(bed_x))
     rows = []
-    if seepage_spacing > 0:
+    for key, spacing in (("seepage_spacing", seepage_spacing), ("piezometer_spacing", piezometer_spacing)):
+        if spacing is not None and not spacing > 0:
+            raise InputError(f"{key} = {spacing:g} m is not allowed: give a distance > 0 between candidates, "
+                             "or leave the key out for none of that kind", where="[candidates]")
+    if seepage_spacing is not None:
         for x in np.arange(lo, hi + 1e-9, seepage_spacing):
             rows.append(("seepage", float(x), 0.0))
-    if piezometer_spacing > 0:
+    if piezometer_spacing is not None:
         for d in depths:
             if not 0 < d <= max_depth + 1e-12:
                 raise InputError(f"piezometer depth {d:g} m must be > 0 and at most {max_depth:g} m", where="[candidates]")
             for x in np.arange(lo, hi + 1e-9, piezometer_spacing):
                 rows.append(("piezometer", float(x), float(d)))
     if not rows:
-        raise InputError("no candidates: give a seepage or piezometer spacing", where="[candidates]")
+        raise InputError("no candidates: give seepage_spacing or piezometer_spacing (or a table)", where="[candidates]")
     df = pd.DataFrame(rows, columns=["kind", "x", "depth"])
     df["transect"] = ""
     return df

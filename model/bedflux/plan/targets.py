@@ -25,7 +25,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
+from ..fit.display import dimension_of, display_unit
 from ..sensitivity import Forward
+from ..units import DIMENSIONS
 
 
 @dataclass(frozen=True)
@@ -41,6 +43,22 @@ class Target:
         return {"parameters": "all free parameters (D-optimal)", "parameter": self.path,
                 "exchange": "net exchange (m2/s per m)", "reach_total": f"reach total over {self.length:g} m (m3/s)",
                 "reversal": f"reversal duration at x = {self.x:g} m (s)"}[self.kind]
+
+    def units(self) -> tuple[str, float, str]:
+        """``(SI unit, display factor, display unit)`` of the target's spread."""
+        if self.kind == "parameter":
+            factor, unit = display_unit(self.path)
+            return DIMENSIONS[dimension_of(self.path)][1], factor, unit
+        return {"parameters": ("", 1.0, "(geometric mean in the estimation space: log10 units for log "
+                                        "parameters, SI otherwise)"),
+                "exchange": ("m^2/s", 86400.0, "m2/d per m"),
+                "reach_total": ("m^3/s", 86400.0, "m3/d"),
+                "reversal": ("s", 1.0 / 3600.0, "h")}[self.kind]
+
+    def spread_text(self, spread: float) -> str:
+        """A spread (SI, or estimation space for D-optimal) in the display unit."""
+        _, factor, unit = self.units()
+        return f"{spread * factor:.3g} {unit}"
 
 
 def parse_target(text: str, paths: list[str], length: float | None = None, source: str = "plan") -> Target:

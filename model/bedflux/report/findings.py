@@ -445,6 +445,9 @@ def conductivity_finding(fit_results: dict, source: str = ".") -> Finding:
                 text += f", within a factor of {number(max(hi / b, b / lo))} of the best value"
         verdict = verdicts.get(p)
         f.sentences.append(text + (f": {verdict}." if verdict else "."))
+    for p, note in (fit_results.get("at_bound") or {}).items():
+        if p not in chosen:  # a conductivity's verdict already says it
+            f.sentences.append(f"{note}.")
     st = fit_results.get("statistics") or {}
     rchi = st.get("reduced_chi_square")
     if finite(rchi):
@@ -519,6 +522,7 @@ def next_finding(plans: Iterable[tuple[str, dict | None, pd.DataFrame | None]],
         elif finite(shown[0].get("expected_sd")):
             f.sentences.append(f"After the first pick the expected standard deviation of {target} is "
                                f"{spread(target, shown[0]['expected_sd'])}.")
+        f.sentences += [f"Warning: {w}." for w in (summary or {}).get("warnings") or [] if isinstance(w, str)]
     if plans:
         return f
     hints = []
