@@ -258,7 +258,7 @@ def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: f
         S = S_el + S_wt
         base = S_el / dt * u0 + S_wt / dt * u0_wt - fill - explicit0
         terms1 = section.terms(t1, state, steady=False, u_lag=u0)
-        factor = cache.get(_state_key(wet, state, dt), terms1, S / dt, theta)
+        factor = cache.get(_state_key(section.wetted_fraction(t1), state, dt), terms1, S / dt, theta)
         u1 = factor.solve(base + theta * section.rhs(terms1))
         new = section.update_active_set(u1, terms1, t1, state)
         if new.same(state):
