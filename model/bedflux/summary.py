@@ -14,7 +14,7 @@ def summarise(ds: xr.Dataset) -> dict:
     exchange.
     """
     last = ds.isel(time=-1) if "time" in ds.dims else ds
-    dx = np.diff(ds["x_edge"].values)
+    dx = np.diff(ds["x_edge"].values) * last["wetted_fraction"].values  # wetted length per column
     q = last["bed_flux"].values
     wet = np.isfinite(q)
     out = {
@@ -34,6 +34,7 @@ def summarise(ds: xr.Dataset) -> dict:
         "budget_closure": float(np.max(np.abs(ds["budget_closure"].values))),
         "budget_in_m2_per_s": {k: float(v) for k, v in zip(BUDGET_LINES, last["budget_in"].values)},
         "budget_out_m2_per_s": {k: float(v) for k, v in zip(BUDGET_LINES, last["budget_out"].values)},
+        "resolution_warnings": [w for w in ds.attrs.get("resolution_warnings", "").split("\n") if w],
     }
     if "time" in ds.dims:
         ex = ds["exchange"].values
@@ -65,4 +66,5 @@ def summary_text(s: dict) -> str:
     if et > 0:
         lines.append(f"riparian evapotranspiration from groundwater: {et * day:.4g} m3/d per metre")
     lines.append(f"water budget closure: {s['budget_closure']:.2e} of the inflow")
+    lines += [f"grid warning: {w}" for w in s.get("resolution_warnings", [])]
     return "\n".join(lines) + "\n"

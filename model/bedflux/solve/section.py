@@ -15,8 +15,9 @@ length does not snap to columns. Over the wetted part of a top face:
 
 over the dry part:
 
-- recharge, or a seepage face held at the ground elevation of the column (its top face) where
-  the head would rise above the ground (an active set chosen by the solver).
+- recharge, or a seepage face held at the ground elevation of the column (its top face; not
+  below the local stage in a partly wetted column) where the head would rise above it (an active
+  set chosen by the solver).
 
 Riparian evapotranspiration is a head-dependent sink in the cells of the root zone:
 ``ET = rate * clip(1 - (ground - h) / extinction_depth, 0, 1)`` per unit of ground area, split over
@@ -202,6 +203,16 @@ class Section:
         self._wet_memo[key] = state
         return state
 
+    def seepage_level(self, t: float) -> np.ndarray:
+        """Elevation a seepage face on the dry part of each column's top face is held at: the
+        ground, but not below the local stage in a partly wetted column (its dry part lies above
+        the water)."""
+        level = self.grid.ground
+        partial = (self.wetted_fraction(t) > 0.0) & (self.wetted_fraction(t) < 1.0)
+        if partial.any():
+            level = np.where(partial, np.maximum(level, self.local_stage(t)), level)
+        return level
+
     def et_rate_at(self, t: float) -> np.ndarray:
         """Maximum ET of each entry (m^2/s per metre of width) at time ``t``, before the daily cycle:
         the rate times the dry ground of its column inside the riparian range, times the entry's
@@ -254,7 +265,7 @@ class Section:
         if seep.any():
             cond = ws.dry[seep] / self.top_half[seep]
             out.append(Term("seepage_face", "top", self.top_cells[seep], cols[seep], cond,
-                            cond * (g.ground[seep] - self.h_ref), ws.dry[seep]))
+                            cond * (self.seepage_level(t)[seep] - self.h_ref), ws.dry[seep]))
         rech = dry & ~state.seepage
         if rech.any() and self.scenario.recharge != 0.0:
             out.append(Term("recharge", "top", self.top_cells[rech], cols[rech], np.zeros(rech.sum()),
@@ -308,7 +319,7 @@ class Section:
         h_top = u[self.top_cells] + self.h_ref
         # the top cell's head rising above the ground makes a seepage face; with the release rule
         # below this is complementary (no cycling), in steady and in transient steps
-        rise = (ws.fraction < 1.0) & ~state.seepage & (h_top > g.ground)
+        rise = (ws.fraction < 1.0) & ~state.seepage & (h_top > self.seepage_level(t))
         new.seepage[rise] = True
         for term in terms:
             if term.kind == "seepage_face":
