@@ -138,7 +138,7 @@ def _require_cover(scenario: Scenario, grid: Grid, cover: ZoneCover) -> None:
         covered[np.unique(cover.owner[hit, j])] = True
     for i, zone in enumerate(scenario.zones[1:], start=1):
         if not covered[i]:
-            raise InputError(f"zone '{zone.name}' covers no part of the grid (check its x, z or depth against "
+            raise InputError(f"zone '{zone.name}' covers no cell of the grid, not even in part (check its x, z or depth against "
                              f"[grid] x = [{grid.x_edges[0]:g}, {grid.x_edges[-1]:g}] and the ground)",
                              source=scenario.source, where=f"zone '{zone.name}'")
 

@@ -422,8 +422,9 @@ def _evapotranspiration(scenario: Scenario, grid: Grid, idx: np.ndarray):
         overlap = np.minimum(grid.x_edges[1:], r.x[1]) - np.maximum(grid.x_edges[:-1], r.x[0])
         for_cols = np.nonzero(overlap > 0.0)[0]
         if for_cols.size == 0:
-            raise InputError(f"x = [{r.x[0]:g}, {r.x[1]:g}] lies outside the grid "
-                             f"([{grid.x_edges[0]:g}, {grid.x_edges[-1]:g}] m)", source=scenario.source,
+            raise InputError(f"x = [{r.x[0]:g}, {r.x[1]:g}] overlaps no column: it holds no column centre and "
+                             f"no part of the grid ([{grid.x_edges[0]:g}, {grid.x_edges[-1]:g}] m)",
+                             source=scenario.source,
                              where=f"riparian {iz}")
         if r.root_depth <= 0.0:
             rows = grid.top_row[for_cols]
