@@ -89,13 +89,7 @@ class ZoneCover:
 
 
 def zone_cover(scenario: Scenario, grid: Grid) -> ZoneCover:
-    """Cut the section into strips at the zone x limits and find the owner of each height interval.
-
-    Raises
-    ------
-    InputError
-        If a zone covers no part of the active grid.
-    """
+    """Cut the section into strips at the zone x limits and find the owner of each height interval."""
     zones = scenario.zones
     x0, x1 = grid.x_edges[0], grid.x_edges[-1]
     cuts = [v for z in zones[1:] if z.x is not None for v in z.x if x0 < v < x1]
@@ -125,21 +119,15 @@ def zone_cover(scenario: Scenario, grid: Grid) -> ZoneCover:
     for i in range(1, len(zones)):
         inside = (probe >= lows_a[:, i - 1:i]) & (probe <= highs_a[:, i - 1:i])
         owner = np.where(inside, i, owner)
-    cover = ZoneCover(col, xs, breaks, owner)
-    _require_cover(scenario, grid, cover)
-    return cover
+    return ZoneCover(col, xs, breaks, owner)
 
 
-def _require_cover(scenario: Scenario, grid: Grid, cover: ZoneCover) -> None:
-    covered = np.zeros(len(scenario.zones), dtype=bool)
-    active = grid.active[:, cover.strip_col]
-    for j, f in cover.overlaps(grid):
-        hit = ((f > 0) & active).any(axis=0)
-        covered[np.unique(cover.owner[hit, j])] = True
+def _require_cover(scenario: Scenario, grid: Grid, covered: np.ndarray) -> None:
+    """Raise if a zone covers no part of any active cell."""
     for i, zone in enumerate(scenario.zones[1:], start=1):
         if not covered[i]:
-            raise InputError(f"zone '{zone.name}' covers no cell of the grid, not even in part (check its x, z or depth against "
-                             f"[grid] x = [{grid.x_edges[0]:g}, {grid.x_edges[-1]:g}] and the ground)",
+            raise InputError(f"zone '{zone.name}' covers no cell of the grid, not even in part (check its x, z "
+                             f"or depth against [grid] x = [{grid.x_edges[0]:g}, {grid.x_edges[-1]:g}] and the ground)",
                              source=scenario.source, where=f"zone '{zone.name}'")
 
 
@@ -229,11 +217,15 @@ def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] |
     cover = zone_cover(scenario, grid)
     table = {p: np.array([getattr(z, p) for z in scenario.zones], dtype=float) for p in PROPERTIES}
     sums = {p: np.zeros((grid.nz, cover.strip_col.size)) for p in PROPERTIES}
+    active = grid.active[:, cover.strip_col]
+    covered = np.zeros(len(scenario.zones), dtype=bool)
     for j, f in cover.overlaps(grid):
         own = cover.owner[:, j]
+        covered[np.unique(own[((f > 0) & active).any(axis=0)])] = True
         for p in PROPERTIES:
             v = 1.0 / table[p][own] if p == "kv" else table[p][own]
             sums[p] += f * v[None, :]
+    _require_cover(scenario, grid, covered)
     arrays = {"kv": cover.to_columns(grid, 1.0 / sums.pop("kv")),
               "kh": 1.0 / cover.to_columns(grid, 1.0 / sums.pop("kh"))}
     for p, s in sums.items():

@@ -55,8 +55,8 @@ def build_dataset(section: Section, states: Sequence[Fluxes], stages: Sequence[f
         "qz": (lead + ("z", "x"), stack(lambda s: s.qz)),
         "bed_flux": (lead + ("x",), stack(lambda s: s.bed_flux)),
         "top_flux": (lead + ("x",), stack(lambda s: s.top_flux)),
-        "wetted_fraction": (lead + ("x",), np.stack([section.wetted_fraction(t) for t in (times or [0.0])])[0]
-                            if steady else np.stack([section.wetted_fraction(t) for t in times])),
+        "wetted_fraction": (lead + ("x",), section.wetted_fraction(0.0) if steady
+                            else np.stack([section.wetted_fraction(t) for t in times])),
         "exchange": (lead, stack(lambda s: np.float64(s.exchange))),
         "stage": (lead, np.array([np.nan if v is None else v for v in stages])[0] if steady
                   else np.array([np.nan if v is None else v for v in stages])),

@@ -155,13 +155,14 @@ def test_sloping_ground_converges_to_the_series_solution():
 def test_the_sloping_example_reach_has_no_steps():
     # scenarios/reach_long.toml: 0.30 m bed on ground falling 2 mm/m; where the top row changes
     # (x about 30 and 78 m) the bed flux must not jump. A step shows in the second difference,
-    # which the smooth physics keeps near zero away from the no-flow ends.
+    # which the smooth physics keeps near zero away from the no-flow ends; half of the 1 %
+    # neighbour criterion is allowed there.
     ds = bedflux.simulate(bedflux.load("scenarios/reach_long.toml"))
     q = ds.bed_flux.values
     x = ds.x.values
     curvature = np.abs(q[2:] - 2 * q[1:-1] + q[:-2]) / q[1:-1]
     inside = (x[1:-1] > 15.0) & (x[1:-1] < 105.0)
-    assert curvature[inside].max() < 2e-3, f"second difference up to {curvature[inside].max():.2%}"
+    assert curvature[inside].max() < 5e-3, f"second difference up to {curvature[inside].max():.2%}"
 
 
 # ------------------------------------------------------------------ faces beside extended top cells

@@ -7,8 +7,9 @@ Flow between two cells a and b per unit width of section is ``C (h_a - h_b)`` wi
 
 (harmonic mean of the half-cell conductances). Horizontal faces join cells whose heights
 overlap: side-by-side cells of one row, and a top cell that reaches above its row (extended up to
-the ground) with the neighbour's cell in the row above over the height they share. The matrix ``L`` has ``sum C`` on the diagonal and
-``-C`` off it: symmetric, with zero row sums; boundary terms make it positive definite.
+the ground) with the neighbour's cell in the row above over the height they share. The matrix
+``L`` has ``sum C`` on the diagonal and ``-C`` off it: symmetric, with zero row sums; boundary
+terms make it positive definite.
 """
 from __future__ import annotations
 
