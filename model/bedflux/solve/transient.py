@@ -183,7 +183,7 @@ def run_transient(section: Section, progress: Callable[[float], None] | None = N
                     if on_step is not None:
                         on_step(info)
                 storage_in, budget = _combine(pieces)
-                key = (section.submerged(t).tobytes(), state.seepage.tobytes(), state.et_mode.tobytes())
+                key = (section.wetted_fraction(t).tobytes(), state.seepage.tobytes(), state.et_mode.tobytes())
                 if theta != 1.0 and last_key is not None and key != last_key:
                     damp = RANNACHER_STEPS
                 last_key = key
