@@ -108,16 +108,23 @@ def derive(section: Section, u: np.ndarray, terms: list[Term], storage_inflow: n
     head = np.full(shape, np.nan)
     head[g.active] = u + section.h_ref
 
-    left = np.zeros(shape); right = np.zeros(shape); lower = np.zeros(shape); upper = np.zeros(shape)
+    lower = np.zeros(shape); upper = np.zeros(shape)
     hf, vf = section.hfaces, section.vfaces
-    vx = hf.conductance * (u[hf.lo] - u[hf.hi]) / hf.area
-    right.flat[hf.lo_pos] = vx
-    left.flat[hf.hi_pos] = vx
+    # a side of a cell may have two faces (an extended top cell): flow over their total area
+    flow = hf.conductance * (u[hf.lo] - u[hf.hi])
+    size = g.nz * g.nx
+    with np.errstate(invalid="ignore", divide="ignore"):
+        right = (np.bincount(hf.lo_pos, flow, size) / np.bincount(hf.lo_pos, hf.area, size)).reshape(shape)
+        left = (np.bincount(hf.hi_pos, flow, size) / np.bincount(hf.hi_pos, hf.area, size)).reshape(shape)
+    right = np.nan_to_num(right)
+    left = np.nan_to_num(left)
     vz = vf.conductance * (u[vf.lo] - u[vf.hi]) / vf.area
     upper.flat[vf.lo_pos] = vz
     lower.flat[vf.hi_pos] = vz
 
-    top_flux = np.zeros(g.nx)
+    top_flow = np.zeros(g.nx)
+    stream_flow = np.zeros(g.nx)
+    stream_width = np.zeros(g.nx)
     gross = gross_flow(terms, u)
     budget_in = {k: 0.0 for k in BUDGET_LINES}
     budget_out = {k: 0.0 for k in BUDGET_LINES}
@@ -130,11 +137,13 @@ def derive(section: Section, u: np.ndarray, terms: list[Term], storage_inflow: n
         budget_in[term.kind] += float(q[q > 0].sum())
         budget_out[term.kind] -= float(q[q < 0].sum())
         if term.face == "top":
-            v = -q / g.dx[term.place]
-            top_flux[term.place] = v
-            upper[g.top_row[term.place], term.place] = v
+            # a partly wetted column has a stream term and a dry-part term on one top face
+            top_flow += np.bincount(term.place, -q, g.nx)
             if term.kind == "stream":
                 stream_cols[term.place] = True
+                stream_flow += np.bincount(term.place, -q, g.nx)
+                width = g.dx[term.place] if term.width is None else term.width
+                stream_width += np.bincount(term.place, width, g.nx)
         elif term.face == "bottom":
             lower[g.nz - 1, term.place] = q / g.dx[term.place]
         elif term.face == "left":
@@ -145,10 +154,14 @@ def derive(section: Section, u: np.ndarray, terms: list[Term], storage_inflow: n
         budget_in["storage"] = float(storage_inflow[storage_inflow > 0].sum())
         budget_out["storage"] = -float(storage_inflow[storage_inflow < 0].sum())
         gross += float(np.abs(storage_inflow).sum())
+    top_flux = top_flow / g.dx
+    upper[g.top_row, np.arange(g.nx)] = top_flux
     qx = np.where(g.active, 0.5 * (left + right), np.nan)
     qz = np.where(g.active, 0.5 * (lower + upper), np.nan)
-    mask = stream_cols if wet is None else wet
-    bed_flux = np.where(mask, top_flux, np.nan)
+    # bed flux: over the wetted part of each column's top face (also a partly wetted column)
+    mask = stream_cols if wet is None else (wet | stream_cols)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        bed_flux = np.where(mask & (stream_width > 0), stream_flow / stream_width, np.nan)
     return Fluxes(head, qx, qz, top_flux, bed_flux, budget_in, budget_out, exchange, gross)
 
 

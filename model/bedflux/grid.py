@@ -4,6 +4,11 @@ Rows run from the top of the grid (``k = 0``, the highest ground) down to the mo
 A cell is active when its centre lies below the ground. The topmost active cell of a column is
 cut or extended so that its top face is exactly where the ground cuts the column: its thickness
 is ``ground - z_bottom_of_cell`` (between half and one and a half regular spacings).
+
+The ground profile itself (piecewise linear) is kept as :class:`GroundPieces`, straight pieces
+inside columns, to find how much of each column's top face lies below a water line (the wetted
+fraction) and where. :func:`resolution_warnings` says in plain words where a grid is too coarse
+for what the scenario asks.
 """
 from __future__ import annotations
 
@@ -143,3 +148,122 @@ def build_grid(scenario: Scenario) -> Grid:
     top_of_cell[top_row, cols] = ground
     thickness = np.where(active, top_of_cell - bottom_of_cell, 0.0)
     return Grid(x_edges, z_edges, ground, active, top_row, thickness)
+
+
+@dataclass(frozen=True)
+class GroundPieces:
+    """The ground profile cut into pieces at column edges and given x (straight pieces when it is
+    also cut at the profile vertices).
+
+    ``column`` is the column of each piece, ``x0, x1`` its ends, ``g0, g1`` the ground there and
+    ``gm`` the ground at its midpoint.
+    """
+
+    column: np.ndarray
+    x0: np.ndarray
+    x1: np.ndarray
+    g0: np.ndarray
+    g1: np.ndarray
+    gm: np.ndarray
+
+    @property
+    def length(self) -> np.ndarray:
+        return self.x1 - self.x0
+
+    @property
+    def mid(self) -> np.ndarray:
+        return 0.5 * (self.x0 + self.x1)
+
+    def below(self, level0: np.ndarray, level1: np.ndarray, exact: bool = True) -> np.ndarray:
+        """Fraction of each piece whose ground lies below a straight water line of elevation
+        ``level0`` at ``x0`` and ``level1`` at ``x1``: exact (both are linear along the piece), or
+        1 or 0 as the ground at the piece's midpoint lies below the line or not (the piece need
+        not be straight then)."""
+        if not exact:
+            return (0.5 * (level0 + level1) > self.gm).astype(float)
+        d0, d1 = level0 - self.g0, level1 - self.g1
+        hi, lo = np.maximum(d0, d1), np.minimum(d0, d1)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            part = hi / (hi - lo)
+        return np.where(lo > 0.0, 1.0, np.where(hi <= 0.0, 0.0, part))
+
+    def per_column(self, values: np.ndarray, nx: int) -> np.ndarray:
+        """Sum of per-piece ``values`` over each column."""
+        return np.bincount(self.column, weights=values, minlength=nx)
+
+
+def ground_pieces(grid: Grid, profile: np.ndarray, cuts: list[float] | tuple[float, ...] = (),
+                  at_vertices: bool = True) -> GroundPieces:
+    """Cut the profile ``[[x, elevation], ...]`` at the column edges, at ``cuts`` and (unless
+    ``at_vertices`` is False) at its own vertices; the ends of each piece lie on the profile."""
+    prof = np.asarray(profile, dtype=float)
+    x0, x1 = grid.x_edges[0], grid.x_edges[-1]
+    extra = np.concatenate([prof[:, 0] if at_vertices else [], np.asarray(cuts, dtype=float)])
+    xs = np.unique(np.concatenate([grid.x_edges, extra[(extra > x0) & (extra < x1)]]))
+    g = np.interp(xs, prof[:, 0], prof[:, 1])
+    mid = 0.5 * (xs[1:] + xs[:-1])
+    col = np.clip(np.searchsorted(grid.x_edges, mid, side="right") - 1, 0, grid.nx - 1)
+    return GroundPieces(col, xs[:-1], xs[1:], g[:-1], g[1:], np.interp(mid, prof[:, 0], prof[:, 1]))
+
+
+#: A bed layer should span at least this many cells (common practice for a resolved gradient).
+MIN_CELLS_ACROSS_LAYER = 3
+#: The submerged width should span at least this many columns (common practice).
+MIN_WETTED_COLUMNS = 10
+#: A bedform wavelength should span at least this many columns; fewer than half as many is refused.
+MIN_COLUMNS_PER_BEDFORM = 8
+
+
+def resolution_warnings(scenario: Scenario, grid: Grid) -> list[str]:
+    """Plain-language warnings where the grid is coarse for what the scenario asks (cheap: no solve).
+
+    Checks a layer zone thinner than :data:`MIN_CELLS_ACROSS_LAYER` cells, a submerged width
+    (at the lowest and highest stage of the run) of fewer than :data:`MIN_WETTED_COLUMNS` columns,
+    and a bedform wavelength of fewer than :data:`MIN_COLUMNS_PER_BEDFORM` columns or rows.
+    """
+    out: list[str] = []
+    dz_rows = -np.diff(grid.z_edges)
+    for zone in scenario.zones[1:]:
+        if zone.depth is None:
+            continue
+        cols = np.ones(grid.nx, dtype=bool) if zone.x is None else (
+            (grid.x_edges[1:] > zone.x[0]) & (grid.x_edges[:-1] < zone.x[1]))
+        if not cols.any():
+            continue
+        base = grid.ground[cols] - zone.depth
+        rows = np.clip(np.searchsorted(-grid.z_edges, -base) - 1, 0, grid.nz - 1)
+        spacing = float(dz_rows[rows].max())
+        cells = zone.depth / spacing
+        if cells < MIN_CELLS_ACROSS_LAYER:
+            out.append(f"zone '{zone.name}' is {zone.depth:.3g} m thick but spans only {cells:.2g} cells "
+                       f"(row spacing {spacing:.3g} m at its base): heads and gradients inside it are "
+                       f"coarse; use dz of {zone.depth / MIN_CELLS_ACROSS_LAYER:.2g} m or less there")
+    stream = scenario.stream
+    if stream is not None:
+        end = scenario.time.end if scenario.time is not None else 0.0
+        low, high = stream.stage.bounds(end)
+        pieces = ground_pieces(grid, scenario.ground, stream.channel or ())
+        inside = np.ones(pieces.mid.size, dtype=bool) if stream.channel is None else (
+            (pieces.mid >= stream.channel[0]) & (pieces.mid <= stream.channel[1]))
+        for level in sorted({low, high}):
+            s0 = level + stream.slope * pieces.x0
+            s1 = level + stream.slope * pieces.x1
+            width = float(np.sum(pieces.length * pieces.below(s0, s1) * inside))
+            ncols = width / float(grid.dx.max())
+            if 0.0 < ncols < MIN_WETTED_COLUMNS:
+                out.append(f"at stage {level:.4g} m the submerged bed is {width:.3g} m wide, only {ncols:.2g} "
+                           f"columns of {grid.dx.max():.3g} m: the water's edges carry much of the exchange; "
+                           f"use dx of {width / MIN_WETTED_COLUMNS:.2g} m or less")
+        bf = stream.bedform
+        if bf is not None:
+            per_col = bf.wavelength / float(grid.dx.max())
+            if per_col < MIN_COLUMNS_PER_BEDFORM:
+                out.append(f"the bedform wavelength {bf.wavelength:.3g} m spans only {per_col:.2g} columns: "
+                           f"the dynamic head is under-resolved; use dx of "
+                           f"{bf.wavelength / MIN_COLUMNS_PER_BEDFORM:.2g} m or less")
+            per_row = bf.wavelength / float(dz_rows[grid.top_row].max())
+            if per_row < MIN_COLUMNS_PER_BEDFORM:
+                out.append(f"the bedform wavelength {bf.wavelength:.3g} m spans only {per_row:.2g} rows at the bed: "
+                           f"the pumped flow below it is under-resolved; use dz of "
+                           f"{bf.wavelength / MIN_COLUMNS_PER_BEDFORM:.2g} m or less near the bed")
+    return out

@@ -233,6 +233,11 @@ def _seepage_weights(section: Section, ops: Operators, terms: list[Term], source
     return (w[:, top.place] if top is not None else np.zeros((ops.n, 0))), top
 
 
+def _wet_width(section: Section, top: Term) -> np.ndarray:
+    """Wetted width of each stream-top entry (the bed flux is the flow over it)."""
+    return section.grid.dx[top.place] if top.width is None else top.width
+
+
 def predict(section: Section, ops: Operators, u: np.ndarray, terms: list[Term], t: float,
             source: str = "observations") -> np.ndarray:
     """Simulated value of every observation for relative heads ``u`` and the terms at time ``t``."""
@@ -247,7 +252,7 @@ def predict(section: Section, ops: Operators, u: np.ndarray, terms: list[Term], 
     seep = kind == "seepage"
     if seep.any():
         w, top = _seepage_weights(section, ops, terms, source)
-        q = -top.inflow(u) / section.grid.dx[top.place]
+        q = -top.inflow(u) / _wet_width(section, top)
         out[seep] = (w @ q)[seep]
     return out
 
@@ -255,7 +260,7 @@ def predict(section: Section, ops: Operators, u: np.ndarray, terms: list[Term], 
 def linear_parts(section: Section, ops: Operators, u: np.ndarray, terms: list[Term],
                  source: str = "observations") -> tuple[sp.csr_matrix, np.ndarray, np.ndarray, Term | None]:
     """The operator as ``d(value)/d(h)`` (sparse, per unknown), the seepage weights per
-    stream-top entry, and the factor ``(h - H) / dx`` of each stream-top entry (for derivatives of
+    stream-top entry, and the factor ``(h - H) / w`` (w the wetted width) of each stream-top entry (for derivatives of
     the bed conductance)."""
     kind = ops.kind
     scale = np.ones(ops.n)
@@ -267,8 +272,8 @@ def linear_parts(section: Section, ops: Operators, u: np.ndarray, terms: list[Te
         return rows.tocsr(), np.zeros((ops.n, 0)), np.zeros(0), stream_top(terms)
     w, top = _seepage_weights(section, ops, terms, source)
     w = np.where(seep[:, None], w, 0.0)
-    dx = section.grid.dx[top.place]
-    # q = g (u - U) / dx with U = r / g: d q / d u_cell = g / dx
+    dx = _wet_width(section, top)
+    # q = g (u - U) / w with U = r / g and w the wetted width: d q / d u_cell = g / w
     qrows = sp.csr_matrix((w * (top.g / dx)[None, :]))
     qcells = sp.csr_matrix((np.ones(top.cells.size), (np.arange(top.cells.size), top.cells)),
                            shape=(top.cells.size, section.n))

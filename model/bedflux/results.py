@@ -9,6 +9,7 @@ import xarray as xr
 
 from . import __version__
 from .fluxes import BUDGET_LINES, Fluxes
+from .grid import resolution_warnings
 from .solve.section import Section
 
 #: name -> (units, location, long name). Every output variable carries these attributes.
@@ -18,6 +19,7 @@ VARIABLES: dict[str, tuple[str, str, str]] = {
     "qz": ("m s-1", "cell", "vertical Darcy flux, positive upward"),
     "bed_flux": ("m s-1", "column", "flux through the submerged bed, positive upward (gaining); NaN where dry"),
     "top_flux": ("m s-1", "column", "flux through the top face of each column, positive upward"),
+    "wetted_fraction": ("1", "column", "share of each column's top face under the stream"),
     "exchange": ("m2 s-1", "section", "net exchange with the stream per metre of channel, positive when gaining"),
     "stage": ("m", "section", "stream stage (NaN without a stream)"),
     "ground": ("m", "column", "ground elevation at the column centre"),
@@ -56,6 +58,8 @@ def build_dataset(section: Section, states: Sequence[Fluxes], stages: Sequence[f
         "qz": (lead + ("z", "x"), stack(lambda s: s.qz)),
         "bed_flux": (lead + ("x",), stack(lambda s: s.bed_flux)),
         "top_flux": (lead + ("x",), stack(lambda s: s.top_flux)),
+        "wetted_fraction": (lead + ("x",), section.wetted_fraction(0.0) if steady
+                            else np.stack([section.wetted_fraction(t) for t in times])),
         "exchange": (lead, stack(lambda s: np.float64(s.exchange))),
         "stage": (lead, np.array([np.nan if v is None else v for v in stages])[0] if steady
                   else np.array([np.nan if v is None else v for v in stages])),
@@ -91,6 +95,7 @@ def build_dataset(section: Section, states: Sequence[Fluxes], stages: Sequence[f
         "stage_slope": float(section.scenario.stream.slope) if section.scenario.stream is not None else 0.0,
         "flux_boundaries": ",".join(side for side in ("left", "right", "bottom")
                                     if getattr(section.scenario, side).kind == "flux"),
+        "resolution_warnings": "\n".join(resolution_warnings(section.scenario, g)),
         **attrs,
     })
     if section.scenario.grid.runs == "along":

@@ -191,8 +191,11 @@ def classify(scenario: Scenario, path: str) -> _Kind:
     return _Kind("numeric")
 
 
-def _in_zone(section: Section, pos: np.ndarray, zone: int) -> np.ndarray:
-    return section.materials.zone.ravel()[pos] == zone
+def _share(section: Section, prop: str, zone: int, value: float) -> np.ndarray:
+    """``(dK/dp) (p/K)`` of every cell (flat): 1 inside the zone, 0 outside, and the share the
+    zone has in the averaged conductivity of a cell that straddles its boundary."""
+    m = section.materials
+    return (m.derivative(prop, zone) * value / getattr(m, prop)).ravel()
 
 
 def _top_pos(section: Section, place: np.ndarray) -> np.ndarray:
@@ -218,7 +221,8 @@ def residual_derivative(section: Section, terms: list[Term], u: np.ndarray, kind
         else:
             res = (g.thickness / (2.0 * m.kv)).ravel()
         r_lo, r_hi = res[f.lo_pos], res[f.hi_pos]
-        share = (r_lo * _in_zone(section, f.lo_pos, kind.zone) + r_hi * _in_zone(section, f.hi_pos, kind.zone))
+        rho = _share(section, "kh" if horizontal else "kv", kind.zone, value)
+        share = r_lo * rho[f.lo_pos] + r_hi * rho[f.hi_pos]
         dC = f.conductance * share / (r_lo + r_hi) / value
         dF = dC * (u[f.lo] - u[f.hi])
         dR -= np.bincount(f.lo, weights=dF, minlength=n)
@@ -228,16 +232,14 @@ def residual_derivative(section: Section, terms: list[Term], u: np.ndarray, kind
                 continue
             if horizontal and t.face in ("left", "right"):
                 col = 0 if t.face == "left" else g.nx - 1
-                inside = _in_zone(section, t.place * g.nx + col, kind.zone)
-                dgt = np.where(inside, t.g / value, 0.0)
+                dgt = t.g * rho[t.place * g.nx + col] / value
             elif not horizontal and t.face == "bottom":
-                inside = _in_zone(section, (g.nz - 1) * g.nx + t.place, kind.zone)
-                dgt = np.where(inside, t.g / value, 0.0)
+                dgt = t.g * rho[(g.nz - 1) * g.nx + t.place] / value
             elif not horizontal and t.face == "top":
-                inside = _in_zone(section, _top_pos(section, t.place), kind.zone)
                 half = section.top_half[t.place]
-                frac = half * t.g / g.dx[t.place]  # half / (half + 1/leakance)
-                dgt = np.where(inside, t.g * frac / value, 0.0)
+                width = g.dx[t.place] if t.width is None else t.width
+                frac = half * t.g / width  # half / (half + 1/leakance)
+                dgt = t.g * frac * rho[_top_pos(section, t.place)] / value
                 if t.kind == "stream":
                     dg_top = dgt
             else:
@@ -255,7 +257,7 @@ def residual_derivative(section: Section, terms: list[Term], u: np.ndarray, kind
     if kind.name == "recharge":
         for t in terms:
             if t.kind == "recharge":
-                dR += np.bincount(t.cells, weights=g.dx[t.place], minlength=n)
+                dR += np.bincount(t.cells, weights=g.dx[t.place] if t.width is None else t.width, minlength=n)
         return dR, None
     if kind.name == "riparian":
         for t in terms:
@@ -461,7 +463,7 @@ class Forward:
         return d, J
 
 
-def _lag_derivative(section: Section, factor: float, u_lag: np.ndarray) -> np.ndarray:
+def _lag_derivative(section: Section, factor: float, t: float, u_lag: np.ndarray) -> np.ndarray:
     """``dR/du_lag`` per unknown: ET of a daily cycle (mean ``factor`` over the step) taken at the
     heads of the step's start."""
     out = np.zeros(section.n)
@@ -469,7 +471,7 @@ def _lag_derivative(section: Section, factor: float, u_lag: np.ndarray) -> np.nd
         return out
     depth = section.grid.ground[section.et_cols] - (u_lag[section.et_cells] + section.h_ref)
     linear = section.et_cycle & (depth > 0.0) & (depth < section.et_ext)
-    coef = np.where(linear, -factor * section.et_rate / section.et_ext, 0.0)
+    coef = np.where(linear, -factor * section.et_rate_at(t) / section.et_ext, 0.0)
     return np.bincount(section.et_cells, weights=coef, minlength=section.n)
 
 
@@ -488,7 +490,7 @@ def _step_sensitivity(section: Section, info, s0: np.ndarray, kinds: list[_Kind]
     clipped = info.u0_wt != info.u0  # water table held at the ground at the start: fixed there
     s0_wt = np.where(clipped[:, None], 0.0, s0)
     rhs = (info.elastic / dt)[:, None] * s0 + (info.water_table / dt)[:, None] * s0_wt
-    rhs += _lag_derivative(section, info.et_factor, info.u0)[:, None] * s0
+    rhs += _lag_derivative(section, info.et_factor, info.t1, info.u0)[:, None] * s0
     if info.filled.any():
         top = section.top_cells[info.filled]
         sy = section.materials.sy[g.top_row[info.filled], np.nonzero(info.filled)[0]]
@@ -507,19 +509,19 @@ def _step_sensitivity(section: Section, info, s0: np.ndarray, kinds: list[_Kind]
         if th != 1.0:
             col += (1.0 - th) * residual_derivative(section, info.terms0, info.u0, k, v)[0]
         if k.name == "zone-ss":
-            inside = section.materials.zone[g.active] == k.zone
-            col -= np.where(inside, section.cell_volume, 0.0) * (info.u1 - info.u0) / dt
+            dss = section.materials.derivative("ss", k.zone)[g.active]
+            col -= dss * section.cell_volume * (info.u1 - info.u0) / dt
         elif k.name == "zone-sy":
-            top_in = section.materials.zone[g.top_row, np.arange(g.nx)] == k.zone
+            dsy = section.materials.derivative("sy", k.zone)[g.top_row, np.arange(g.nx)]
             dS = np.zeros(section.n)
             wt = info.water_table
-            sel = top_in & (wt[section.top_cells] > 0)
-            dS[section.top_cells[sel]] = g.dx[sel]
+            sel = (dsy > 0) & (wt[section.top_cells] > 0)
+            dS[section.top_cells[sel]] = g.dx[sel] * dsy[sel]
             col -= dS * (info.u1 - info.u0_wt) / dt
             if info.filled.any():
-                fz = info.filled & top_in
+                fz = info.filled & (dsy > 0)
                 if fz.any():
                     cells = section.top_cells[fz]
-                    col[cells] -= info.fill[cells] / v
+                    col[cells] -= info.fill[cells] * dsy[fz] / section.top_sy[fz]
         rhs[:, j] += col
     return info.factor.solve(rhs)

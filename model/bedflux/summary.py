@@ -29,7 +29,7 @@ def summarise(ds: xr.Dataset) -> dict:
     not exist is None (``null`` in JSON), never NaN.
     """
     last = ds.isel(time=-1) if "time" in ds.dims else ds
-    dx = np.diff(ds["x_edge"].values)
+    dx = np.diff(ds["x_edge"].values) * last["wetted_fraction"].values  # wetted length per column
     q = last["bed_flux"].values
     wet = np.isfinite(q)
     closure, closure_note = closure_summary(ds)
@@ -56,6 +56,7 @@ def summarise(ds: xr.Dataset) -> dict:
         "budget_out_m2_per_s": {k: float(v) for k, v in zip(BUDGET_LINES, last["budget_out"].values)},
         "bed": flux_extremes(ds),
         "warnings": [],
+        "resolution_warnings": [w for w in ds.attrs.get("resolution_warnings", "").split("\n") if w],
     }
     if "time" in ds.dims:
         ex = ds["exchange"].values
@@ -165,6 +166,7 @@ def summary_text(s: dict, events: str = "") -> str:
     lines += flood_lines(s)
     lines.append(f"water budget closure: {closure_phrase(s['budget_closure'], s['budget_closure_note'])}")
     lines += [f"WARNING: {w}" for w in s.get("warnings", [])]
+    lines += [f"grid warning: {w}" for w in s.get("resolution_warnings", [])]
     return "\n".join(lines) + "\n"
 
 

@@ -5,8 +5,11 @@ Flow between two cells a and b per unit width of section is ``C (h_a - h_b)`` wi
     horizontal: C = A / (dx_a / (2 kh_a) + dx_b / (2 kh_b)),   A = overlapping cell height
     vertical:   C = dx / (dz_a / (2 kv_a) + dz_b / (2 kv_b))
 
-(harmonic mean of the half-cell conductances). The matrix ``L`` has ``sum C`` on the diagonal and
-``-C`` off it: symmetric, with zero row sums; boundary terms make it positive definite.
+(harmonic mean of the half-cell conductances). Horizontal faces join cells whose heights
+overlap: side-by-side cells of one row, and a top cell that reaches above its row (extended up to
+the ground) with the neighbour's cell in the row above over the height they share. The matrix
+``L`` has ``sum C`` on the diagonal and ``-C`` off it: symmetric, with zero row sums; boundary
+terms make it positive definite.
 """
 from __future__ import annotations
 
@@ -81,6 +84,48 @@ def horizontal_faces(grid: Grid, mat: Materials, periodic: bool, positions: np.n
     return Faces(idx[a], idx[b], c, area, positions)
 
 
+def skew_faces(grid: Grid, mat: Materials, periodic: bool, positions: np.ndarray) -> Faces:
+    """Horizontal faces between a top cell extended above its row and the neighbouring column's
+    cell in the row above, over the height they share (``lo`` is the left cell)."""
+    nx = grid.nx
+    left = np.arange(nx - 1)
+    if periodic and nx > 1:
+        left = np.append(left, nx - 1)
+    right = (left + 1) % nx
+    t = grid.top_row
+    ze = grid.z_edges
+    idx = grid.index()
+    lo_cells, hi_cells, areas, cols = [], [], [], []
+    # the extended top cell in column a, the cell of the row above it in column b (b's top is higher)
+    for a, b, a_is_left in ((left, right, True), (right, left, False)):
+        ta, tb = t[a], t[b]
+        sel = (ta > tb) & (grid.ground[a] > ze[ta])
+        a, b, ta, tb = a[sel], b[sel], ta[sel], tb[sel]
+        row = ta - 1
+        top_b = np.where(row == tb, grid.ground[b], ze[row])
+        area = np.minimum(grid.ground[a], top_b) - ze[ta]
+        keep = area > 0
+        a, b, ta, row, area = a[keep], b[keep], ta[keep], row[keep], area[keep]
+        ca, cb = idx[ta, a], idx[row, b]
+        lo_cells.append(ca if a_is_left else cb)
+        hi_cells.append(cb if a_is_left else ca)
+        areas.append(area)
+        cols.append(np.stack([a, b, ta, row]))
+    lo = np.concatenate(lo_cells).astype(np.int32)
+    hi = np.concatenate(hi_cells).astype(np.int32)
+    area = np.concatenate(areas)
+    a, b, ta, row = np.concatenate(cols, axis=1)
+    c = area / (grid.dx[a] / (2.0 * mat.kh[ta, a]) + grid.dx[b] / (2.0 * mat.kh[row, b]))
+    return Faces(lo, hi, c, area, positions)
+
+
+def joined(first: Faces, second: Faces) -> Faces:
+    """One set of faces from two (sharing the unknown positions)."""
+    return Faces(np.concatenate([first.lo, second.lo]), np.concatenate([first.hi, second.hi]),
+                 np.concatenate([first.conductance, second.conductance]),
+                 np.concatenate([first.area, second.area]), first.positions)
+
+
 def vertical_faces(grid: Grid, mat: Materials, positions: np.ndarray) -> Faces:
     """Faces between a cell and the one above it (``lo`` is the lower cell)."""
     upper, lower = _pairs(grid.active, 1, 0)
@@ -95,12 +140,13 @@ def vertical_faces(grid: Grid, mat: Materials, positions: np.ndarray) -> Faces:
 def conductance_matrix(n: int, faces: list[Faces]) -> sp.csr_matrix:
     """The symmetric matrix ``L`` (diagonal ``sum C``, off-diagonal ``-C``) of ``n`` unknowns.
 
-    Built directly in CSR form without sorting: each row holds, in this order, the cell above,
+    ``faces`` is ``[horizontal, vertical]`` or ``[horizontal, vertical, skew]``. The first two are
+    built directly in CSR form without sorting: each row holds, in this order, the cell above,
     the cell to the left, itself, the cell to the right and the cell below (column order, since
     unknowns are numbered row by row from the top); wrap-around faces of periodic sides break the
-    order and are sorted afterwards.
+    order and are sorted afterwards. Skew faces (:func:`skew_faces`) are added as a second matrix.
     """
-    h, v = faces
+    h, v = faces[:2]
     has_up = np.zeros(n, dtype=np.int32)
     has_up[v.lo] = 1
     has_left = np.zeros(n, dtype=np.int32)
@@ -136,6 +182,13 @@ def conductance_matrix(n: int, faces: list[Faces]) -> sp.csr_matrix:
     wraps = bool(np.any(h.lo > h.hi))
     A.has_sorted_indices = not wraps
     if wraps:
+        A.sort_indices()
+    if len(faces) > 2 and faces[2].lo.size:
+        k = faces[2]
+        rows = np.concatenate([k.lo, k.hi, k.lo, k.hi])
+        cols = np.concatenate([k.hi, k.lo, k.lo, k.hi])
+        vals = np.concatenate([-k.conductance, -k.conductance, k.conductance, k.conductance])
+        A = (A + sp.csr_matrix((vals, (rows, cols)), shape=(n, n))).tocsr()
         A.sort_indices()
     return A
 

@@ -200,7 +200,7 @@ def run_transient(section: Section, progress: Callable[[float], None] | None = N
                 storage_in, budget = _combine(pieces)
                 steps += 1
                 check_closure(*budget, limit, f"in step {steps} (t = {t_start:g} s to {t:g} s)")
-                key = (section.submerged(t).tobytes(), state.seepage.tobytes(), state.et_mode.tobytes())
+                key = (section.wetted_fraction(t).tobytes(), state.seepage.tobytes(), state.et_mode.tobytes())
                 if theta != 1.0 and last_key is not None and key != last_key:
                     damp = RANNACHER_STEPS
                 last_key = key
@@ -289,7 +289,7 @@ def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: f
         S = S_el + S_wt
         base = S_el / dt * u0 + S_wt / dt * u0_wt - fill - explicit0
         terms1 = section.terms(t1, state, steady=False, u_lag=u0, et_window=window)
-        factor = cache.get(_state_key(wet, state, dt, theta), terms1, S / dt, theta)
+        factor = cache.get(_state_key(section.wetted_fraction(t1), state, dt, theta), terms1, S / dt, theta)
         u1 = factor.solve(base + theta * section.rhs(terms1))
         new = section.update_active_set(u1, terms1, t1, state)
         if new.same(state):
