@@ -22,11 +22,17 @@ import numpy as np
 
 
 def posterior(C0: np.ndarray, J: np.ndarray, sigma: np.ndarray) -> np.ndarray:
-    """Posterior covariance of the parameters after data with sensitivities ``J`` (rows)."""
+    """Posterior covariance of the parameters after data with sensitivities ``J`` (rows).
+
+    In the gain form ``C0 - C0 J^T (J C0 J^T + R)^-1 J C0`` (R = diag(sigma^2)), which stays
+    accurate when the data are far more informative than the prior (no inverse of ``C0``).
+    """
     if J.size == 0:
         return C0.copy()
-    info = np.linalg.inv(C0) + (J / sigma[:, None] ** 2).T @ J
-    return np.linalg.inv(info)
+    CJt = C0 @ J.T
+    S = J @ CJt + np.diag(sigma**2)
+    C = C0 - CJt @ np.linalg.solve(S, CJt.T)
+    return 0.5 * (C + C.T)
 
 
 def add_one(C: np.ndarray, j: np.ndarray, sigma: float) -> np.ndarray:
