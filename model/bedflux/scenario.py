@@ -374,7 +374,7 @@ def _series_from(t: dict, key: str, where: str, base_dir: Path) -> Series:
     name = checks.text(t, key, where)
     path = base_dir / name
     if not path.exists():
-        raise InputError(f"the file {name!r} was not found (looked for {path}; the path is relative to the "
+        raise InputError(f"the file {name!r} was not found (looked for {path.absolute()}; the path is relative to the "
                          "scenario file's folder)", where=f"{where} {key}")
     try:
         return read_series(path, "length", None)

@@ -7,7 +7,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from ..atomic import staged_directory
+from ..outfolder import output_folder
 from ..errors import InputError
 from .. import plots
 from .consistency import compare_methods
@@ -131,7 +131,7 @@ def run_field(sheets_dir: str | Path, outdir: str | Path, *, quiet: bool = False
 
     summary = _summary(folder, sheets, rejected, flags, meters, piezos, slug, perm, observations, bed,
                        map_note)
-    with staged_directory(outdir) as stage:
+    with output_folder(outdir, "field") as stage:
         if seep:
             _write_csv(seep.readings, stage / "seepage_readings.csv")
             _write_csv(seep.meters, stage / "seepage_meters.csv")
