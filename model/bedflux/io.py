@@ -88,7 +88,7 @@ def copy_inputs(outdir: Path, files: list[Path]) -> dict[str, dict[str, str]]:
         Stored name (relative to ``inputs/``) -> ``{"sha256": ..., "path": original path}``.
     """
     inputs = Path(outdir) / "inputs"
-    inputs.mkdir(exist_ok=True)
+    inputs.mkdir(parents=True, exist_ok=True)
     base = Path(files[0]).parent.absolute() if files else Path(".")
     stored: dict[str, dict[str, str]] = {}
     seen: dict[str, str] = {}

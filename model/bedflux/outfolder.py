@@ -241,8 +241,13 @@ def _commit(target: Path, stage: Path, verb: str) -> None:
                 os.replace(new / rel, dst)
                 moved_new.append(rel)
             os.replace(stage / name, target / name)  # the commit point
-        except BaseException:
+        except BaseException as err:
             _undo(target, stage, moved_new, moved_old, made)
+            if isinstance(err, OSError) and err.errno not in _NO_SPACE:
+                where = f" ({err.filename})" if err.filename else ""
+                raise InputError(f"could not replace the earlier outputs{where}: {err.strerror}; the earlier "
+                                 "outputs in the folder are unchanged; choose another output folder (-o)",
+                                 str(target)) from None
             raise
     _remove_empty_parents(target, files_old)
 
