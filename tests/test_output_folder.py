@@ -236,7 +236,7 @@ def test_kill_during_the_commit_never_mixes_two_runs(tmp_path):
     except InputError:
         runs = []
     for run in runs:
-        for path in run.figures + run.inputs + list(run.tables.values()) + run.files:
+        for path in run.figures + run.inputs + list(run.tables.values()) + [run.folder / "summary.json"]:
             assert before.get(path.relative_to(out).as_posix()) == path.read_bytes(), path.name
     # the next run into the folder finishes the job: one whole output, no debris
     assert main(["run", str(wave), "-o", str(out), "-q"]) == 0
@@ -402,6 +402,7 @@ def test_inputs_outside_the_scenario_folder_get_numbered_names(tmp_path):
     a = write(tmp_path / "case" / "h.csv", "1\n")
     b = write(tmp_path / "shared" / "h.csv", "2\n")
     c = write(tmp_path / "other" / "H.csv", "3\n")
+    (tmp_path / "out").mkdir()
     stored = copy_inputs(tmp_path / "out", [scen, a, b, c, a])
     assert list(stored) == ["s.toml", "h.csv", "h-2.csv", "H-3.csv"]
     assert [(tmp_path / "out" / "inputs" / n).read_text() for n in stored] == ["title = 'x'\n", "1\n", "2\n", "3\n"]

@@ -89,21 +89,20 @@ def copy_inputs(outdir: Path, files: list[Path]) -> dict[str, dict[str, str]]:
     """
     inputs = Path(outdir) / "inputs"
     inputs.mkdir(parents=True, exist_ok=True)
-    base = Path(files[0]).parent.absolute() if files else Path(".")
     stored: dict[str, dict[str, str]] = {}
-    seen: dict[str, str] = {}
-    for f in files:
+    seen: set[Path] = set()
+    for i, f in enumerate(files):
         original = Path(os.path.abspath(f))
-        if str(original) in seen:
+        if original in seen:
             continue
-        rel = original.relative_to(base).as_posix() if original.is_relative_to(base) and f != files[0] \
-            else original.name
+        seen.add(original)
+        base = Path(os.path.abspath(files[0])).parent
+        rel = original.relative_to(base).as_posix() if i > 0 and original.is_relative_to(base) else original.name
         name = _unique(rel, {k.lower() for k in stored})
         dest = inputs / name
         dest.parent.mkdir(parents=True, exist_ok=True)
         shutil.copyfile(f, dest)
         stored[name] = {"sha256": sha256(dest), "path": str(original)}
-        seen[str(original)] = name
     return stored
 
 
