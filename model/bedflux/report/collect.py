@@ -150,6 +150,7 @@ class _Trusted:
     def __init__(self, folder: Path, kind: str, root: Path, skipped: list[tuple[Path, str]]):
         self.folder, self.root, self.skipped = folder, root, skipped
         self.manifest = manifest.read(folder, kind)
+        self.others = {f for v in manifest.VERBS if v != kind for f in manifest.listed(folder, v)}
 
     def __call__(self, rel: str) -> bool:
         """True when ``folder/rel`` may be read; a present file that may not is listed."""
@@ -174,7 +175,8 @@ class _Trusted:
                 for n in dirs + names:
                     p = Path(dirpath) / n
                     rel = p.relative_to(self.folder).as_posix()
-                    if rel in self.manifest["files"] or (p.is_dir() and not p.is_symlink()):
+                    known = rel in self.manifest["files"] or rel in self.others
+                    if known or (p.is_dir() and not p.is_symlink()):
                         continue
                     if stat.S_ISLNK(p.lstat().st_mode):
                         target = Path(os.path.realpath(p))
