@@ -39,7 +39,7 @@ except ImportError:  # pragma: no cover - not POSIX: no lock
 LOCK_NAME = ".bedflux-lock"
 STAGE_PREFIX = ".bedflux-stage-"
 #: Room kept for figures, tables and copies beside the estimated result (bytes).
-FIGURE_ALLOWANCE = 5 * 2**20
+FIGURE_ALLOWANCE = 1_000_000
 _NO_SPACE = (errno.ENOSPC, errno.EDQUOT)
 
 

@@ -41,7 +41,8 @@ def result_size(scenario: Scenario) -> tuple[int, str]:
         times = math.floor(scenario.time.end / scenario.time.output_every + 1e-9) + 2
     n_vars = len(TIME_CELL_VARIABLES)
     size = 8 * cells * (times * n_vars + len(STATIC_CELL_VARIABLES))
-    return size, f"{cells:,} cells x {times:,} output times x {n_vars} variables x 8 bytes"
+    plural = "s" if times != 1 else ""
+    return size, f"{cells:,} cells x {times:,} output time{plural} x {n_vars} variables x 8 bytes"
 
 
 def run_scenario(path: Path, outdir: Path, unit: str = "m/d", quiet: bool = False) -> dict:
