@@ -1,11 +1,11 @@
 """Write output files atomically: into a temporary file beside the target, then rename.
 
-A reader never sees a half-written file, and a run that fails leaves nothing behind.
+A reader never sees a half-written file, and a run that fails leaves nothing behind. Whole
+output folders are staged and committed by :mod:`bedflux.outfolder`.
 """
 from __future__ import annotations
 
 import os
-import shutil
 import tempfile
 from contextlib import contextmanager
 from pathlib import Path
@@ -42,29 +42,3 @@ def write_with(target: str | os.PathLike, writer: Callable[[Path], None]) -> Non
     """Call ``writer(tmp_path)`` and move the result onto ``target`` atomically."""
     with atomic_path(target) as tmp:
         writer(tmp)
-
-
-@contextmanager
-def staged_directory(outdir: str | os.PathLike) -> Iterator[Path]:
-    """Yield a staging folder whose files are moved into ``outdir`` only when the block succeeds.
-
-    Files already in ``outdir`` that the block does not write are left alone; on an error
-    nothing in ``outdir`` changes.
-    """
-    outdir = Path(outdir)
-    parent = outdir.resolve().parent
-    parent.mkdir(parents=True, exist_ok=True)
-    stage = Path(tempfile.mkdtemp(prefix=f".{outdir.name}.stage.", dir=parent))
-    try:
-        yield stage
-        outdir.mkdir(parents=True, exist_ok=True)
-        for item in sorted(stage.rglob("*")):
-            rel = item.relative_to(stage)
-            dest = outdir / rel
-            if item.is_dir():
-                dest.mkdir(parents=True, exist_ok=True)
-            else:
-                dest.parent.mkdir(parents=True, exist_ok=True)
-                os.replace(item, dest)
-    finally:
-        shutil.rmtree(stage, ignore_errors=True)

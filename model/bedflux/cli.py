@@ -1,12 +1,16 @@
 """The ``bedflux`` command line.
 
 Exit status: 0 on success, 2 for bad input (a message naming the file, key or row and what is
-allowed), 1 when a numerical method fails, 130 when interrupted.
+allowed) or an output folder that cannot take the outputs, 1 when a numerical method fails, 130
+when interrupted by Ctrl-C and 143 when stopped by SIGTERM (what schedulers and container stops
+send). Both signals end a transient run the same way: its outputs so far are kept, marked partial.
 """
 from __future__ import annotations
 
 import argparse
+import signal
 import sys
+import threading
 from importlib import resources
 from pathlib import Path
 from typing import Sequence
@@ -22,6 +26,24 @@ def example_path() -> Path:
     return Path(str(resources.files("bedflux") / "examples" / EXAMPLE))
 
 
+class Terminated(KeyboardInterrupt):
+    """SIGTERM, raised where Ctrl-C would raise KeyboardInterrupt and handled the same way."""
+
+
+#: SIGTERMs received during the current command.
+_terminations: list[int] = []
+
+
+def _on_sigterm(signum, frame) -> None:
+    _terminations.append(signum)
+    raise Terminated()
+
+
+def _interrupt_status() -> int:
+    """128 + the signal number: 130 for Ctrl-C, 143 for SIGTERM."""
+    return 128 + (signal.SIGTERM if _terminations else signal.SIGINT)
+
+
 def _cmd_run(args: argparse.Namespace) -> int:
     from .run import run_scenario
 
@@ -29,8 +51,11 @@ def _cmd_run(args: argparse.Namespace) -> int:
     summary = run_scenario(scenario, Path(args.output), unit=args.units, quiet=args.quiet)
     if not args.quiet:
         print(summary["text"], end="")
-        print(f"outputs written to {args.output}/")
-    return 130 if summary["partial"] else 0
+        print(f"{'partial ' if summary['partial'] else ''}outputs written to {args.output}/")
+    if summary["partial"]:
+        print(f"bedflux run: {summary['partial']}", file=sys.stderr)
+        return _interrupt_status()
+    return 0
 
 
 def _cmd_field(args: argparse.Namespace) -> int:
@@ -109,6 +134,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     if hasattr(args, "output") and args.output is not None and not str(args.output).strip():
         print(f"bedflux {args.verb}: error: -o needs a folder name; got an empty one", file=sys.stderr)
         return 2
+    in_main = threading.current_thread() is threading.main_thread()
+    _terminations.clear()
+    before = signal.signal(signal.SIGTERM, _on_sigterm) if in_main else None
     try:
         return args.func(args)
     except InputError as err:
@@ -122,8 +150,11 @@ def main(argv: Sequence[str] | None = None) -> int:
         print(f"bedflux {args.verb}: the solver failed: {err}", file=sys.stderr)
         return 1
     except KeyboardInterrupt:
-        print(f"bedflux {args.verb}: interrupted", file=sys.stderr)
-        return 130
+        print(f"bedflux {args.verb}: {'stopped by SIGTERM' if _terminations else 'interrupted'}", file=sys.stderr)
+        return _interrupt_status()
+    finally:
+        if in_main:
+            signal.signal(signal.SIGTERM, before)
 
 
 if __name__ == "__main__":

@@ -38,6 +38,7 @@ from pathlib import Path
 import numpy as np
 
 from .errors import InputError
+from .inputfile import regular_file
 from .units import unit_factor
 
 _HEADER = re.compile(r"^\s*([^\[\]]+?)\s*\[\s*([^\]]*)\s*\]\s*$")
@@ -229,10 +230,7 @@ def read_series(path: str | Path, dimension: str = "length", value_name: str | N
     """
     path = Path(path)
     source = str(path)
-    if path.is_dir():
-        raise InputError("is a folder; expected a CSV file", source=source)
-    if not path.is_file():
-        raise InputError("file not found", source=source)
+    regular_file(path, "CSV file")
     try:
         with path.open(newline="", encoding="utf-8-sig") as fh:
             rows = [r for r in csv.reader(fh) if any(c.strip() for c in r)]

@@ -123,6 +123,9 @@ def build_grid(scenario: Scenario) -> Grid:
     """
     spec = scenario.grid
     width = spec.x1 - spec.x0
+    if width / spec.dx > 2e7:  # checked before any array is allocated (every column has a row)
+        raise InputError(f"dx = {spec.dx:g} m over {width:g} m gives {width / spec.dx:.3g} columns, more than "
+                         "2e7 cells; use a coarser dx", source=scenario.source, where="[grid]")
     nx = max(1, int(round(width / spec.dx)))
     if nx * spec.dx < width * (1 - 1e-9) - 1e-12 or nx * spec.dx > width * (1 + 1e-9) + 1e-12:
         nx = int(np.ceil(width / spec.dx))

@@ -1,21 +1,33 @@
 """Writing and reading run outputs: result.nc, summary.txt, summary.json."""
 from __future__ import annotations
 
-import hashlib
+import os
 import shutil
-from pathlib import Path
+from pathlib import Path, PurePosixPath
 
 import xarray as xr
 
 from .atomic import write_text, write_with
+from .manifest import safe_relative, sha256
 from .scenario import Scenario
 from .summary import build_summary, summary_json
 
 
+#: Attributes that measure the computer rather than the result; kept out of result.nc so that
+#: two identical runs write identical files.
+TIMING_ATTRS = ("factorization_seconds",)
+
+
 def write_result(ds: xr.Dataset, path: str | Path) -> Path:
-    """Write the Dataset as netCDF (classic format, readable by ``xarray.open_dataset``)."""
+    """Write the Dataset as netCDF (classic format, readable by ``xarray.open_dataset``).
+
+    The file holds no time stamp and no timing attribute (:data:`TIMING_ATTRS`): two runs of
+    the same scenario with the same bedflux write byte-identical files.
+    """
     path = Path(path)
-    write_with(path, lambda tmp: ds.to_netcdf(tmp, engine="scipy"))
+    out = ds.copy(deep=False)
+    out.attrs = {k: v for k, v in ds.attrs.items() if k not in TIMING_ATTRS}
+    write_with(path, lambda tmp: out.to_netcdf(tmp, engine="scipy"))
     return path
 
 
@@ -52,21 +64,45 @@ def input_files(scenario: Scenario) -> list[Path]:
     return [Path(scenario.source)] + [base / n for n in referenced_files(scenario)]
 
 
-def sha256(path: Path) -> str:
-    """Hex SHA-256 of a file, read in blocks."""
-    h = hashlib.sha256()
-    with open(path, "rb") as f:
-        for block in iter(lambda: f.read(1 << 20), b""):
-            h.update(block)
-    return h.hexdigest()
+def copy_inputs(outdir: Path, files: list[Path]) -> dict[str, dict[str, str]]:
+    """Copy input files into ``outdir/inputs``, each under its own name.
 
+    The first file (the scenario, fit or plan file) is stored under its name; the files it
+    refers to under their path relative to its folder (``a/h.csv`` and ``b/h.csv`` stay apart);
+    a file outside that folder, or a name already taken, gets a numbered name (``h-2.csv``).
+    The same file named twice is stored once.
 
-def copy_inputs(outdir: Path, files: list[Path]) -> dict[str, str]:
-    """Copy input files into ``outdir/inputs``; return their SHA-256 by file name."""
+    Returns
+    -------
+    dict
+        Stored name (relative to ``inputs/``) -> ``{"sha256": ..., "path": original path}``.
+    """
     inputs = Path(outdir) / "inputs"
-    inputs.mkdir(exist_ok=True)
-    digests = {}
-    for f in files:
-        shutil.copy2(f, inputs / f.name)
-        digests[f.name] = sha256(f)
-    return digests
+    inputs.mkdir(parents=True, exist_ok=True)
+    stored: dict[str, dict[str, str]] = {}
+    seen: set[Path] = set()
+    for i, f in enumerate(files):
+        original = Path(os.path.abspath(f))
+        if original in seen:
+            continue
+        seen.add(original)
+        base = Path(os.path.abspath(files[0])).parent
+        rel = original.relative_to(base).as_posix() if i > 0 and original.is_relative_to(base) else original.name
+        name = _unique(rel, {k.lower() for k in stored})
+        dest = inputs / name
+        dest.parent.mkdir(parents=True, exist_ok=True)
+        shutil.copyfile(f, dest)
+        stored[name] = {"sha256": sha256(dest), "path": str(original)}
+    return stored
+
+
+def _unique(name: str, taken: set[str]) -> str:
+    """``name``, or ``stem-2.suffix``, ``stem-3.suffix``... when taken (compared without case)."""
+    if not safe_relative(name):
+        name = PurePosixPath(name).name.lstrip(".") or "input"
+    p = PurePosixPath(name)
+    candidate, i = name, 1
+    while candidate.lower() in taken:
+        i += 1
+        candidate = str(p.with_name(f"{p.stem}-{i}{p.suffix}"))
+    return candidate

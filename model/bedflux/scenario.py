@@ -7,7 +7,6 @@ from __future__ import annotations
 
 import copy
 import math
-import tomllib
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any, Mapping
@@ -18,6 +17,7 @@ from . import checks
 from .elliott_brooks import dynamic_head_amplitude
 from .errors import InputError
 from .forcing import Constant, FloodWave, Pulse, Series, Signal, Wave, parse_datetime, read_series
+from .inputfile import read_toml
 
 #: Plausibility limits (SI). Values outside are errors that suggest the unit meant.
 K_MAX = 1.0  # m/s: coarse gravel is about 1e-2 m/s (Freeze & Cherry 1979, table 2.2)
@@ -27,6 +27,8 @@ RECHARGE_MAX = 1e-6  # m/s = 86 mm/d
 ET_MAX = 2e-7  # m/s = 17 mm/d, above the highest recorded daily evapotranspiration
 LEAKANCE_MAX = 10.0  # 1/s
 HEAD_RANGE_MAX = 1000.0  # m: heads and stages this far above the model base are a unit slip
+TITLE_MAX = 300  # characters
+STEP_MIN = 1.0  # s: shortest time step and output interval
 
 _TOP_KEYS = ["title", "grid", "ground", "zone", "stream", "sides", "recharge", "riparian", "time", "initial"]
 _SIDE_WORDS = ["no-flow", "periodic", "stream"]
@@ -197,16 +199,7 @@ def load(path: str | Path) -> Scenario:
         If the file is missing, is not valid TOML, or any value is not allowed.
     """
     path = Path(path)
-    if path.is_dir():
-        raise InputError("is a folder; expected a scenario TOML file", source=str(path))
-    if not path.is_file():
-        raise InputError("scenario file not found", source=str(path))
-    try:
-        data = tomllib.loads(path.read_text(encoding="utf-8-sig"))
-    except tomllib.TOMLDecodeError as err:
-        raise InputError(f"not valid TOML: {err}", source=str(path)) from None
-    except UnicodeDecodeError:
-        raise InputError("not a text file (expected UTF-8 TOML)", source=str(path)) from None
+    data = read_toml(path, "scenario file")
     return Scenario.from_dict(data, base_dir=path.parent, source=str(path))
 
 
@@ -216,6 +209,9 @@ def load(path: str | Path) -> Scenario:
 def _build(d: dict, base_dir: Path, source: str) -> Scenario:
     checks.reject_unknown(d, _TOP_KEYS, where="top level")
     title = checks.text(d, "title", "top level", default="untitled scenario")
+    if len(title) > TITLE_MAX:
+        raise InputError(f"title is {len(title)} characters long; at most {TITLE_MAX} are allowed (it heads "
+                         "figures and the report)", where="top level")
     grid = _grid(checks.table(d, "grid", "top level", required=True))
     ground = _ground(checks.table(d, "ground", "top level", required=True), grid)
     zones = _zones(d.get("zone"), grid)
@@ -413,8 +409,12 @@ def _rate(t: dict, key: str, where: str) -> float:
 
 def _series_from(t: dict, key: str, where: str, base_dir: Path, clock: _Clock) -> Series:
     name = checks.text(t, key, where)
+    path = base_dir / name
+    if not path.exists():
+        raise InputError(f"the file {name!r} was not found (looked for {path.absolute()}; the path is relative to the "
+                         "scenario file's folder)", where=f"{where} {key}")
     try:
-        return clock.align(read_series(base_dir / name, "length", None))
+        return clock.align(read_series(path, "length", None))
     except InputError as err:
         raise err.located(where=f"{where} {key}") from None
 
@@ -533,8 +533,8 @@ def _time(t: dict) -> TimeSpec | None:
     where = "[time]"
     checks.reject_unknown(t, ["end", "step", "output_every", "scheme", "start"], where=where)
     end = checks.quantity(t, "end", "time", where, low=0.0, low_inclusive=False)
-    step = checks.quantity(t, "step", "time", where, low=0.0, low_inclusive=False)
-    every = checks.quantity(t, "output_every", "time", where, default=step, low=0.0, low_inclusive=False)
+    step = checks.quantity(t, "step", "time", where, low=STEP_MIN)
+    every = checks.quantity(t, "output_every", "time", where, default=step, low=STEP_MIN)
     scheme = checks.choice(t, "scheme", ["backward-euler", "crank-nicolson"], where, default="backward-euler")
     if step > end:
         raise InputError(f"step = {step:g} s is longer than end = {end:g} s", where=where)
@@ -550,6 +550,9 @@ def _time(t: dict) -> TimeSpec | None:
             raise InputError(f"start = {t['start']!r} is not a date-time; write it as ISO 8601 local time, "
                              "e.g. start = 2024-06-01T00:00:00 or start = \"2024-06-01 06:30\"",
                              where=f"{where} start")
+    if end / every > 2e6:
+        raise InputError(f"end / output_every = {end / every:.3g} outputs is more than 2e6; use a longer "
+                         "output_every", where=where)
     return TimeSpec(end, step, every, scheme, origin)
 
 

@@ -7,7 +7,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from ..atomic import staged_directory
+from ..outfolder import output_folder
 from ..errors import InputError
 from .. import plots
 from .consistency import compare_methods
@@ -193,7 +193,7 @@ def run_field(sheets_dir: str | Path, outdir: str | Path, *, quiet: bool = False
     bed = bed_all if keep_flagged else bed_clean
     summary = _summary(folder, sheets, rejected, flags, meters, piezos, slug_k, perm_k, observations, flagged,
                        keep_flagged, reach_all, reach_clean, between, not_read)
-    with staged_directory(outdir) as stage:
+    with output_folder(outdir, "field") as stage:
         if seep:
             _write_csv(seep.readings, stage / "seepage_readings.csv")
             _write_csv(seep.meters, stage / "seepage_meters.csv")

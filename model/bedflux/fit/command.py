@@ -5,8 +5,8 @@ import argparse
 import sys
 from pathlib import Path
 
-from ..atomic import staged_directory
 from ..io import copy_inputs
+from ..outfolder import output_folder
 
 
 def _run(args: argparse.Namespace) -> int:
@@ -16,10 +16,11 @@ def _run(args: argparse.Namespace) -> int:
     from .spec import load_fit
 
     spec = load_fit(args.fitfile)
-    forward = Forward(spec.scenario, spec.observations, spec.free, spec.pan_diameter, source=spec.observations_source)
-    say = (lambda line: print(line, file=sys.stderr)) if not args.quiet else None
-    result = calibrate(forward, starts=spec.starts, seed=spec.seed, sample=spec.sample, progress=say)
-    with staged_directory(args.output) as stage:
+    with output_folder(args.output, "fit") as stage:
+        forward = Forward(spec.scenario, spec.observations, spec.free, spec.pan_diameter,
+                          source=spec.observations_source)
+        say = (lambda line: print(line, file=sys.stderr)) if not args.quiet else None
+        result = calibrate(forward, starts=spec.starts, seed=spec.seed, sample=spec.sample, progress=say)
         write_fit(result, spec.scenario, stage)
         copy_inputs(stage, [Path(args.fitfile)])
     if not args.quiet:

@@ -21,13 +21,12 @@ prior_sd = "1 m/d"
 from __future__ import annotations
 
 import tempfile
-import tomllib
 from dataclasses import dataclass
 from pathlib import Path
 
 import pandas as pd
 
-from .. import checks
+from .. import checks, inputfile
 from ..errors import InputError
 from ..observe import DEFAULT_PAN_DIAMETER, check_observations, read_observations
 from ..scenario import Scenario, load
@@ -70,16 +69,7 @@ def observations_from(path: Path, source: str) -> pd.DataFrame:
 
 def read_toml(path: Path, what: str) -> dict:
     """A TOML file as a dict, or an InputError naming the file."""
-    if path.is_dir():
-        raise InputError(f"is a folder; expected a {what} (TOML)", source=str(path))
-    if not path.is_file():
-        raise InputError(f"{what} not found", source=str(path))
-    try:
-        return tomllib.loads(path.read_text(encoding="utf-8-sig"))
-    except tomllib.TOMLDecodeError as err:
-        raise InputError(f"not valid TOML: {err}", source=str(path)) from None
-    except UnicodeDecodeError:
-        raise InputError("not a text file (expected UTF-8 TOML)", source=str(path)) from None
+    return inputfile.read_toml(path, what)
 
 
 def free_tables(d: dict, source: str, scenario: Scenario | None = None) -> list[dict]:

@@ -7,8 +7,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ..atomic import staged_directory
 from ..io import copy_inputs
+from ..outfolder import output_folder
 
 
 def _run(args: argparse.Namespace) -> int:
@@ -18,19 +18,19 @@ def _run(args: argparse.Namespace) -> int:
     from .spec import load_plan
 
     spec = load_plan(args.planfile, args.output)
-    table = plan(spec.scenario, spec.free, spec.candidates, spec.n, spec.target, existing=spec.existing,
-                 instruments=spec.instruments, min_spacing=spec.min_spacing,
-                 max_per_transect=spec.max_per_transect, length=spec.length, pan_diameter=spec.pan_diameter,
-                 max_depth=spec.max_depth, fit=spec.fit, reading_time=spec.reading_time, source=spec.source)
-    scenario = spec.scenario.with_values(spec.fit.best) if spec.fit is not None else spec.scenario
-    detect = None
-    if scenario.transient:
-        from ..simulate import simulate
+    with output_folder(args.output, "plan") as stage:
+        table = plan(spec.scenario, spec.free, spec.candidates, spec.n, spec.target, existing=spec.existing,
+                     instruments=spec.instruments, min_spacing=spec.min_spacing,
+                     max_per_transect=spec.max_per_transect, length=spec.length, pan_diameter=spec.pan_diameter,
+                     max_depth=spec.max_depth, fit=spec.fit, reading_time=spec.reading_time, source=spec.source)
+        scenario = spec.scenario.with_values(spec.fit.best) if spec.fit is not None else spec.scenario
+        detect = None
+        if scenario.transient:
+            from ..simulate import simulate
 
-        ds = simulate(scenario)
-        detect = detectability(ds, np.asarray(spec.depths), spec.instruments.head_resolution,
-                               spec.instruments.seepage_floor)
-    with staged_directory(args.output) as stage:
+            ds = simulate(scenario)
+            detect = detectability(ds, np.asarray(spec.depths), spec.instruments.head_resolution,
+                                   spec.instruments.seepage_floor)
         write_plan(table, scenario, stage, detect)
         copy_inputs(stage, [Path(args.planfile)])
     if not args.quiet:

@@ -7,6 +7,8 @@ files reproduced, provenance, cautions and a print stylesheet.
 """
 from __future__ import annotations
 
+import os
+import stat
 from pathlib import Path
 
 from ..atomic import write_text
@@ -18,7 +20,38 @@ from .render import render
 __all__ = ["Finding", "Output", "Project", "build_report", "collect", "render"]
 
 
-def build_report(folder: str | Path, output: str | Path | None = None, unit: str = "m/d") -> Path:
+#: Marks a file as a bedflux report (the page's generator tag), so that it may be replaced.
+REPORT_MARK = b'<meta name="generator" content="bedflux'
+
+
+def check_target(target: Path, force: bool = False) -> None:
+    """Refuse a report file name that is not ``.html``, or a file that is not an earlier report.
+
+    Raises
+    ------
+    InputError
+        If ``target`` is a folder, does not end in ``.html``, or is an existing file that is not
+        a bedflux report (unless ``force``).
+    """
+    if target.is_dir():
+        raise InputError("is a folder; give the report's file name, for example report.html", str(target))
+    if target.suffix.lower() != ".html":
+        raise InputError("the report is an HTML page: give a file name ending in .html, for example "
+                         "report.html", str(target))
+    if force or not os.path.lexists(target):
+        return
+    try:
+        with open(target, "rb") as f:
+            head = f.read(4096) if stat.S_ISREG(os.fstat(f.fileno()).st_mode) else b""
+    except OSError:
+        head = b""
+    if REPORT_MARK not in head:
+        raise InputError("exists and is not a report written by bedflux; it is left as it is. Give another "
+                         "file name, or add --force to replace it", str(target))
+
+
+def build_report(folder: str | Path, output: str | Path | None = None, unit: str = "m/d",
+                 force: bool = False) -> Path:
     """Scan ``folder`` for bedflux outputs and write the HTML report atomically.
 
     Parameters
@@ -29,6 +62,8 @@ def build_report(folder: str | Path, output: str | Path | None = None, unit: str
         The HTML file to write (default ``FOLDER/report.html``).
     unit
         Display unit of bed fluxes.
+    force
+        Replace ``output`` even when it is not an earlier bedflux report.
 
     Returns
     -------
@@ -39,12 +74,11 @@ def build_report(folder: str | Path, output: str | Path | None = None, unit: str
     ------
     InputError
         If the folder is missing or holds no bedflux outputs, an output file is unreadable, or
-        ``output`` is an existing folder.
+        ``output`` is refused by :func:`check_target`.
     """
-    project = collect(folder)
     target = Path(output) if output is not None else Path(folder) / "report.html"
-    if target.is_dir():
-        raise InputError("is a folder; give the report's file name, for example report.html", str(target))
+    check_target(target, force)
+    project = collect(folder)
     try:
         html = render(project, unit)
     except InputError:

@@ -388,6 +388,10 @@ def _provenance_section(project: Project, created: str) -> str:
     files = [{"file": p.relative_to(project.folder).as_posix(), "bytes": p.stat().st_size, "SHA-256": sha256(p)}
              for p in project.files_read]
     parts.append(table(pd.DataFrame(files), "Every file this report read", max_rows=1000))
+    if project.skipped:
+        left = [{"file": p.relative_to(project.folder).as_posix(), "why it was not read": why}
+                for p, why in project.skipped]
+        parts.append(table(pd.DataFrame(left), "Files found but not read", max_rows=1000))
     parts.append("</section>")
     return "".join(parts)
 
