@@ -28,7 +28,7 @@ ET_MAX = 2e-7  # m/s = 17 mm/d, above the highest recorded daily evapotranspirat
 LEAKANCE_MAX = 10.0  # 1/s
 HEAD_RANGE_MAX = 1000.0  # m: heads and stages this far above the model base are a unit slip
 TITLE_MAX = 300  # characters
-STEP_MIN = 1.0  # s: shortest time step and output interval
+STEP_MIN = 1e-3  # s: shortest time step and output interval (1 ms; a bed responds in minutes)
 
 _TOP_KEYS = ["title", "grid", "ground", "zone", "stream", "sides", "recharge", "riparian", "time", "initial"]
 _SIDE_WORDS = ["no-flow", "periodic", "stream"]
