@@ -14,7 +14,7 @@ from pathlib import Path
 
 import pytest
 
-from bedflux import manifest
+from bedflux.outputs import manifest
 from bedflux.cli import main
 
 ROOT = Path(__file__).resolve().parents[1]

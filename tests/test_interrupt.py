@@ -13,8 +13,8 @@ import numpy as np
 import xarray as xr
 
 import bedflux
-from bedflux.solve.section import discretise
-from bedflux.solve.transient import run_transient
+from bedflux.section.discretisation import discretise
+from bedflux.section.simulate import transient_dataset
 
 
 def test_interrupt_returns_partial_outputs():
@@ -28,7 +28,7 @@ def test_interrupt_returns_partial_outputs():
         if fraction > 0.5:
             raise KeyboardInterrupt
 
-    ds = run_transient(discretise(s), progress=stop_half_way)
+    ds = transient_dataset(discretise(s), progress=stop_half_way)
     assert "partial" in ds.attrs and "interrupted" in ds.attrs["partial"]
     t = ds["time"].values
     assert 0 < t[-1] < 4 * 3600 and np.all(np.diff(t) > 0)
@@ -36,7 +36,7 @@ def test_interrupt_returns_partial_outputs():
 
 
 def test_command_line_keeps_partial_outputs(tmp_path, monkeypatch, capsys):
-    import bedflux.run as run_module
+    import bedflux.outputs.run as run_module
     from bedflux.cli import main
 
     class Stopping:

@@ -22,11 +22,11 @@ from pathlib import Path
 import pytest
 import xarray as xr
 
-from bedflux import manifest
+from bedflux.outputs import manifest
 from bedflux.cli import main
 from bedflux.errors import InputError
-from bedflux.io import copy_inputs
-from bedflux.report import collect
+from bedflux.outputs.files import copy_inputs
+from bedflux.report.collect import collect
 
 ROOT = Path(__file__).resolve().parents[1]
 MODEL = ROOT / "model"
@@ -281,7 +281,7 @@ def test_writable_folder_under_a_read_only_parent_without_root(tmp_path):
 # ------------------------------------------------------------------ 4. checked before computing
 
 def _no_computing(monkeypatch):
-    import bedflux.run as run_module
+    import bedflux.outputs.run as run_module
 
     def refuse(*a, **k):
         raise AssertionError("the computation started before the output folder was checked")
@@ -323,7 +323,7 @@ def test_read_only_output_folder_is_refused_before_computing(tmp_path, mounts, m
 
 
 def test_disk_full_while_writing_exits_2_naming_the_folder(tmp_path, monkeypatch, capsys):
-    import bedflux.run as run_module
+    import bedflux.outputs.run as run_module
 
     def full(ds, path):
         raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC), str(path))
@@ -338,7 +338,7 @@ def test_disk_full_while_writing_exits_2_naming_the_folder(tmp_path, monkeypatch
 
 def test_disk_filling_up_during_the_run_on_a_real_disk(tmp_path, mounts, monkeypatch, capsys):
     out = mounts(tmp_path / "small", size="8m")
-    import bedflux.run as run_module
+    import bedflux.outputs.run as run_module
 
     real = run_module.simulate
 

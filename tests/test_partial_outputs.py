@@ -11,11 +11,12 @@ import re
 import numpy as np
 import pytest
 
-import bedflux.plots as plots
-import bedflux.run as run_module
-from bedflux.animation import render_frames
-from bedflux.io import read_result
-from bedflux.report import build_report, collect
+import bedflux.outputs.figures as plots
+import bedflux.outputs.run as run_module
+from bedflux.outputs.animation import render_frames
+from bedflux.outputs.files import read_result
+from bedflux.report import build_report
+from bedflux.report.collect import collect
 from bedflux.report import findings as fd
 
 SCENARIO = ('title = "Stage wave over a column (invented)"\n'

@@ -23,8 +23,8 @@ import numpy as np
 import pytest
 
 import bedflux
-from bedflux.io import write_summary
-from bedflux.plausibility import impossible_heads, plausibility_warnings
+from bedflux.outputs.files import write_summary
+from bedflux.outputs.plausibility import impossible_heads, plausibility_warnings
 from bedflux.report import findings as fd
 
 DAY = 86400.0
@@ -115,7 +115,7 @@ def test_stream_over_a_deep_water_table_may_be_disconnected(tmp_path):
 def test_stage_below_the_bed_is_said():
     d = dict(CHANNEL, stream={"stage": -0.5, "channel": [8, 12]}, sides={"left": {"head": -1.0}})
     ds = bedflux.simulate(bedflux.Scenario.from_dict(d))
-    from bedflux.summary import build_summary
+    from bedflux.outputs.summary import build_summary
 
     s, text, _ = build_summary(ds)
     assert "no bed under water" in text and "(neutral)" not in text

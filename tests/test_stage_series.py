@@ -11,7 +11,7 @@ import pytest
 
 import bedflux
 from bedflux.errors import InputError
-from bedflux.forcing import read_series
+from bedflux.scenario.forcing import read_series
 
 
 def write(tmp_path, text, name="stage.csv"):

@@ -23,10 +23,10 @@ import numpy as np
 import pytest
 
 import bedflux
-from bedflux.extremes import weighted_percentile
-from bedflux.io import write_summary
+from bedflux.outputs.extremes import weighted_percentile
+from bedflux.outputs.files import write_summary
 from bedflux.report import findings as fd
-from bedflux.summary import build_summary, summarise
+from bedflux.outputs.summary import build_summary, summarise
 
 ROOT = Path(__file__).resolve().parents[1]
 DAY = 86400.0
@@ -205,7 +205,7 @@ def test_field_and_model_totals_per_the_same_length():
 
 def test_scipy_pin_allows_the_rtol_keyword():
     # the iterative solver passes cg(rtol=...), a keyword of SciPy 1.12 and later (release notes 1.12.0)
-    assert re.search(r"\bcg\([^)]*\brtol=", (ROOT / "model/bedflux/solve/linear.py").read_text(), re.S)
+    assert re.search(r"\bcg\([^)]*\brtol=", (ROOT / "model/bedflux/section/linear.py").read_text(), re.S)
     deps = tomllib.loads((ROOT / "pyproject.toml").read_text())["project"]["dependencies"]
     pin = next(d for d in deps if re.match(r"scipy\b", d))
     low = re.search(r">=\s*([0-9.]+)", pin)

@@ -9,7 +9,7 @@ import pytest
 
 import bedflux
 from bedflux.errors import InputError
-from bedflux.units import parse_quantity, unit_factor
+from bedflux.scenario.units import parse_quantity, unit_factor
 
 BASE = {"grid": {"x": [0, 4], "bottom": -2, "dx": 0.5, "dz": 0.25}, "ground": {"elevation": 0},
         "stream": {"stage": 0.3}}

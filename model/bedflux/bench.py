@@ -51,7 +51,7 @@ def _case_steady_run(n: float, method: str) -> dict:
 
 def _system(n: float):
     import bedflux
-    from bedflux.solve.section import discretise
+    from bedflux.section.discretisation import discretise
 
     sec = discretise(bedflux.Scenario.from_dict(section_dict(n)))
     terms = sec.terms(0.0, sec.initial_active_set())
@@ -60,7 +60,7 @@ def _system(n: float):
 
 def _case_assembly(n: float) -> dict:
     import bedflux
-    from bedflux.solve.section import discretise
+    from bedflux.section.discretisation import discretise
 
     s = bedflux.Scenario.from_dict(section_dict(n))
     t0 = time.perf_counter()
@@ -83,7 +83,7 @@ def _case_bare(n: float, which: str) -> dict:
     elif which == "spsolve":
         x = spla.spsolve(A.tocsc(), b)
     else:
-        from bedflux.solve.linear import factorize
+        from bedflux.section.linear import factorize
 
         x = factorize(A, "amg-cg").solve(b)
     dt = time.perf_counter() - t0
@@ -93,9 +93,9 @@ def _case_bare(n: float, which: str) -> dict:
 
 def _case_transient_step(n: float) -> dict:
     import bedflux
-    from bedflux.solve.linear import factorize
-    from bedflux.solve.section import discretise
-    from bedflux.solve.transient import run_transient
+    from bedflux.section.linear import factorize
+    from bedflux.section.discretisation import discretise
+    from bedflux.section.transient import run_transient
 
     s = bedflux.Scenario.from_dict(section_dict(n, steady=False))
     sec = discretise(s)

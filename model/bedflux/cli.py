@@ -7,16 +7,18 @@ send). Both signals end a transient run the same way: its outputs so far are kep
 """
 from __future__ import annotations
 
+from bedflux.scenario.units import FLUX_UNITS
+
 import argparse
 import signal
 import sys
 import threading
-from importlib import resources
+from importlib import import_module, resources
 from pathlib import Path
 from typing import Sequence
 
-from . import __version__
-from .errors import InputError, SolverError
+from bedflux.version import __version__
+from bedflux.errors import InputError, SolverError
 
 EXAMPLE = "gaining_channel.toml"
 
@@ -45,7 +47,7 @@ def _interrupt_status() -> int:
 
 
 def _cmd_run(args: argparse.Namespace) -> int:
-    from .run import run_scenario
+    from bedflux.outputs.run import run_scenario
 
     scenario = Path(args.scenario) if args.scenario else example_path()
     summary = run_scenario(scenario, Path(args.output), unit=args.units, quiet=args.quiet)
@@ -59,7 +61,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
 
 
 def _cmd_field(args: argparse.Namespace) -> int:
-    from .field import run_field
+    from bedflux.field import run_field
 
     run_field(Path(args.sheets), Path(args.output), quiet=args.quiet, keep_flagged=args.keep_flagged)
     if not args.quiet:
@@ -85,7 +87,7 @@ def build_parser() -> argparse.ArgumentParser:
                                    "summary.json and figures into OUTDIR.")
     r.add_argument("scenario", nargs="?", help="scenario TOML file (omit for the built-in example)")
     r.add_argument("-o", "--output", default="bedflux-out", help="output folder (default: bedflux-out)")
-    r.add_argument("--units", default="m/d", choices=["m/d", "mm/d", "cm/d", "cm/s", "m/s"],
+    r.add_argument("--units", default="m/d", choices=list(FLUX_UNITS),
                    help="display unit of fluxes in figures (files stay SI)")
     r.add_argument("-q", "--quiet", action="store_true", help="no progress bar or summary on screen")
     r.set_defaults(func=_cmd_run)
@@ -108,20 +110,9 @@ def build_parser() -> argparse.ArgumentParser:
     return p
 
 
-def _register_optional() -> list:
-    verbs = []
-    for name in ("fit", "plan", "report"):
-        try:
-            mod = __import__(f"bedflux.{name}.command", fromlist=["register"])
-        except ModuleNotFoundError as err:
-            if err.name and err.name.startswith("bedflux"):
-                continue
-            raise
-        verbs.append(mod.register)
-    return verbs
-
-
-_EXTRA_VERBS = _register_optional()
+#: Verbs defined in their own rooms: each module has ``register(subparsers)``.
+_VERB_MODULES = ("bedflux.calibration.command", "bedflux.planning.command", "bedflux.report.command")
+_EXTRA_VERBS = [import_module(name).register for name in _VERB_MODULES]
 
 
 def main(argv: Sequence[str] | None = None) -> int:

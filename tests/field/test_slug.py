@@ -3,8 +3,7 @@ import numpy as np
 import pytest
 
 from bedflux import InputError
-from bedflux.field import (bouwer_rice_coefficients, bouwer_rice_shape, fit_recovery, hvorslev_k,
-                           hvorslev_k_from_lag, permeameter_kv)
+from bedflux.field import (bouwer_rice_coefficients, bouwer_rice_shape, fit_recovery, hvorslev_k, hvorslev_k_from_lag, permeameter_kv)
 
 
 def _recovery(t0, h0=0.4, n=30, span=4.0):

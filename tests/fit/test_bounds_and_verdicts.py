@@ -29,8 +29,8 @@ import pytest
 from scipy import stats
 
 import bedflux
-from bedflux.fit import fit
-from bedflux.fit.outputs import result_dict, write_fit
+from bedflux.calibration import fit
+from bedflux.calibration.outputs import result_dict, write_fit
 from bedflux.report.findings import conductivity_finding
 
 STAGE, BED, K_AQUIFER, Q = 0.2, 0.4, 5e-5, 2e-6

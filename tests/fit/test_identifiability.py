@@ -25,8 +25,8 @@ import pandas as pd
 import pytest
 
 import bedflux
-from bedflux.fit import fit
-from bedflux.sensitivity import Forward, free_parameters
+from bedflux.calibration import fit
+from bedflux.forward.sensitivity import Forward, free_parameters
 
 NOT_IDENTIFIABLE = "not identifiable"
 

@@ -1,4 +1,4 @@
-"""Sensitivities of the observations to the free parameters (``bedflux.sensitivity.Forward``).
+"""Sensitivities of the observations to the free parameters (``bedflux.forward.sensitivity.Forward``).
 
 Checks, each independent of the analytic Jacobian under test:
 
@@ -28,8 +28,8 @@ import pandas as pd
 import pytest
 
 import bedflux
-from bedflux.sensitivity import Forward, free_parameters
-from bedflux.solve.section import discretise
+from bedflux.forward.sensitivity import Forward, free_parameters
+from bedflux.section.discretisation import discretise
 
 EPS = np.finfo(float).eps
 STEPS = 10.0 ** -np.arange(1, 7)  # 1e-1 ... 1e-6 (style.md item 8)
@@ -218,7 +218,7 @@ def test_agrees_with_central_differences(evaluated):
 
 def test_analytic_kinds_are_all_covered():
     # the cases exercise every parameter kind that has an analytic derivative
-    from bedflux.sensitivity import classify
+    from bedflux.forward.sensitivity import classify
 
     kinds = {classify(section("backward-euler"), p).name for p in TRANSIENT_PATHS}
     assert kinds == {"zone-kh", "zone-kv", "zone-ss", "zone-sy", "recharge", "riparian", "side-head",

@@ -14,7 +14,7 @@ import numpy as np
 import pandas as pd
 
 import bedflux
-from bedflux.fit import fit
+from bedflux.calibration import fit
 
 RECOVER = 1e-6  # the tolerance
 

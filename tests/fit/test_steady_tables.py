@@ -16,11 +16,11 @@ import pandas as pd
 import pytest
 
 import bedflux
-from bedflux import plots
+from bedflux.outputs import figures as plots
 from bedflux.cli import main
 from bedflux.errors import InputError
-from bedflux.fit import fit
-from bedflux.fit.outputs import write_fit
+from bedflux.calibration import fit
+from bedflux.calibration.outputs import write_fit
 
 Q, I = 2e-6, 0.25
 SCENARIO = """title = "steady column (invented)"

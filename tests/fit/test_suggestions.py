@@ -19,9 +19,9 @@ import pandas as pd
 import pytest
 
 import bedflux
-from bedflux.fit import fit
-from bedflux.plan.candidates import DEFAULT_MAX_DEPTH
-from bedflux.sensitivity import Forward, free_parameters
+from bedflux.calibration import fit
+from bedflux.planning.candidates import DEFAULT_MAX_DEPTH
+from bedflux.forward.sensitivity import Forward, free_parameters
 
 
 @pytest.fixture(scope="module")

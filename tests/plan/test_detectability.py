@@ -31,8 +31,8 @@ import numpy as np
 import pytest
 
 import bedflux
-from bedflux.events import exchange_events
-from bedflux.plan.detect import detectability
+from bedflux.section.events import exchange_events
+from bedflux.planning.detect import detectability
 
 BASE, PEAK, START, RISE, FALL = 0.3, 0.9, 2 * 3600.0, 3 * 3600.0, 4 * 3600.0
 H_BASE, L, K = 0.45, 4.0, 2e-5

@@ -19,8 +19,8 @@ import pytest
 
 import bedflux
 from bedflux.cli import main
-from bedflux.plan import plan
-from bedflux.plan import spec
+from bedflux.planning import plan
+from bedflux.planning import spec
 
 ROOT = Path(__file__).resolve().parents[2]
 

@@ -26,10 +26,10 @@ from scipy import stats
 
 import bedflux
 from bedflux.cli import main
-from bedflux.fit import fit
-from bedflux.fit.outputs import write_fit
-from bedflux.plan import plan
-from bedflux.sensitivity import Forward, free_parameters
+from bedflux.calibration import fit
+from bedflux.calibration.outputs import write_fit
+from bedflux.planning import plan
+from bedflux.forward.sensitivity import Forward, free_parameters
 
 SCENARIO = {
     "title": "plan column (invented)",

@@ -8,7 +8,7 @@ from pathlib import Path
 import pytest
 from PIL import Image
 
-from bedflux import manifest
+from bedflux.outputs import manifest
 
 SCENARIO_TEXT = '# invented test scenario <with markup & quotes>\ntitle = "Test reach"\n'
 

@@ -51,7 +51,7 @@ def project(tmp_path_factory) -> Path:
              ["run", str(SCENARIOS / "reach_long.toml"), "-o", str(root / "reach"), "-q"],
              ["field", str(SCENARIOS / "field"), "-o", str(root / "field"), "-q"],
              ["fit", str(SCENARIOS / "reach_fit.toml"), "-o", str(root / "fit"), "-q"]]
-    if importlib.util.find_spec("bedflux.plan.command") is not None:
+    if importlib.util.find_spec("bedflux.planning.command") is not None:
         plans = sorted(SCENARIOS.glob("*plan*.toml"))
         if not plans:
             pytest.fail("bedflux plan exists but scenarios/ has no *plan*.toml for the worked example")
@@ -60,8 +60,8 @@ def project(tmp_path_factory) -> Path:
         assert main(argv) == 0, f"bedflux {' '.join(argv)} failed"
     if not (root / "pulse" / "animation.gif").exists():
         # until bedflux run writes the animation itself
-        from bedflux.animation import animate
-        from bedflux.io import read_result
+        from bedflux.outputs.animation import animate
+        from bedflux.outputs.files import read_result
 
         animate(read_result(root / "pulse" / "result.nc"), root / "pulse" / "animation")
     assert main(["report", str(root), "-q"]) == 0

@@ -9,10 +9,12 @@ from pathlib import Path
 
 import pytest
 
-from bedflux import __version__, manifest
+from bedflux import __version__
+from bedflux.outputs import manifest
 from bedflux.cli import main
 from bedflux.errors import InputError
-from bedflux.report import build_report, collect
+from bedflux.report import build_report
+from bedflux.report.collect import collect
 
 from .conftest import SCENARIO_TEXT, png, steady_summary, write_run
 

@@ -39,7 +39,7 @@ RIGHT_HEAD = 1.0
 
 
 def pulse_stage(t, base, peak, start, rise, fall):
-    """The documented pulse (bedflux.forcing): half-cosine rise over ``rise``, exponential recession."""
+    """The documented pulse (bedflux.scenario.forcing): half-cosine rise over ``rise``, exponential recession."""
     s = np.asarray(t, dtype=float) - start
     amp = peak - base
     rising = base + amp * 0.5 * (1.0 - np.cos(np.pi * np.clip(s, 0.0, rise) / rise))
@@ -299,7 +299,7 @@ def test_column_reversal_vs_convolution():
 
 
 def test_pulse_slopes_as_documented():
-    """bedflux.forcing documents the pulse: slope continuous at the start (zero on both sides),
+    """bedflux.scenario.forcing documents the pulse: slope continuous at the start (zero on both sides),
     zero at the peak from below, and -(peak - base) / fall at the start of the recession."""
     p = PULSE
     eps = 1.0

@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 
 import bedflux
-from bedflux.summary import summarise, summary_text
+from bedflux.outputs.summary import summarise, summary_text
 
 DAY = 86400.0
 TAU = 4 * DAY

@@ -22,7 +22,7 @@ import pytest
 from scipy.special import erfc
 
 import bedflux
-import bedflux.solve.transient as transient
+import bedflux.section.transient as transient
 from bedflux.errors import SolverError
 
 KV = 1e-5          # m/s

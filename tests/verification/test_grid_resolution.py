@@ -28,8 +28,8 @@ import pytest
 
 import bedflux
 from bedflux.errors import InputError
-from bedflux.grid import build_grid, resolution_warnings
-from bedflux.summary import summarise, summary_text
+from bedflux.section.grid import build_grid, resolution_warnings
+from bedflux.outputs.summary import summarise, summary_text
 
 WETTED_WIDTH = 2 * (4.0 + 0.45 / 1.5)  # m, plane geometry of the example's banks
 REFINEMENTS = (1.0, 1.5, 2.0, 3.0)  # 7k to 62k cells

@@ -27,7 +27,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import bedflux
-from bedflux.summary import summarise, summary_text
+from bedflux.outputs.summary import summarise, summary_text
 
 ROOT = Path(__file__).resolve().parents[2]
 CLOSURE = 1e-10
@@ -236,7 +236,7 @@ def test_budget_closes_on_random_heterogeneous_fields(case):
 def test_a_steady_solve_whose_budget_does_not_close_fails(monkeypatch, error, fails):
     # heads off by a fraction `error` of themselves: 1e-6 leaves an imbalance of about that
     # fraction of the gross flow, above the 1e-8 a direct solve keeps to; 1e-13 is round-off
-    import bedflux.solve.steady as steady
+    import bedflux.section.steady as steady
 
     real = steady.factorize
 

@@ -22,9 +22,9 @@ import numpy as np
 import pytest
 
 import bedflux
-from bedflux.grid import build_grid
-from bedflux.materials import materials
-from bedflux.solve.section import discretise
+from bedflux.section.grid import build_grid
+from bedflux.section.materials import materials
+from bedflux.section.discretisation import discretise
 
 DAY = 86400.0
 ROUND_OFF = 1e-10

@@ -11,7 +11,7 @@ from __future__ import annotations
 import re
 from collections import Counter
 
-from .sheets import Rejected
+from bedflux.field.sheets import Rejected
 
 _DECIMAL_COMMA = re.compile(r"^[-+]?\d+,\d+$")
 _NUMBER_WITH_UNIT = re.compile(r"^[-+]?(\d+(\.\d*)?|\.\d+)([eE][-+]?\d+)?\s*[A-Za-z%°µ][\w^/ .%]*$")

@@ -12,12 +12,12 @@ import numpy as np
 import pandas as pd
 from numpy.typing import ArrayLike
 
-from ..errors import InputError
-from .flags import Flags
-from .kinds import WATER_DENSITY
-from .sheets import Rejected, Sheet, reject_duplicates, reject_where
-from .sites import Sites
-from .stats import summarise
+from bedflux.errors import InputError
+from bedflux.field.flags import Flags
+from bedflux.field.sheet_specs import WATER_DENSITY
+from bedflux.field.sheets import Rejected, Sheet, reject_duplicates, reject_where
+from bedflux.field.sites import Sites
+from bedflux.field.stats import summarise
 
 #: Standard uncertainty of a reading with resolution d: d / sqrt(12) (uniform over +/- d/2;
 #: JCGM 100:2008, the GUM, F.2.2.1).

@@ -4,12 +4,11 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from ..errors import InputError
-from .flags import Flags
-from .sheets import Rejected, Sheet, reject_duplicates, reject_where
-from .slug import (bouwer_rice_k_from_lag, falling_head_fit, fit_recovery, hvorslev_k_from_lag,
-                   permeameter_kv_from_lag)
-from .stats import BetweenTerm
+from bedflux.errors import InputError
+from bedflux.field.flags import Flags
+from bedflux.field.sheets import Rejected, Sheet, reject_duplicates, reject_where
+from bedflux.field.slug import (bouwer_rice_k_from_lag, falling_head_fit, fit_recovery, hvorslev_k_from_lag, permeameter_kv_from_lag)
+from bedflux.field.stats import BetweenTerm
 
 #: Standard deviation of ln K between test locations used when a campaign has too few tests
 #: of a kind to estimate its own: sqrt(1.88), the smallest run variance of ln Kv that Genereux

@@ -2,26 +2,27 @@
 from __future__ import annotations
 
 import json
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
-from ..outfolder import output_folder
-from ..errors import InputError
-from .. import plots
-from .consistency import compare_methods
-from .flags import Flags
-from .kinds import DEFAULT_EFFICIENCY, SHEET_FILES, SITES
-from .manometer import DEPTH_SIGMA, reduce_manometer
-from .diagnosis import systematic_cause
-from .mapping import BedMap, krige_bed_flux
-from .observations import observation_table
-from .recovery import add_ln_k_sigma, reduce_permeameter, reduce_slug
-from .seepage import flagged_meters, reduce_seepage
-from .sheets import Rejected, Sheet, read_sheet, reject_unknown_sites
-from .sites import Sites, read_sites
-from .velocity import head_from_velocity, reduce_velocity
+from bedflux.outputs.folder import output_folder
+from bedflux.errors import InputError
+from bedflux.outputs import figures as plots
+from bedflux.field.consistency import compare_methods
+from bedflux.field.flags import Flags
+from bedflux.field.sheet_specs import DEFAULT_EFFICIENCY, SHEET_FILES, SITES
+from bedflux.field.manometer import DEPTH_SIGMA, reduce_manometer
+from bedflux.field.diagnosis import systematic_cause
+from bedflux.field.mapping import BedMap, krige_bed_flux
+from bedflux.field.observations import observation_table
+from bedflux.field.recovery import add_ln_k_sigma, reduce_permeameter, reduce_slug
+from bedflux.field.seepage import flagged_meters, reduce_seepage
+from bedflux.field.sheets import Rejected, Sheet, read_sheet, reject_unknown_sites
+from bedflux.field.sites import Sites, read_sites
+from bedflux.field.velocity import head_from_velocity, reduce_velocity
 
 #: A sheet losing more than this fraction of its rows is not trusted (a systematic slip).
 MAX_REJECTED_FRACTION = 0.5
@@ -123,39 +124,31 @@ def _reach(meters: pd.DataFrame) -> tuple[BedMap | None, dict]:
     }
 
 
-def run_field(sheets_dir: str | Path, outdir: str | Path, *, quiet: bool = False,
-              keep_flagged: bool = False) -> dict:
-    """Reduce a folder of field sheets and write tables, observations and figures.
+@dataclass
+class FieldReduction:
+    """Everything reduced from one folder of field sheets (tables in SI, as written by
+    :func:`run_field`)."""
 
-    Parameters
-    ----------
-    sheets_dir
-        Folder with ``sites.csv`` and one or more of ``seepage.csv``, ``manometer.csv``,
-        ``slug.csv``, ``permeameter.csv``, ``velocity.csv`` (columns in docs/field.md; names
-        in any case). Every other file of the folder is listed, with why it was not read.
-    outdir
-        Output folder; written all at once when the run succeeds, untouched when it fails.
-    quiet
-        If false, print a short summary.
-    keep_flagged
-        Keep the observations of flagged meters and piezometers (robust outliers, scattered
-        repeats, gradients within the velocity head) in ``observations.csv``; by default they
-        are left out and listed in ``flagged_observations.csv``.
+    sheets: dict[str, Sheet]
+    seepage: object | None
+    manometer: object | None
+    slug: pd.DataFrame | None
+    permeameter: pd.DataFrame | None
+    velocity: pd.DataFrame
+    meters: pd.DataFrame
+    left_out: np.ndarray
+    comparison: pd.DataFrame
+    observations: pd.DataFrame
+    flagged: pd.DataFrame
+    flags: Flags
+    rejected: Rejected
+    not_read: list[tuple[str, str]]
+    bed: BedMap | None
+    summary: dict
 
-    Returns
-    -------
-    dict
-        The content of ``field_summary.json``.
 
-    Raises
-    ------
-    InputError
-        For a problem that makes the result untrustworthy: a missing or unknown sheet, two files
-        for one sheet, a bad header or unit, a value outside its plausible range, a bad sites
-        row, a mixed volume/mass sheet, or a sheet with no usable rows or with more than half of
-        its rows rejected (the message names the likely systematic cause). Single bad rows are
-        instead excluded and listed in ``rejected.csv``.
-    """
+def reduce_field(sheets_dir: str | Path, keep_flagged: bool = False) -> FieldReduction:
+    """Reduce a folder of field sheets in memory (no files written); see :func:`run_field`."""
     folder = Path(sheets_dir)
     found, not_read = _sheets(folder)
     sites = read_sites(found["sites.csv"])
@@ -193,6 +186,46 @@ def run_field(sheets_dir: str | Path, outdir: str | Path, *, quiet: bool = False
     bed = bed_all if keep_flagged else bed_clean
     summary = _summary(folder, sheets, rejected, flags, meters, piezos, slug_k, perm_k, observations, flagged,
                        keep_flagged, reach_all, reach_clean, between, not_read)
+    return FieldReduction(sheets, seep, mano, slug, perm, velocity, meters, left_out, comparison, observations,
+                          flagged, flags, rejected, not_read, bed, summary)
+
+
+def run_field(sheets_dir: str | Path, outdir: str | Path, *, quiet: bool = False,
+              keep_flagged: bool = False) -> dict:
+    """Reduce a folder of field sheets and write tables, observations and figures.
+
+    Parameters
+    ----------
+    sheets_dir
+        Folder with ``sites.csv`` and one or more of ``seepage.csv``, ``manometer.csv``,
+        ``slug.csv``, ``permeameter.csv``, ``velocity.csv`` (columns in docs/field.md; names
+        in any case). Every other file of the folder is listed, with why it was not read.
+    outdir
+        Output folder; written all at once when the run succeeds, untouched when it fails.
+    quiet
+        If false, print a short summary.
+    keep_flagged
+        Keep the observations of flagged meters and piezometers (robust outliers, scattered
+        repeats, gradients within the velocity head) in ``observations.csv``; by default they
+        are left out and listed in ``flagged_observations.csv``.
+
+    Returns
+    -------
+    dict
+        The content of ``field_summary.json``.
+
+    Raises
+    ------
+    InputError
+        For a problem that makes the result untrustworthy: a missing or unknown sheet, two files
+        for one sheet, a bad header or unit, a value outside its plausible range, a bad sites
+        row, a mixed volume/mass sheet, or a sheet with no usable rows or with more than half of
+        its rows rejected (the message names the likely systematic cause). Single bad rows are
+        instead excluded and listed in ``rejected.csv``.
+    """
+    r = reduce_field(sheets_dir, keep_flagged)
+    seep, mano, slug, perm, sheets = r.seepage, r.manometer, r.slug, r.permeameter, r.sheets
+    meters, left_out, comparison, flags, rejected = r.meters, r.left_out, r.comparison, r.flags, r.rejected
     with output_folder(outdir, "field") as stage:
         if seep:
             _write_csv(seep.readings, stage / "seepage_readings.csv")
@@ -207,22 +240,22 @@ def run_field(sheets_dir: str | Path, outdir: str | Path, *, quiet: bool = False
         if perm is not None:
             _write_csv(perm, stage / "permeameter_tests.csv")
         if "velocity" in sheets:
-            _write_csv(velocity, stage / "velocity_readings.csv")
-        if bed is not None:
-            plots.field_bed_map(bed, meters if keep_flagged else meters[~left_out], stage / "bed_flux_map.png")
+            _write_csv(r.velocity, stage / "velocity_readings.csv")
+        if r.bed is not None:
+            plots.field_bed_map(r.bed, meters if keep_flagged else meters[~left_out], stage / "bed_flux_map.png")
         if not comparison.empty:
             _write_csv(comparison, stage / "consistency.csv")
             plots.gradient_vs_flux(comparison, stage / "gradient_vs_flux.png")
         _write_csv(flags.frame(), stage / "flags.csv")
         _write_csv(pd.DataFrame(sorted(rejected.rows), columns=["file", "line", "column", "reason"]),
                    stage / "rejected.csv")
-        _write_csv(pd.DataFrame(not_read, columns=["file", "reason"]), stage / "not_read.csv")
-        _write_csv(observations, stage / "observations.csv")
-        _write_csv(flagged, stage / "flagged_observations.csv")
-        (stage / "field_summary.json").write_text(json.dumps(summary, indent=2) + "\n", encoding="utf-8")
+        _write_csv(pd.DataFrame(r.not_read, columns=["file", "reason"]), stage / "not_read.csv")
+        _write_csv(r.observations, stage / "observations.csv")
+        _write_csv(r.flagged, stage / "flagged_observations.csv")
+        (stage / "field_summary.json").write_text(json.dumps(r.summary, indent=2) + "\n", encoding="utf-8")
     if not quiet:
-        _print(summary)
-    return summary
+        _print(r.summary)
+    return r.summary
 
 
 def _summary(folder: Path, sheets: dict[str, Sheet], rejected: Rejected, flags: Flags, meters: pd.DataFrame,

@@ -11,12 +11,12 @@ import numpy as np
 import pandas as pd
 from numpy.typing import ArrayLike
 
-from ..errors import InputError
-from .flags import Flags
-from .kinds import WATER_DENSITY
-from .sheets import Rejected, Sheet, reject_duplicates, reject_where
-from .sites import Sites
-from .stats import BetweenTerm, robust_outliers, summarise
+from bedflux.errors import InputError
+from bedflux.field.flags import Flags
+from bedflux.field.sheet_specs import WATER_DENSITY
+from bedflux.field.sheets import Rejected, Sheet, reject_duplicates, reject_where
+from bedflux.field.sites import Sites
+from bedflux.field.stats import BetweenTerm, robust_outliers, summarise
 
 #: Net bag change below which a reading sits near the detection floor (Cable et al. 1997), m^3.
 DETECTION_VOLUME = 150e-6

@@ -16,8 +16,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import InputError
-from ..units import DIMENSIONS, unit_factor
+from bedflux.errors import InputError
+from bedflux.scenario.units import DIMENSIONS, unit_factor
 
 _HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*(?:\[(.*)\])?\s*$")
 
@@ -31,7 +31,7 @@ class Column:
     name
         The header name without its unit.
     dimension
-        A dimension word of :data:`bedflux.units.DIMENSIONS`, or ``None`` for a text column.
+        A dimension word of :data:`bedflux.scenario.units.DIMENSIONS`, or ``None`` for a text column.
     required
         Whether the header must be present.
     default

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike
 
-from ..errors import InputError
+from bedflux.errors import InputError
 
 #: Points whose normalised head is below this are left out of the fit (near the static level
 #: the reading error dominates the displacement).

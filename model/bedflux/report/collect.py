@@ -11,7 +11,7 @@ plan       ``plan_summary.json`` or ``plan_table.csv``
 
 The folder is searched recursively; hidden folders (staging folders of a run in progress) are
 skipped. Each output is read only through the manifest its command wrote last
-(``run_manifest.json``, ...; see :mod:`bedflux.manifest`): one consistent output per folder, and
+(``run_manifest.json``, ...; see :mod:`bedflux.outputs.manifest`): one consistent output per folder, and
 only files the manifest names, that are regular files inside the project folder and whose
 SHA-256 still matches. Anything else found there (an unfinished or older output, a file changed
 since, a symbolic link leaving the folder) is listed in :attr:`Project.skipped`, never read.
@@ -28,8 +28,8 @@ from typing import Any
 
 import pandas as pd
 
-from .. import manifest
-from ..errors import InputError
+from bedflux.outputs import manifest
+from bedflux.errors import InputError
 
 #: Figures of each kind of output, in the order the report shows them.
 RUN_FIGURES = ("section.png", "bed_flux_map.png", "exchange.png", "animation.gif")

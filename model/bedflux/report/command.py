@@ -1,12 +1,14 @@
 """``bedflux report OUTDIR [-o report.html]``."""
 from __future__ import annotations
 
+from bedflux.scenario.units import FLUX_UNITS
+
 import argparse
 from pathlib import Path
 
 
 def _run(args: argparse.Namespace) -> int:
-    from . import build_report
+    from bedflux.report import build_report
 
     path = build_report(Path(args.folder), Path(args.output) if args.output else None, unit=args.units,
                         force=args.force)
@@ -28,7 +30,7 @@ def register(sub) -> None:
                         "replaced only when it is an earlier bedflux report")
     p.add_argument("--force", action="store_true",
                    help="replace the -o file even when it is not an earlier bedflux report")
-    p.add_argument("--units", default="m/d", choices=["m/d", "mm/d", "cm/d", "cm/s", "m/s"],
+    p.add_argument("--units", default="m/d", choices=list(FLUX_UNITS),
                    help="display unit of bed fluxes (default: m/d)")
     p.add_argument("-q", "--quiet", action="store_true", help="print nothing on success")
     p.set_defaults(func=_run)

@@ -14,7 +14,7 @@ from typing import Any, Iterable
 
 import pandas as pd
 
-from ..plots import flux_factor
+from bedflux.scenario.units import flux_factor
 
 DAY = 86400.0
 HOUR = 3600.0
@@ -546,7 +546,7 @@ def next_finding(plans: Iterable[tuple[str, dict | None, pd.DataFrame | None]],
 
 def findings(project, unit: str = "m/d") -> list[Finding]:
     """Every finding of a project (a :class:`bedflux.report.collect.Project`), grouped by topic."""
-    from .collect import read_table
+    from bedflux.report.collect import read_table
 
     out: list[Finding] = []
     for o in project.of_kind("run"):

@@ -14,12 +14,12 @@ from typing import Any, Iterable
 
 import pandas as pd
 
-from .. import __version__
-from . import findings as fd
-from ..fluxes import closure_phrase
-from ..io import sha256
-from .collect import MAX_REPRODUCED_BYTES, TEXT_SUFFIXES, Output, Project, read_table
-from .style import STYLESHEET
+from bedflux.version import __version__
+from bedflux.report import findings as fd
+from bedflux.outputs.summary import closure_phrase
+from bedflux.outputs.files import sha256
+from bedflux.report.collect import MAX_REPRODUCED_BYTES, TEXT_SUFFIXES, Output, Project, read_table
+from bedflux.report.style import STYLESHEET
 
 MIME = {".png": "image/png", ".gif": "image/gif", ".jpg": "image/jpeg", ".jpeg": "image/jpeg",
         ".svg": "image/svg+xml"}
