@@ -15,8 +15,7 @@ from bedflux.section.flood import flood_figures, flood_lines
 from bedflux.section.fluxes import BUDGET_LINES, closure_summary
 from bedflux.outputs.plausibility import plausibility_warnings
 from bedflux.section.results import partial_run
-
-DAY = 86400.0
+from bedflux.scenario.units import SECONDS_PER_DAY as DAY
 HOUR = 3600.0
 
 

@@ -38,9 +38,8 @@ import numpy as np
 
 from bedflux.errors import InputError
 from bedflux.scenario.inputfile import regular_file
-from bedflux.scenario.units import split_header, unit_factor
+from bedflux.scenario.units import SECONDS_PER_DAY, split_header, unit_factor
 
-SECONDS_PER_DAY = 86400.0
 #: Clock times (s after midnight) of sunrise and sunset of the daily uptake cycle.
 SUNRISE = 6 * 3600.0
 SUNSET = 18 * 3600.0

@@ -17,6 +17,9 @@ from bedflux.errors import InputError
 if TYPE_CHECKING:
     import pint
 
+#: Seconds in a day.
+SECONDS_PER_DAY = 86400.0
+
 #: Display units of fluxes (figures, report, the ``--units`` options) -> factor from m/s
 FLUX_UNITS = {"m/d": 86400.0, "mm/d": 86400e3, "cm/d": 8.64e6, "cm/s": 100.0, "m/s": 1.0}
 
