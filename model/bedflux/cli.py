@@ -7,8 +7,6 @@ send). Both signals end a transient run the same way: its outputs so far are kep
 """
 from __future__ import annotations
 
-from bedflux.scenario.units import FLUX_UNITS
-
 import argparse
 import signal
 import sys
@@ -19,6 +17,7 @@ from typing import Sequence
 
 from bedflux.version import __version__
 from bedflux.errors import InputError, SolverError
+from bedflux.outputs.verb import add_output_options, add_units_option, print_written
 
 EXAMPLE = "gaining_channel.toml"
 
@@ -51,9 +50,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
 
     scenario = Path(args.scenario) if args.scenario else example_path()
     summary = run_scenario(scenario, Path(args.output), unit=args.units, quiet=args.quiet)
-    if not args.quiet:
-        print(summary["text"], end="")
-        print(f"{'partial ' if summary['partial'] else ''}outputs written to {args.output}/")
+    print_written(args, summary["text"], partial=bool(summary["partial"]))
     if summary["partial"]:
         print(f"bedflux run: {summary['partial']}", file=sys.stderr)
         return _interrupt_status()
@@ -64,8 +61,7 @@ def _cmd_field(args: argparse.Namespace) -> int:
     from bedflux.field import run_field
 
     run_field(Path(args.sheets), Path(args.output), quiet=args.quiet, keep_flagged=args.keep_flagged)
-    if not args.quiet:
-        print(f"outputs written to {args.output}/")
+    print_written(args)
     return 0
 
 
@@ -86,10 +82,8 @@ def build_parser() -> argparse.ArgumentParser:
                                    "channel with a silty clogging patch. Writes result.nc, summary.txt, "
                                    "summary.json and figures into OUTDIR.")
     r.add_argument("scenario", nargs="?", help="scenario TOML file (omit for the built-in example)")
-    r.add_argument("-o", "--output", default="bedflux-out", help="output folder (default: bedflux-out)")
-    r.add_argument("--units", default="m/d", choices=list(FLUX_UNITS),
-                   help="display unit of fluxes in figures (files stay SI)")
-    r.add_argument("-q", "--quiet", action="store_true", help="no progress bar or summary on screen")
+    add_output_options(r, "bedflux-out", "no progress bar or summary on screen")
+    add_units_option(r, "display unit of fluxes in figures (files stay SI)")
     r.set_defaults(func=_cmd_run)
 
     f = sub.add_parser("field", help="reduce field sheets to checked observations",
@@ -98,8 +92,7 @@ def build_parser() -> argparse.ArgumentParser:
                                    "gradients and conductivities with uncertainties and flags, and write "
                                    "observations.csv for calibration with tables and figures into OUTDIR.")
     f.add_argument("sheets", help="folder with the field sheets")
-    f.add_argument("-o", "--output", default="bedflux-field", help="output folder (default: bedflux-field)")
-    f.add_argument("-q", "--quiet", action="store_true", help="no summary on screen")
+    add_output_options(f, "bedflux-field", "no summary on screen")
     f.add_argument("--keep-flagged", action="store_true",
                    help="keep flagged meters and piezometers (robust outliers, scattered repeats, gradients "
                         "within the velocity head) in observations.csv; by default they are left out and "

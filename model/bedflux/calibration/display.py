@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import math
 
-DAY = 86400.0
+from bedflux.scenario.units import SECONDS_PER_DAY as DAY
 
 #: Display factor (SI value times factor) and unit by the dimension of a parameter path.
 _UNITS = {

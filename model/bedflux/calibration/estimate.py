@@ -73,7 +73,7 @@ def _prior_terms(forward: Forward) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         if p.prior is None:
             continue
         centre[j] = p.internal(p.prior)
-        sd[j] = p.prior_sd / (p.prior * LN10) if p.log else p.prior_sd
+        sd[j] = p.prior_spread()
     return has, centre, sd
 
 

@@ -7,7 +7,8 @@ import pandas as pd
 from bedflux.errors import InputError
 from bedflux.field.flags import Flags
 from bedflux.field.sheets import Rejected, Sheet, reject_duplicates, reject_where
-from bedflux.field.slug import (bouwer_rice_k_from_lag, falling_head_fit, fit_recovery, hvorslev_k_from_lag, permeameter_kv_from_lag)
+from bedflux.field.slug import (HALF_SLOPE_SPREAD, RecoveryFit, bouwer_rice_k_from_lag, falling_head_fit, fit_recovery,
+                                hvorslev_k_from_lag, permeameter_kv_from_lag)
 from bedflux.field.stats import BetweenTerm
 
 #: Standard deviation of ln K between test locations used when a campaign has too few tests
@@ -79,6 +80,22 @@ def _reject_test(sheet: Sheet, test: str, reason: str, rejected: Rejected) -> No
         rejected.add(sheet.source, line, "test", reason, "test", test)
 
 
+#: The columns every test's row starts with (:func:`_fit_columns`).
+_FIT_COLUMNS = ["test", "site", "n", "time_lag [s]", "r2 [1]", "slope_se [1/s]"]
+
+
+def _fit_columns(sheet: Sheet, test: str, fit: RecoveryFit) -> dict:
+    """Test, site and the straight-line fit of one test, as the first columns of its row."""
+    site = sheet.texts["site"][sheet.texts["test"] == test][0]
+    return dict(zip(_FIT_COLUMNS, [test, site, fit.n, fit.time_lag, fit.r2, fit.slope_se]))
+
+
+def _not_log_linear(what: str, fit: RecoveryFit) -> str:
+    """Why a test's recovery is flagged as not log-linear."""
+    return (f"{what} is not log-linear (R^2 = {fit.r2:.3f}, or early and late slopes differ "
+            f"by more than {HALF_SLOPE_SPREAD * 100:.0f} %)")
+
+
 def reduce_slug(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.DataFrame:
     """One row per slug test: T0, R^2, Hvorslev K and, where the geometry allows, Bouwer & Rice K."""
     sheet = reject_duplicates(sheet, ("test", "time"), rejected)
@@ -108,22 +125,10 @@ def reduce_slug(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.DataFrame:
                 test_flags.append("bouwer_rice_refused")
         if not fit.log_linear:
             test_flags.append("not_log_linear")
-            flags.add("slug_tests", test, "not_log_linear",
-                      f"recovery is not log-linear (R^2 = {fit.r2:.3f}, or early and late slopes differ "
-                      "by more than 25 %)")
-        rows.append({
-            "test": test,
-            "site": sheet.texts["site"][rows_of][0],
-            "n": fit.n,
-            "time_lag [s]": fit.time_lag,
-            "r2 [1]": fit.r2,
-            "slope_se [1/s]": fit.slope_se,
-            "k_hvorslev [m/s]": k_h,
-            "k_bouwer_rice [m/s]": k_br,
-            "flags": ";".join(test_flags),
-        })
-    return pd.DataFrame(rows, columns=["test", "site", "n", "time_lag [s]", "r2 [1]", "slope_se [1/s]",
-                                       "k_hvorslev [m/s]", "k_bouwer_rice [m/s]", "flags"])
+            flags.add("slug_tests", test, "not_log_linear", _not_log_linear("recovery", fit))
+        rows.append({**_fit_columns(sheet, test, fit), "k_hvorslev [m/s]": k_h, "k_bouwer_rice [m/s]": k_br,
+                     "flags": ";".join(test_flags)})
+    return pd.DataFrame(rows, columns=_FIT_COLUMNS + ["k_hvorslev [m/s]", "k_bouwer_rice [m/s]", "flags"])
 
 
 def reduce_permeameter(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.DataFrame:
@@ -139,22 +144,10 @@ def reduce_permeameter(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.Dat
         except InputError as err:
             _reject_test(sheet, test, err.message, rejected)
             continue
-        lag, r2, ok = fit.time_lag, fit.r2, fit.log_linear
         m = geo["anisotropy"] if np.isfinite(geo["anisotropy"]) else 1.0
-        kv = permeameter_kv_from_lag(lag, geo["diameter"], geo["sediment_length"], m)
-        if not ok:
-            flags.add("permeameter_tests", test, "not_log_linear",
-                      f"head decline is not log-linear (R^2 = {r2:.3f}, or early and late slopes differ "
-                      "by more than 25 %)")
-        rows.append({
-            "test": test,
-            "site": sheet.texts["site"][rows_of][0],
-            "n": fit.n,
-            "time_lag [s]": lag,
-            "r2 [1]": r2,
-            "slope_se [1/s]": fit.slope_se,
-            "kv [m/s]": kv,
-            "flags": "" if ok else "not_log_linear",
-        })
-    return pd.DataFrame(rows, columns=["test", "site", "n", "time_lag [s]", "r2 [1]", "slope_se [1/s]", "kv [m/s]",
-                                       "flags"])
+        kv = permeameter_kv_from_lag(fit.time_lag, geo["diameter"], geo["sediment_length"], m)
+        if not fit.log_linear:
+            flags.add("permeameter_tests", test, "not_log_linear", _not_log_linear("head decline", fit))
+        rows.append({**_fit_columns(sheet, test, fit), "kv [m/s]": kv,
+                     "flags": "" if fit.log_linear else "not_log_linear"})
+    return pd.DataFrame(rows, columns=_FIT_COLUMNS + ["kv [m/s]", "flags"])

@@ -5,6 +5,7 @@ docs/field.md documents the same columns for users; keep the two together.
 from __future__ import annotations
 
 from bedflux.field.sheets import Column, SheetSpec
+from bedflux.scenario.units import SECONDS_PER_DAY as _DAY
 
 #: Belanger & Montgomery (1992): measured/actual inseepage 0.77 in tank tests at < 20 mm/h.
 DEFAULT_EFFICIENCY = 0.77
@@ -17,7 +18,6 @@ DEFAULT_READING_RESOLUTION = 1e-3
 
 # Plausible ranges (SI). A value outside one is a slip of unit or column, never a reading, so
 # it stops the run (docs/field.md lists them). They are generous on purpose.
-_DAY = 86400.0
 _YEAR = 365.25 * _DAY
 #: Elevations on the Earth's surface: the deepest ocean trench (about -11 km) to the highest
 #: peak (about 8.85 km), rounded outward.

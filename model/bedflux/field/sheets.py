@@ -17,9 +17,10 @@ from pathlib import Path
 import numpy as np
 
 from bedflux.errors import InputError
-from bedflux.scenario.units import DIMENSIONS, unit_factor
+from bedflux.scenario.units import DIMENSIONS, split_header, unit_factor
 
-_HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*(?:\[(.*)\])?\s*$")
+#: A column name of a sheet.
+_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 
 
 @dataclass(frozen=True)
@@ -126,12 +127,12 @@ def _parse_header(cells: list[str], spec: SheetSpec, source: str) -> list[tuple[
     out: list[tuple[Column, float]] = []
     seen: set[str] = set()
     for number, cell in enumerate(cells, start=1):
-        m = _HEADER.match(cell)
-        if not m:
+        parsed = split_header(cell)
+        if parsed is None or not _NAME.fullmatch(parsed[0]):
             raise InputError(
                 f"header cell '{cell}' is not 'name' or 'name [unit]'", source, f"column {number}"
             )
-        name, unit = m.group(1), m.group(2)
+        name, unit = parsed
         if name not in known:
             raise InputError(
                 f"unknown column '{name}'; a {spec.kind} sheet allows: {', '.join(known)}",
@@ -372,8 +373,8 @@ def read_sheet(path: str | Path, spec: SheetSpec, rejected: Rejected) -> Sheet:
         out = ok & np.isfinite(v) & ((v < lo) | (v > hi))
         if out.any():
             k = int(np.flatnonzero(out)[0])
-            unit = _HEADER.match(header[j].strip()).group(2) or ""
-            raise _implausible(source, int(line[k]), col, raw[k, j], factor, unit.strip(),
+            unit = split_header(header[j])[1] or ""
+            raise _implausible(source, int(line[k]), col, raw[k, j], factor, unit,
                                written[col.name][ok])
     for col in spec.columns:
         if col.name in numbers or col.name in texts:

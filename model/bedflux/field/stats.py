@@ -33,6 +33,11 @@ class Summary:
         """Upper end of the 95 % interval of the mean."""
         return self.mean + self.half_width
 
+    def columns(self, unit: str) -> dict[str, float]:
+        """The statistics as table columns whose headers carry ``unit`` (``mean [m/s]`` ...)."""
+        return {"n": self.n, f"mean [{unit}]": self.mean, f"std [{unit}]": self.std, "cv [1]": self.cv,
+                f"stderr [{unit}]": self.stderr, f"ci95_low [{unit}]": self.low, f"ci95_high [{unit}]": self.high}
+
 
 @dataclass(frozen=True)
 class BetweenTerm:

@@ -25,6 +25,7 @@ import pandas as pd
 import scipy.sparse as sp
 
 from bedflux.errors import InputError
+from bedflux.scenario.units import SECONDS_PER_DAY
 from bedflux.section.discretisation import Section, Term
 
 COLUMNS = ("kind", "x", "depth", "time", "value", "sigma")
@@ -35,7 +36,7 @@ DEFAULT_PAN_DIAMETER = 0.57
 #: repeat measurements with a half-drum meter: common practice).
 SEEPAGE_RELATIVE_SD = 0.3
 #: Smallest flux a seepage meter tells from zero (0.01 m/d, in m/s; common practice).
-SEEPAGE_FLOOR = 0.01 / 86400.0
+SEEPAGE_FLOOR = 0.01 / SECONDS_PER_DAY
 #: Head resolution of a manometer reading (0.1 mm, in m; common practice for an inverted U-tube).
 HEAD_RESOLUTION = 1e-4
 #: Deepest opening of a hand-driven mini-piezometer in sand (m; common practice). Deeper openings

@@ -28,7 +28,8 @@ import pandas as pd
 from bedflux.errors import InputError
 from bedflux.forward.observe import (DEFAULT_PAN_DIAMETER, build_operators, check_observations, linear_parts, predict)
 from bedflux.scenario.spec import Scenario
-from bedflux.section.discretisation import Section, Term, discretise
+from bedflux.section.discretisation import ET_LINEAR, Section, Term, discretise
+from bedflux.section.operator import half_cell_resistance
 from bedflux.section.steady import solve_steady
 
 LN10 = math.log(10.0)
@@ -61,6 +62,16 @@ class FreeParameter:
     def dnatural(self, m: float) -> float:
         """d(natural)/d(internal)."""
         return LN10 * 10.0**m if self.log else 1.0
+
+    def prior_spread(self) -> float | None:
+        """The prior's standard deviation in the estimation space (None without a prior).
+
+        ``prior_sd`` is given in SI; for a log parameter it is converted to decades at the
+        prior, to first order ``prior_sd / (prior ln 10)``.
+        """
+        if self.prior_sd is None:
+            return None
+        return self.prior_sd / (self.prior * LN10) if self.log else self.prior_sd
 
 
 def free_parameters(scenario: Scenario, free: list[dict], source: str = "fit") -> list[FreeParameter]:
@@ -217,9 +228,9 @@ def residual_derivative(section: Section, terms: list[Term], u: np.ndarray, kind
         horizontal = kind.name == "zone-kh"
         f = section.hfaces if horizontal else section.vfaces
         if horizontal:
-            res = (np.broadcast_to(g.dx[None, :], g.active.shape) / (2.0 * m.kh)).ravel()
+            res = half_cell_resistance(np.broadcast_to(g.dx[None, :], g.active.shape), m.kh).ravel()
         else:
-            res = (g.thickness / (2.0 * m.kv)).ravel()
+            res = half_cell_resistance(g.thickness, m.kv).ravel()
         r_lo, r_hi = res[f.lo_pos], res[f.hi_pos]
         rho = _share(section, "kh" if horizontal else "kv", kind.zone, value)
         share = r_lo * rho[f.lo_pos] + r_hi * rho[f.hi_pos]
@@ -469,8 +480,7 @@ def _lag_derivative(section: Section, factor: float, t: float, u_lag: np.ndarray
     out = np.zeros(section.n)
     if not section.et_cells.size or not section.et_cycle.any():
         return out
-    depth = section.grid.ground[section.et_cols] - (u_lag[section.et_cells] + section.h_ref)
-    linear = section.et_cycle & (depth > 0.0) & (depth < section.et_ext)
+    linear = section.et_cycle & (section.et_branch_at(u_lag) == ET_LINEAR)
     coef = np.where(linear, -factor * section.et_rate_at(t) / section.et_ext, 0.0)
     return np.bincount(section.et_cells, weights=coef, minlength=section.n)
 

@@ -16,7 +16,7 @@ import numpy as np  # noqa: E402
 import xarray as xr  # noqa: E402
 from matplotlib.colors import TwoSlopeNorm  # noqa: E402
 
-from bedflux.scenario.units import flux_factor
+from bedflux.scenario.units import SECONDS_PER_DAY, flux_factor
 from bedflux.outputs.atomic import write_with  # noqa: E402
 
 GAINING = "#5e3c99"
@@ -170,7 +170,7 @@ def exchange_figure(ds: xr.Dataset, path: str | Path) -> Path:
     the channel) with the stage hydrograph."""
     apply_style()
     t_h = ds["time"].values / 3600.0
-    ex = ds["exchange"].values * 86400.0
+    ex = ds["exchange"].values * SECONDS_PER_DAY
     fig, ax = plt.subplots(figsize=(8, 3.5))
     ax.axhline(0.0, color="0.5", lw=0.8)
     ax.plot(t_h, ex, color="k", label="net exchange")
@@ -198,7 +198,7 @@ def run_figures(ds: xr.Dataset, outdir: str | Path, unit: str = "m/d") -> list[P
 
 
 _KIND_UNITS = {"head": ("head (m)", 1.0), "vhg": ("vertical gradient (-), up > 0", 1.0),
-               "seepage": ("seepage flux (m/d), up > 0", 86400.0)}
+               "seepage": ("seepage flux (m/d), up > 0", SECONDS_PER_DAY)}
 
 
 def observed_vs_simulated(residuals, path: str | Path) -> Path:

@@ -29,8 +29,7 @@ import numpy as np
 import xarray as xr
 
 from bedflux.outputs.extremes import stretches
-
-DAY = 86400.0
+from bedflux.scenario.units import SECONDS_PER_DAY as DAY
 #: Suction beyond which a sand under the bed is taken to be unsaturated (m; common practice).
 AIR_ENTRY_SUCTION = 0.1
 #: Factor on the source excursion ``Q D^2 / (K A)`` allowed by the maximum-principle check.

@@ -8,16 +8,13 @@ interrupted transient run (Ctrl-C or SIGTERM) keeps the outputs computed so far,
 """
 from __future__ import annotations
 
-import json
 import math
 from pathlib import Path
 
-from bedflux.version import __version__
-from bedflux.outputs.atomic import write_text
 from bedflux.errors import SolverError
-from bedflux.outputs.files import copy_inputs, input_files, write_result, write_summary
-from bedflux.outputs.folder import output_folder
+from bedflux.outputs.files import input_files, write_result, write_summary
 from bedflux.outputs.progress import ProgressBar
+from bedflux.outputs.verb import staged_outputs
 from bedflux.scenario.spec import Scenario, load
 from bedflux.section.simulate import simulate
 
@@ -55,7 +52,7 @@ def run_scenario(path: Path, outdir: Path, unit: str = "m/d", quiet: bool = Fals
     scenario = load(path)
     need, how = result_size(scenario)
     failure = None
-    with output_folder(outdir, "run", need, how) as stage:
+    with staged_outputs(outdir, "run", input_files(scenario), need, how, provenance=True) as stage:
         bar = ProgressBar(enabled=not quiet, label="time steps")
         try:
             ds = simulate(scenario, progress=bar.update if scenario.transient else None)
@@ -69,11 +66,6 @@ def run_scenario(path: Path, outdir: Path, unit: str = "m/d", quiet: bool = Fals
         summary = write_summary(ds, stage)
         run_figures(ds, stage, unit)
         animate(ds, stage / "animation", unit=unit)
-        copied = copy_inputs(stage, input_files(scenario))
-        prov = {"bedflux_version": __version__,
-                "inputs": {name: c["sha256"] for name, c in copied.items()},
-                "input_paths": {name: c["path"] for name, c in copied.items()}}
-        write_text(stage / "provenance.json", json.dumps(prov, indent=2) + "\n")
     summary["partial"] = ds.attrs.get("partial", "")
     if failure is not None:
         raise SolverError(f"{failure}. The outputs before that step are in {outdir}/, marked partial") from None

@@ -15,8 +15,7 @@ from bedflux.section.flood import flood_figures, flood_lines
 from bedflux.section.fluxes import BUDGET_LINES, closure_summary
 from bedflux.outputs.plausibility import plausibility_warnings
 from bedflux.section.results import partial_run
-
-DAY = 86400.0
+from bedflux.scenario.units import SECONDS_PER_DAY as DAY
 HOUR = 3600.0
 
 
@@ -106,19 +105,15 @@ def bed_text(bed: dict, transient: bool) -> list[str]:
         where = " and ".join(f"{a:.4g} to {b:.4g}" for a, b in part["stretches_m"])
         lines.append(f"{names[name]}: x = {where} m, {part['length_m']:.3g} m"
                      + (", over the run:" if transient else ":"))
-        g, lo = part["gaining"], part["losing"]
-        if g is None:
-            lines.append("  no gaining reach")
-        else:
-            lines.append(f"  strongest upward flux {g['peak_m_per_s'] * DAY:.3g} m/d at x = {g['x_m']:.4g} m"
-                         f"{_when(g)}; {UPPER:.0f}th percentile over the wetted bed{over} "
-                         f"{g['p95_m_per_s'] * DAY:.3g} m/d")
-        if lo is None:
-            lines.append("  no losing reach")
-        else:
-            lines.append(f"  strongest downward flux {lo['peak_m_per_s'] * DAY:.3g} m/d at x = {lo['x_m']:.4g} m"
-                         f"{_when(lo)}; {LOWER:.0f}th percentile over the wetted bed{over} "
-                         f"{lo['p05_m_per_s'] * DAY:.3g} m/d")
+        for side, direction, percentile, key in (("gaining", "upward", UPPER, "p95_m_per_s"),
+                                                 ("losing", "downward", LOWER, "p05_m_per_s")):
+            reach = part[side]
+            if reach is None:
+                lines.append(f"  no {side} reach")
+            else:
+                lines.append(f"  strongest {direction} flux {reach['peak_m_per_s'] * DAY:.3g} m/d at "
+                             f"x = {reach['x_m']:.4g} m{_when(reach)}; {percentile:.0f}th percentile over the "
+                             f"wetted bed{over} {reach[key] * DAY:.3g} m/d")
         pen = part.get("penetration")
         if pen is not None:
             lines.append(f"  stream water reaches {pen['depth_m']:.3g} m below the bed at x = {pen['x_m']:.4g} m"

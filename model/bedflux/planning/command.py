@@ -7,18 +7,17 @@ from pathlib import Path
 
 import numpy as np
 
+from bedflux.outputs.verb import add_output_options, print_written, staged_outputs
 
 
 def _run(args: argparse.Namespace) -> int:
-    from bedflux.outputs.files import copy_inputs
-    from bedflux.outputs.folder import output_folder
     from bedflux.planning import plan
     from bedflux.planning.detect import detectability
     from bedflux.planning.outputs import summary_text, write_plan
     from bedflux.planning.spec import load_plan
 
     spec = load_plan(args.planfile, args.output)
-    with output_folder(args.output, "plan") as stage:
+    with staged_outputs(args.output, "plan", [Path(args.planfile)]) as stage:
         table = plan(spec.scenario, spec.free, spec.candidates, spec.n, spec.target, existing=spec.existing,
                      instruments=spec.instruments, min_spacing=spec.min_spacing,
                      max_per_transect=spec.max_per_transect, length=spec.length, pan_diameter=spec.pan_diameter,
@@ -32,12 +31,9 @@ def _run(args: argparse.Namespace) -> int:
             detect = detectability(ds, np.asarray(spec.depths), spec.instruments.head_resolution,
                                    spec.instruments.seepage_floor)
         write_plan(table, scenario, stage, detect)
-        copy_inputs(stage, [Path(args.planfile)])
-    if not args.quiet:
-        print(summary_text(table), end="")
+    print_written(args, summary_text(table))
     for warning in table.attrs.get("warnings", []):
         print(f"bedflux plan: warning: {warning}", file=sys.stderr)
-        print(f"outputs written to {args.output}/")
     return 0
 
 
@@ -51,6 +47,5 @@ def register(sub) -> None:
                                    "With a fit (the plan file's fit key, or a fit output folder beside the plan's "
                                    "output) the plan starts from the calibrated values and the fit's covariance.")
     p.add_argument("planfile", help="plan file (TOML)")
-    p.add_argument("-o", "--output", default="bedflux-plan", help="output folder (default: bedflux-plan)")
-    p.add_argument("-q", "--quiet", action="store_true", help="no summary on screen")
+    add_output_options(p, "bedflux-plan", "no summary on screen")
     p.set_defaults(func=_run)

@@ -13,6 +13,8 @@ import numpy as np
 import pandas as pd
 import xarray as xr
 
+from bedflux.forward.observe import HEAD_RESOLUTION, SEEPAGE_FLOOR
+
 
 def _durations(t: np.ndarray, mask: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Total time a boolean series is true (trapezoid on the output times), first and last time."""
@@ -46,8 +48,8 @@ def head_at_depth(ds: xr.Dataset, depths: np.ndarray) -> np.ndarray:
     return out
 
 
-def detectability(ds: xr.Dataset, depths: np.ndarray, head_resolution: float = 1e-4,
-                  seepage_floor: float = 0.01 / 86400.0) -> tuple[pd.DataFrame, pd.DataFrame]:
+def detectability(ds: xr.Dataset, depths: np.ndarray, head_resolution: float = HEAD_RESOLUTION,
+                  seepage_floor: float = SEEPAGE_FLOOR) -> tuple[pd.DataFrame, pd.DataFrame]:
     """Tables of detectable reversal duration for piezometers (x, depth) and seepage meters (x).
 
     Only columns submerged for the whole run are mapped (a manometer needs the stream above it).

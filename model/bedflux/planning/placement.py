@@ -26,7 +26,7 @@ def prior_covariance(free: list[FreeParameter]) -> np.ndarray:
     sd = []
     for p in free:
         if p.prior_sd is not None:
-            sd.append(p.prior_sd / (p.prior * np.log(10.0)) if p.log else p.prior_sd)
+            sd.append(p.prior_spread())
         else:
             sd.append((p.internal(p.high) - p.internal(p.low)) / 4.0)
     return np.diag(np.square(sd))

@@ -27,7 +27,7 @@ import numpy as np
 from bedflux.errors import InputError
 from bedflux.calibration.display import dimension_of, display_unit
 from bedflux.forward.sensitivity import Forward
-from bedflux.scenario.units import DIMENSIONS
+from bedflux.scenario.units import DIMENSIONS, SECONDS_PER_DAY
 
 
 @dataclass(frozen=True)
@@ -51,8 +51,8 @@ class Target:
             return DIMENSIONS[dimension_of(self.path)][1], factor, unit
         return {"parameters": ("", 1.0, "(geometric mean in the estimation space: log10 units for log "
                                         "parameters, SI otherwise)"),
-                "exchange": ("m^2/s", 86400.0, "m2/d per m"),
-                "reach_total": ("m^3/s", 86400.0, "m3/d"),
+                "exchange": ("m^2/s", SECONDS_PER_DAY, "m2/d per m"),
+                "reach_total": ("m^3/s", SECONDS_PER_DAY, "m3/d"),
                 "reversal": ("s", 1.0 / 3600.0, "h")}[self.kind]
 
     def spread_text(self, spread: float) -> str:

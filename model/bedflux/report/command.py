@@ -1,10 +1,10 @@
 """``bedflux report OUTDIR [-o report.html]``."""
 from __future__ import annotations
 
-from bedflux.scenario.units import FLUX_UNITS
-
 import argparse
 from pathlib import Path
+
+from bedflux.outputs.verb import add_output_options, add_units_option
 
 
 def _run(args: argparse.Namespace) -> int:
@@ -25,12 +25,10 @@ def register(sub) -> None:
                                    "in plain words, the figures embedded, the tables, the scenario and fit "
                                    "files, provenance and cautions. Print it to PDF from a browser.")
     p.add_argument("folder", metavar="OUTDIR", help="project folder with bedflux outputs")
-    p.add_argument("-o", "--output", default=None,
-                   help="report file ending in .html (default: OUTDIR/report.html); an existing file is "
-                        "replaced only when it is an earlier bedflux report")
+    add_output_options(p, None, "print nothing on success",
+                       output_help="report file ending in .html (default: OUTDIR/report.html); an existing "
+                                   "file is replaced only when it is an earlier bedflux report")
     p.add_argument("--force", action="store_true",
                    help="replace the -o file even when it is not an earlier bedflux report")
-    p.add_argument("--units", default="m/d", choices=list(FLUX_UNITS),
-                   help="display unit of bed fluxes (default: m/d)")
-    p.add_argument("-q", "--quiet", action="store_true", help="print nothing on success")
+    add_units_option(p, "display unit of bed fluxes (default: m/d)")
     p.set_defaults(func=_run)

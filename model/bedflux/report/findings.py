@@ -14,9 +14,8 @@ from typing import Any, Iterable
 
 import pandas as pd
 
+from bedflux.scenario.units import SECONDS_PER_DAY as DAY
 from bedflux.scenario.units import flux_factor
-
-DAY = 86400.0
 HOUR = 3600.0
 
 #: Section of the findings each topic belongs to, in display order.

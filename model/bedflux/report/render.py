@@ -140,6 +140,20 @@ def reproduce(path: Path, label: str) -> str:
 
 # --------------------------------------------------------------------------- sections
 
+def _opening(o: Output, title: str) -> list[str]:
+    """The start of an output's section: its title and folder."""
+    return [f'<section id="{o.anchor}"><h2>{esc(title)}</h2>', f'<p class="meta">folder {esc(o.label)}</p>']
+
+
+def _closing(o: Output, heading: str) -> list[str]:
+    """The end of an output's section: its input files reproduced under ``heading``."""
+    parts = []
+    if o.inputs:
+        parts.append(f"<h3>{esc(heading)}</h3>")
+        parts += [reproduce(p, p.relative_to(o.folder).as_posix()) for p in o.inputs]
+    return parts + ["</section>"]
+
+
 def _findings_section(found: list[fd.Finding]) -> str:
     parts = ['<section class="findings" id="findings"><h2>Findings</h2>']
     for topic, heading in fd.TOPICS.items():
@@ -194,9 +208,8 @@ def _run_section(o: Output, unit: str) -> str:
                  ("deepest stream water below the bed", fd.length(ev.get("max_penetration_depth")))]
     for w in s.get("warnings") or []:
         rows.append(("WARNING", str(w)))
-    parts = [f'<section id="{o.anchor}"><h2>Model run: {esc(s.get("title", o.label))}</h2>',
-             f'<p class="meta">folder {esc(o.label)}</p>', keys_table(rows, "Key numbers (SI files; shown in "
-                                                                          f"m³/d per metre and {unit})")]
+    parts = _opening(o, f"Model run: {s.get('title', o.label)}") + [
+        keys_table(rows, f"Key numbers (SI files; shown in m³/d per metre and {unit})")]
     bin_ = s.get("budget_in_m2_per_s") or {}
     bout = s.get("budget_out_m2_per_s") or {}
     terms = [t for t in bin_ if abs(bin_.get(t, 0.0)) > 0 or abs(bout.get(t, 0.0)) > 0]
@@ -232,10 +245,7 @@ def _run_section(o: Output, unit: str) -> str:
                 "volume_into_bed": "into bed (m³/m²)", "volume_returned": "returned (m³/m²)",
                 "penetration_depth": "depth reached (m)", "penetration_time": "deepest at (h)"})
             parts.append(table(shown, "Exchange events by column", source=f"{o.label}/events.csv"))
-    if o.inputs:
-        parts.append("<h3>Scenario files</h3>")
-        parts += [reproduce(p, p.relative_to(o.folder).as_posix()) for p in o.inputs]
-    parts.append("</section>")
+    parts += _closing(o, "Scenario files")
     return "".join(parts)
 
 
@@ -289,16 +299,12 @@ def _field_section(o: Output, unit: str) -> str:
                  ("per metre of channel", fd.signed_per_metre(reach.get("per_metre_of_channel [m^2/s]", float("nan")))),
                  ("area and length", f"{fd.number(reach.get('area [m^2]'))} m², {fd.length(reach.get('length [m]'))}"),
                  ("method", reach.get("method", ""))]
-    parts = [f'<section id="{o.anchor}"><h2>Field measurements</h2>', f'<p class="meta">folder {esc(o.label)}</p>',
-             keys_table(rows, "Summary of the field sheets")]
+    parts = _opening(o, "Field measurements") + [keys_table(rows, "Summary of the field sheets")]
     for fig in o.figures:
         parts.append(figure(fig, "field", f"{fig.stem} of the field campaign"))
     for name, path in o.tables.items():
         parts.append(table(read_table(path), name, source=f"{o.label}/{name}"))
-    if o.inputs:
-        parts.append("<h3>Input files</h3>")
-        parts += [reproduce(p, p.relative_to(o.folder).as_posix()) for p in o.inputs]
-    parts.append("</section>")
+    parts += _closing(o, "Input files")
     return "".join(parts)
 
 
@@ -315,8 +321,7 @@ def _fit_section(o: Output) -> str:
                      "scaled sensitivity": css.get(p, float("nan")),
                      "verdict": (r.get("verdicts") or {}).get(p, "")})
     st = r.get("statistics") or {}
-    parts = [f'<section id="{o.anchor}"><h2>Calibration</h2>', f'<p class="meta">folder {esc(o.label)}</p>',
-             table(pd.DataFrame(rows), "Calibrated parameters (SI in the files)")]
+    parts = _opening(o, "Calibration") + [table(pd.DataFrame(rows), "Calibrated parameters (SI in the files)")]
     if st:
         parts.append(keys_table([(k.replace("_", " "), cell(v) if isinstance(v, float) else str(v))
                                  for k, v in st.items()], "Fit statistics"))
@@ -332,18 +337,14 @@ def _fit_section(o: Output) -> str:
             worst = res.reindex(res["weighted_residual"].abs().sort_values(ascending=False).index).head(10)
             parts.append(table(worst, f"The 10 largest weighted residuals of {len(res)}",
                                source=f"{o.label}/residuals.csv"))
-    if o.inputs:
-        parts.append("<h3>Fit file and calibrated scenario</h3>")
-        parts += [reproduce(p, p.relative_to(o.folder).as_posix()) for p in o.inputs]
-    parts.append("</section>")
+    parts += _closing(o, "Fit file and calibrated scenario")
     return "".join(parts)
 
 
 def _plan_section(o: Output) -> str:
     s = o.data.get("plan_summary") or {}
     t = o.data.get("plan_table")
-    parts = [f'<section id="{o.anchor}"><h2>Plan for the next measurements</h2>',
-             f'<p class="meta">folder {esc(o.label)}</p>']
+    parts = _opening(o, "Plan for the next measurements")
     rows = []
     for k, v in s.items():
         if k == "picks" or isinstance(v, list):
@@ -363,10 +364,7 @@ def _plan_section(o: Output) -> str:
         parts.append(table(pd.DataFrame([p for p in s["picks"] if isinstance(p, dict)]), "Ranked picks"))
     for fig in o.figures:
         parts.append(figure(fig, "plan", f"{fig.stem} of the plan"))
-    if o.inputs:
-        parts.append("<h3>Plan files</h3>")
-        parts += [reproduce(p, p.relative_to(o.folder).as_posix()) for p in o.inputs]
-    parts.append("</section>")
+    parts += _closing(o, "Plan files")
     return "".join(parts)
 
 

@@ -31,7 +31,6 @@ uptake between sunset (18:00) and sunrise (06:00), a half-sine by day peaking at
 from __future__ import annotations
 
 import csv
-import re
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
@@ -39,11 +38,8 @@ import numpy as np
 
 from bedflux.errors import InputError
 from bedflux.scenario.inputfile import regular_file
-from bedflux.scenario.units import unit_factor
+from bedflux.scenario.units import SECONDS_PER_DAY, split_header, unit_factor
 
-_HEADER = re.compile(r"^\s*([^\[\]]+?)\s*\[\s*([^\]]*)\s*\]\s*$")
-
-SECONDS_PER_DAY = 86400.0
 #: Clock times (s after midnight) of sunrise and sunset of the daily uptake cycle.
 SUNRISE = 6 * 3600.0
 SUNSET = 18 * 3600.0
@@ -206,13 +202,6 @@ class Series:
 Signal = Constant | Pulse | FloodWave | Wave | Series
 
 
-def _split_header(name: str, source: str, column: int) -> tuple[str, str | None]:
-    m = _HEADER.match(name)
-    if not m:
-        return name.strip(), None
-    return m.group(1).strip(), m.group(2).strip()
-
-
 def read_series(path: str | Path, dimension: str = "length", value_name: str | None = None) -> Series:
     """Read a two-column time series from CSV.
 
@@ -241,7 +230,7 @@ def read_series(path: str | Path, dimension: str = "length", value_name: str | N
     if len(rows) < 3:
         raise InputError("a series needs a header row and at least two data rows", source=source)
     header = rows[0]
-    names = [_split_header(h, source, i) for i, h in enumerate(header)]
+    names = [split_header(h) or (h.strip(), None) for h in header]
     if value_name is None:
         if len(header) < 2:
             raise InputError("expected two columns: time and value", source=source, where="row 1")

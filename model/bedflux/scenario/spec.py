@@ -16,6 +16,7 @@ import numpy as np
 from bedflux.scenario import checks
 from bedflux.scenario.bedform import dynamic_head_amplitude
 from bedflux.errors import InputError
+from bedflux.scenario.units import SECONDS_PER_DAY
 from bedflux.scenario.forcing import (Constant, FloodWave, Pulse, Series, Signal, Wave, parse_datetime, read_series)
 from bedflux.scenario.inputfile import read_toml
 
@@ -132,7 +133,7 @@ class TimeSpec:
     @property
     def clock0(self) -> float:
         """Clock time of ``t = 0`` in seconds after midnight."""
-        return 0.0 if self.origin is None else self.origin % 86400.0
+        return 0.0 if self.origin is None else self.origin % SECONDS_PER_DAY
 
 
 @dataclass(frozen=True)

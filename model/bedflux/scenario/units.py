@@ -17,6 +17,9 @@ from bedflux.errors import InputError
 if TYPE_CHECKING:
     import pint
 
+#: Seconds in a day.
+SECONDS_PER_DAY = 86400.0
+
 #: Display units of fluxes (figures, report, the ``--units`` options) -> factor from m/s
 FLUX_UNITS = {"m/d": 86400.0, "mm/d": 86400e3, "cm/d": 8.64e6, "cm/s": 100.0, "m/s": 1.0}
 
@@ -47,8 +50,22 @@ DIMENSIONS: dict[str, tuple[str, str, str]] = {
 #: A number followed by a unit (the unit must parse as a unit alone: no factors, no arithmetic).
 _QUANTITY = re.compile(r"^\s*[-+]?(\d+(\.\d*)?|\.\d+)([eE][-+]?\d+)?(?P<unit>.*)$")
 
+#: A CSV header cell: ``name [unit]`` or a bare ``name`` (no brackets in either).
+_HEADER = re.compile(r"^\s*(?P<name>[^\[\]]+?)\s*(?:\[(?P<unit>[^\[\]]*)\]\s*)?$")
+
 #: Tokens that mean "per day" etc. written the way field notes do.
 _ALIASES = {"m/d": "m/day", "cm/d": "cm/day", "mm/d": "mm/day", "m/yr": "m/year", "mm/yr": "mm/year"}
+
+
+def split_header(cell: str) -> tuple[str, str | None] | None:
+    """Name and unit of a CSV header cell ``name [unit]`` (both stripped; the unit ``None`` for a
+    bare ``name``), or ``None`` when the cell is neither (no name, or brackets that are not one
+    pair at its end)."""
+    m = _HEADER.match(cell)
+    if not m:
+        return None
+    unit = m.group("unit")
+    return m.group("name"), None if unit is None else unit.strip()
 
 
 @lru_cache(maxsize=1)

@@ -40,10 +40,22 @@ from bedflux.scenario.forcing import daylight_mean
 from bedflux.section.grid import MIN_COLUMNS_PER_BEDFORM, Grid, GroundPieces, build_grid, ground_pieces
 from bedflux.section.materials import Materials, materials
 from bedflux.scenario.spec import BoundarySpec, Scenario
-from bedflux.section.operator import (Faces, conductance_matrix, diagonal_positions, horizontal_faces, joined, skew_faces, unknown_positions, vertical_faces)
+from bedflux.section.operator import (Faces, conductance_matrix, diagonal_positions, half_cell_resistance, horizontal_faces,
+                                      joined, skew_faces, unknown_positions, vertical_faces)
 
 #: Wetted fractions this close to 0 or 1 count as dry or fully submerged (round-off at the edge).
 FRACTION_SNAP = 1e-9
+
+#: Branches of the ET rule (:func:`et_branch`): none below the extinction depth, linear in the
+#: depth to water between, the full rate with the water table at or above the ground.
+ET_NONE, ET_LINEAR, ET_FULL = 0, 1, 2
+
+
+def et_branch(depth: np.ndarray, extinction_depth: np.ndarray) -> np.ndarray:
+    """The branch of ``ET = rate * clip(1 - depth / extinction_depth, 0, 1)`` at each depth to
+    water ``depth`` (m, ground minus head): :data:`ET_FULL` at or above the ground,
+    :data:`ET_NONE` at or below the extinction depth, :data:`ET_LINEAR` between (int8)."""
+    return np.where(depth <= 0.0, ET_FULL, np.where(depth >= extinction_depth, ET_NONE, ET_LINEAR)).astype(np.int8)
 
 
 @dataclass
@@ -230,7 +242,11 @@ class Section:
     # ---------------------------------------------------------------------------- active sets
     def initial_active_set(self) -> ActiveSet:
         """No seepage faces; evapotranspiration on its linear branch."""
-        return ActiveSet(np.zeros(self.grid.nx, dtype=bool), np.ones(self.et_cells.size, dtype=np.int8))
+        return ActiveSet(np.zeros(self.grid.nx, dtype=bool), np.full(self.et_cells.size, ET_LINEAR, dtype=np.int8))
+
+    def et_branch_at(self, u: np.ndarray) -> np.ndarray:
+        """The ET branch (:func:`et_branch`) of each ET entry for the relative heads ``u``."""
+        return et_branch(self.grid.ground[self.et_cols] - (u[self.et_cells] + self.h_ref), self.et_ext)
 
     def terms(self, t: float, state: ActiveSet, steady: bool = True,
               u_lag: np.ndarray | None = None, et_window: tuple[float, float] | None = None) -> list[Term]:
@@ -290,16 +306,15 @@ class Section:
             if explicit.any():
                 # daily cycle: ET taken at the heads of the start of the step (explicit); its
                 # dependence on head is weak (rate / extinction depth), so this is stable
-                depth = ground - (u_lag[self.et_cells] + self.h_ref)
-                mode = np.where(explicit, np.where(depth <= 0.0, 2, np.where(depth >= self.et_ext, 0, 1)), mode)
+                mode = np.where(explicit, self.et_branch_at(u_lag), mode)
             # ET = f rate (1 - (ground - h)/ext) on the linear branch, f rate when h >= ground
-            implicit = (mode == 1) & ~explicit
+            implicit = (mode == ET_LINEAR) & ~explicit
             gg = np.where(implicit, rate / self.et_ext, 0.0)
             linear_r = -rate * (1.0 - (ground - self.h_ref) / self.et_ext)
             if explicit.any():
                 lagged = -rate * (1.0 - (ground - self.h_ref - u_lag[self.et_cells]) / self.et_ext)
                 linear_r = np.where(explicit, lagged, linear_r)
-            r = np.where(mode == 1, linear_r, np.where(mode == 2, -rate, 0.0))
+            r = np.where(mode == ET_LINEAR, linear_r, np.where(mode == ET_FULL, -rate, 0.0))
             out.append(Term("evapotranspiration", "cell", self.et_cells, self.et_cols, gg, r))
         return out
 
@@ -308,7 +323,6 @@ class Section:
         the ground, release where a seepage face would draw in more than the recharge; ET branch
         from the depth to water of each root-zone cell."""
         new = state.copy()
-        g = self.grid
         ws = self.wet_state(t)
         h_top = u[self.top_cells] + self.h_ref
         # the top cell's head rising above the ground makes a seepage face; with the release rule
@@ -322,8 +336,7 @@ class Section:
                 new.seepage[term.place[release]] = False
         new.seepage[ws.fraction >= 1.0] = False
         if self.et_cells.size:
-            depth = g.ground[self.et_cols] - (u[self.et_cells] + self.h_ref)
-            new.et_mode = np.where(depth <= 0.0, 2, np.where(depth >= self.et_ext, 0, 1)).astype(np.int8)
+            new.et_mode = self.et_branch_at(u)
         return new
 
     # ---------------------------------------------------------------------------- storage
@@ -388,12 +401,12 @@ def _side_geometry(grid: Grid, mat: Materials, idx: np.ndarray, side: str) -> _S
         col = 0 if side == "left" else grid.nx - 1
         rows = np.nonzero(grid.active[:, col])[0]
         area = grid.thickness[rows, col]
-        cond = area / (grid.dx[col] / (2.0 * mat.kh[rows, col]))
+        cond = area / half_cell_resistance(grid.dx[col], mat.kh[rows, col])
         return _SideGeometry(idx[rows, col], rows, cond, area)
     row = grid.nz - 1
     cols = np.arange(grid.nx)
     area = grid.dx
-    cond = area / (grid.thickness[row] / (2.0 * mat.kv[row]))
+    cond = area / half_cell_resistance(grid.thickness[row], mat.kv[row])
     return _SideGeometry(idx[row], cols, cond, area)
 
 
@@ -480,7 +493,7 @@ def discretise(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = Non
     L = conductance_matrix(grid.n_active, [hf, vf, sk])
     cols = np.arange(grid.nx)
     top_cells = idx[grid.top_row, cols]
-    top_half = grid.thickness[grid.top_row, cols] / (2.0 * mat.kv[grid.top_row, cols])
+    top_half = half_cell_resistance(grid.thickness[grid.top_row, cols], mat.kv[grid.top_row, cols])
     stream = scenario.stream
     limits = stream.channel if stream is not None and stream.channel is not None else None
     cuts = list(limits or ()) + [v for r in scenario.riparian for v in r.x]

@@ -54,6 +54,26 @@ class Fluxes:
         return closure(self.budget_in, self.budget_out, self.gross)
 
 
+def inflow_outflow(q: np.ndarray, weight: float = 1.0) -> tuple[float, float]:
+    """What enters (the sum of the positive flows of ``q``, positive into the aquifer) and what
+    leaves (the sum of the negative ones, as a positive number), both times ``weight``."""
+    return weight * float(q[q > 0].sum()), -weight * float(q[q < 0].sum())
+
+
+def term_budget(terms: list[Term], u: np.ndarray, weight: float = 1.0,
+                into: tuple[dict[str, float], dict[str, float]] | None = None
+                ) -> tuple[dict[str, float], dict[str, float]]:
+    """Inflow and outflow of every budget line through ``terms`` at relative heads ``u``, times
+    ``weight``; added to ``into`` when given (a new pair of zero budgets otherwise)."""
+    budget_in, budget_out = into if into is not None else ({k: 0.0 for k in BUDGET_LINES},
+                                                           {k: 0.0 for k in BUDGET_LINES})
+    for term in terms:
+        flow_in, flow_out = inflow_outflow(term.inflow(u), weight)
+        budget_in[term.kind] += flow_in
+        budget_out[term.kind] += flow_out
+    return budget_in, budget_out
+
+
 def closure(budget_in: dict[str, float], budget_out: dict[str, float], gross: float) -> float:
     """``(sum in - sum out) / gross``; NaN when the gross flow is zero (nothing flows)."""
     net = sum(budget_in.values()) - sum(budget_out.values())
@@ -126,16 +146,13 @@ def derive(section: Section, u: np.ndarray, terms: list[Term], storage_inflow: n
     stream_flow = np.zeros(g.nx)
     stream_width = np.zeros(g.nx)
     gross = gross_flow(terms, u)
-    budget_in = {k: 0.0 for k in BUDGET_LINES}
-    budget_out = {k: 0.0 for k in BUDGET_LINES}
+    budget_in, budget_out = term_budget(terms, u)
     stream_cols = np.zeros(g.nx, dtype=bool)
     exchange = 0.0
     for term in terms:
         q = term.inflow(u)
         if term.kind == "stream":
             exchange -= float(q.sum())
-        budget_in[term.kind] += float(q[q > 0].sum())
-        budget_out[term.kind] -= float(q[q < 0].sum())
         if term.face == "top":
             # a partly wetted column has a stream term and a dry-part term on one top face
             top_flow += np.bincount(term.place, -q, g.nx)
@@ -151,8 +168,7 @@ def derive(section: Section, u: np.ndarray, terms: list[Term], storage_inflow: n
         elif term.face == "right":
             right[term.place, g.nx - 1] = -q / g.thickness[term.place, g.nx - 1]
     if storage_inflow is not None:
-        budget_in["storage"] = float(storage_inflow[storage_inflow > 0].sum())
-        budget_out["storage"] = -float(storage_inflow[storage_inflow < 0].sum())
+        budget_in["storage"], budget_out["storage"] = inflow_outflow(storage_inflow)
         gross += float(np.abs(storage_inflow).sum())
     top_flux = top_flow / g.dx
     upper[g.top_row, np.arange(g.nx)] = top_flux

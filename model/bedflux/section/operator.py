@@ -48,6 +48,14 @@ class Faces:
         return self.positions[self.hi]
 
 
+def half_cell_resistance(length: np.ndarray, conductivity: np.ndarray) -> np.ndarray:
+    """Resistance of half a cell to flow across ``length`` (its width or thickness, m) per unit
+    face area: ``length / (2 K)`` (s). A face between two cells, or between a cell and a boundary
+    held at a head, conducts its area over the sum of the half cells (and any leakance) in series.
+    """
+    return length / (2.0 * conductivity)
+
+
 def _pairs(active: np.ndarray, offset_rows: int, offset_cols: int) -> tuple[np.ndarray, np.ndarray]:
     """Flat positions (a, b) of active cell pairs with b = a + (offset_rows, offset_cols), int32."""
     nz, nx = active.shape
@@ -80,7 +88,7 @@ def horizontal_faces(grid: Grid, mat: Materials, periodic: bool, positions: np.n
     ca, cb = a - ra * nx, b - rb * nx
     # overlap of the two cells' vertical extents (the top cells are cut at the ground)
     area = np.minimum(bottom[ra] + t[a], bottom[rb] + t[b]) - np.maximum(bottom[ra], bottom[rb])
-    c = area / (grid.dx[ca] / (2.0 * kh[a]) + grid.dx[cb] / (2.0 * kh[b]))
+    c = area / (half_cell_resistance(grid.dx[ca], kh[a]) + half_cell_resistance(grid.dx[cb], kh[b]))
     return Faces(idx[a], idx[b], c, area, positions)
 
 
@@ -115,7 +123,7 @@ def skew_faces(grid: Grid, mat: Materials, periodic: bool, positions: np.ndarray
     hi = np.concatenate(hi_cells).astype(np.int32)
     area = np.concatenate(areas)
     a, b, ta, row = np.concatenate(cols, axis=1)
-    c = area / (grid.dx[a] / (2.0 * mat.kh[ta, a]) + grid.dx[b] / (2.0 * mat.kh[row, b]))
+    c = area / (half_cell_resistance(grid.dx[a], mat.kh[ta, a]) + half_cell_resistance(grid.dx[b], mat.kh[row, b]))
     return Faces(lo, hi, c, area, positions)
 
 
@@ -133,7 +141,7 @@ def vertical_faces(grid: Grid, mat: Materials, positions: np.ndarray) -> Faces:
     kv = mat.kv.ravel()
     t = grid.thickness.ravel()
     dx = grid.dx[lower % grid.nx]
-    c = dx / (t[upper] / (2.0 * kv[upper]) + t[lower] / (2.0 * kv[lower]))
+    c = dx / (half_cell_resistance(t[upper], kv[upper]) + half_cell_resistance(t[lower], kv[lower]))
     return Faces(idx[lower], idx[upper], c, dx, positions)
 
 

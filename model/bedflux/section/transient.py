@@ -30,7 +30,8 @@ import numpy as np
 
 from bedflux.errors import SolverError
 from bedflux.section.flood import peak_attrs
-from bedflux.section.fluxes import BUDGET_LINES, CLOSURE_LIMIT, Fluxes, check_closure, derive, gross_flow
+from bedflux.section.fluxes import (BUDGET_LINES, CLOSURE_LIMIT, Fluxes, check_closure, derive, gross_flow,
+                                    inflow_outflow, term_budget)
 from bedflux.section.linear import Factor, factorize
 from bedflux.section.discretisation import ActiveSet, Section, Term
 from bedflux.section.steady import solve_steady
@@ -249,16 +250,6 @@ def _combine(pieces: list) -> tuple[np.ndarray, tuple[dict, dict, float]]:
     return storage, (bin_, bout, sum(w * b[2] for w, _, b in pieces))
 
 
-def _budget(section: Section, terms: list[Term], u: np.ndarray, weight: float,
-            into: tuple[dict, dict] | None = None) -> tuple[dict, dict]:
-    bin_, bout = into if into is not None else ({k: 0.0 for k in BUDGET_LINES}, {k: 0.0 for k in BUDGET_LINES})
-    for term in terms:
-        q = term.inflow(u)
-        bin_[term.kind] += weight * float(q[q > 0].sum())
-        bout[term.kind] -= weight * float(q[q < 0].sum())
-    return bin_, bout
-
-
 def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: float, theta: float,
           state: ActiveSet, terms0: list[Term]):
     """One step from ``t0`` to ``t0 + dt``; returns its :class:`StepInfo`, the storage release
@@ -309,13 +300,12 @@ def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: f
         raise SolverError(f"seepage faces / evapotranspiration branches did not settle in the step to "
                           f"t = {t1:g} s; shorten [time] step")
     storage_in = -(S_el * (u1 - u0) + S_wt * (u1 - u0_wt)) / dt - fill
-    bin_, bout = _budget(section, terms1, u1, theta)
+    bin_, bout = term_budget(terms1, u1, theta)
     gross = theta * gross_flow(terms1, u1)
     if theta != 1.0:
-        _budget(section, terms0, u0, 1.0 - theta, into=(bin_, bout))
+        term_budget(terms0, u0, 1.0 - theta, into=(bin_, bout))
         gross += (1.0 - theta) * gross_flow(terms0, u0)
-    bin_["storage"] = float(storage_in[storage_in > 0].sum())
-    bout["storage"] = -float(storage_in[storage_in < 0].sum())
+    bin_["storage"], bout["storage"] = inflow_outflow(storage_in)
     gross += float((S_el * (np.abs(u1) + np.abs(u0)) + S_wt * (np.abs(u1) + np.abs(u0_wt))).sum() / dt
                    + np.abs(fill).sum())
     info = StepInfo(t0, t1, dt, theta, u0, u1, u0_wt, terms0, terms1, factor, S_el, S_wt, fill,
