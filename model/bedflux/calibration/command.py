@@ -12,7 +12,7 @@ def _run(args: argparse.Namespace) -> int:
     from bedflux.outputs.folder import output_folder
     from bedflux.forward.sensitivity import Forward
     from bedflux.calibration.estimate import calibrate
-    from bedflux.calibration.outputs import summary_text, write_fit
+    from bedflux.calibration.outputs import fit_summary_text, write_fit
     from bedflux.calibration.spec import load_fit
 
     spec = load_fit(args.fitfile)
@@ -24,7 +24,7 @@ def _run(args: argparse.Namespace) -> int:
         write_fit(result, spec.scenario, stage)
         copy_inputs(stage, [Path(args.fitfile)])
     if not args.quiet:
-        print(summary_text(result), end="")
+        print(fit_summary_text(result), end="")
         print(f"outputs written to {args.output}/")
     return 0
 

@@ -14,7 +14,7 @@ def _run(args: argparse.Namespace) -> int:
     from bedflux.outputs.folder import output_folder
     from bedflux.planning import plan
     from bedflux.planning.detect import detectability
-    from bedflux.planning.outputs import summary_text, write_plan
+    from bedflux.planning.outputs import plan_summary_text, write_plan
     from bedflux.planning.spec import load_plan
 
     spec = load_plan(args.planfile, args.output)
@@ -34,7 +34,7 @@ def _run(args: argparse.Namespace) -> int:
         write_plan(table, scenario, stage, detect)
         copy_inputs(stage, [Path(args.planfile)])
     if not args.quiet:
-        print(summary_text(table), end="")
+        print(plan_summary_text(table), end="")
     for warning in table.attrs.get("warnings", []):
         print(f"bedflux plan: warning: {warning}", file=sys.stderr)
         print(f"outputs written to {args.output}/")
