@@ -120,7 +120,7 @@ def _base(**over):
 @pytest.mark.parametrize("over,needle", [
     ({"zone": [{"name": "aquifer", "kh": 1e-5}, {"name": "far", "kh": 1e-6, "depth": 1, "x": [100, 200]}]},
      "covers no cell"),
-    ({"riparian": [{"x": [100, 200], "rate": "3 mm/d", "extinction_depth": 2}]}, "no column centre"),
+    ({"riparian": [{"x": [100, 200], "max_rate": "3 mm/d", "extinction_depth": 2}]}, "no column centre"),
     ({"stream": {"stage": "1e6 m"}}, "check the unit"),
     ({"zone": [{"name": "aquifer", "kh": 1e300}]}, "above 1 m/s"),
 ])

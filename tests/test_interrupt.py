@@ -20,7 +20,7 @@ from bedflux.section.simulate import transient_dataset
 def test_interrupt_returns_partial_outputs():
     s = bedflux.Scenario.from_dict({
         "grid": {"x": [0, 1], "bottom": -2, "dx": 1, "dz": 0.1}, "ground": {"elevation": 0},
-        "zone": [{"name": "a", "kh": 1e-5, "ss": 1e-4}],
+        "zone": [{"name": "a", "kh": 1e-5, "specific_storage": 1e-4}],
         "stream": {"wave": {"mean": 0.5, "amplitude": 0.2, "period": "1 h"}},
         "time": {"end": "4 h", "step": "5 min", "output_every": "30 min"}})
 

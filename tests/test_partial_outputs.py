@@ -17,11 +17,11 @@ from bedflux.outputs.animation import render_frames
 from bedflux.outputs.files import read_result
 from bedflux.report import build_report
 from bedflux.report.collect import collect
-from bedflux.report import findings as fd
+from bedflux.report import findings
 
 SCENARIO = ('title = "Stage wave over a column (invented)"\n'
             '[grid]\nx = [0, 4]\nbottom = -2\ndx = 0.5\ndz = 0.1\n[ground]\nelevation = 0\n'
-            '[[zone]]\nname = "a"\nkh = 1e-5\nss = 1e-4\nsy = 0.2\n'
+            '[[zone]]\nname = "a"\nkh = 1e-5\nspecific_storage = 1e-4\nspecific_yield = 0.2\n'
             '[stream.wave]\nmean = 0.5\namplitude = 0.2\nperiod = "1 h"\n'
             '[time]\nend = "4 h"\nstep = "5 min"\noutput_every = "30 min"\n')
 
@@ -82,7 +82,7 @@ def test_summary_says_where_it_stopped(partial):
 def test_report_findings_say_interrupted(partial):
     root, _, _ = partial
     stop = _stop_time(root / "out")
-    found = fd.findings(collect(root / "out"))
+    found = findings.findings(collect(root / "out"))
     text = " ".join(f.text for f in found)
     assert f"interrupted at t = {stop / 3600:.1f} h, of 4.0 h" in text
     assert "At the last output of the interrupted run" in text

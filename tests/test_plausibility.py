@@ -25,7 +25,7 @@ import pytest
 import bedflux
 from bedflux.outputs.files import write_summary
 from bedflux.outputs.plausibility import impossible_heads, plausibility_warnings
-from bedflux.report import findings as fd
+from bedflux.report import findings
 
 DAY = 86400.0
 
@@ -53,7 +53,7 @@ def test_conductivity_too_low_for_the_imposed_outflow(tmp_path):
     assert "WARNING: physically impossible" in (tmp_path / "summary.txt").read_text()
     saved = json.loads((tmp_path / "summary.json").read_text())
     assert any("physically impossible" in x for x in saved["warnings"])
-    f = fd.warnings_finding(saved, "run")
+    f = findings.warnings_finding(saved, "run")
     assert f is not None and "Physically impossible heads" in f.text
 
 
@@ -108,7 +108,7 @@ def test_stream_over_a_deep_water_table_may_be_disconnected(tmp_path):
     assert "saturated flow throughout" in w[0] and "set by its bed" in w[0]
     depth = float(w[0].split("water table about ")[1].split(" m below")[0])
     assert 7.5 < depth < 9.0        # the sides hold it 8.5 m below the ground
-    f = fd.warnings_finding(json.loads((tmp_path / "summary.json").read_text()), "run")
+    f = findings.warnings_finding(json.loads((tmp_path / "summary.json").read_text()), "run")
     assert "The stream may be disconnected from the aquifer" in f.text
 
 

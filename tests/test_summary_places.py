@@ -25,8 +25,8 @@ import pytest
 import bedflux
 from bedflux.outputs.extremes import weighted_percentile
 from bedflux.outputs.files import write_summary
-from bedflux.report import findings as fd
-from bedflux.outputs.summary import build_summary, summarise
+from bedflux.report import findings
+from bedflux.outputs.summary import build_summary, run_summary
 
 ROOT = Path(__file__).resolve().parents[1]
 DAY = 86400.0
@@ -35,7 +35,8 @@ DAY = 86400.0
 FLOOD = {"title": "Small flood over a floodplain (invented)",
          "grid": {"x": [-12, 12], "bottom": -5, "dx": "50 cm", "dz": "20 cm", "growth": 1.15, "dz_max": "1 m"},
          "ground": {"profile": [[-12, 1.0], [-3, 0.8], [-2, 0.0], [2, 0.0], [3, 0.8], [12, 1.0]]},
-         "zone": [{"name": "aquifer", "kh": "10 m/d", "kv": "4 m/d", "ss": "1e-4 1/m", "sy": 0.2},
+         "zone": [{"name": "aquifer", "kh": "10 m/d", "kv": "4 m/d", "specific_storage": "1e-4 1/m",
+                   "specific_yield": 0.2},
                   {"name": "bed", "kh": "2 m/d", "kv": "1 m/d", "depth": "30 cm", "x": [-3, 3]}],
          "stream": {"pulse": {"base": "0.3 m", "peak": "1.3 m", "start": "2 h", "rise": "4 h", "fall": "8 h"}},
          "sides": {"bottom": {"flux": "1 cm/d"}},
@@ -134,11 +135,12 @@ def test_floodplain_edge_spike_is_seen_as_such(flood):
 def test_report_gives_places(flood):
     _, s, _ = flood
     s = strict_loads(json.dumps(s, allow_nan=False))
-    f = fd.pulse_finding(s)
+    f = findings.pulse_finding(s)
     lose = s["bed"]["floodplain"]["losing"]
-    assert f"the strongest downward flux is {fd.flux(lose['peak_m_per_s'])} at x = {fd.length(lose['x_m'])}, " \
-           f"t = {fd.hours(lose['time_s'])}" in f.text
-    assert f"over 95 % of the wetted bed and of the run it stays above {fd.flux(lose['p05_m_per_s'])}" in f.text
+    assert f"the strongest downward flux is {findings.flux(lose['peak_m_per_s'])} at x = " \
+           f"{findings.length(lose['x_m'])}, " \
+           f"t = {findings.hours(lose['time_s'])}" in f.text
+    assert f"over 95 % of the wetted bed and of the run it stays above {findings.flux(lose['p05_m_per_s'])}" in f.text
     assert "On the floodplain" in f.text and "On the channel bed" in f.text
 
 
@@ -151,7 +153,7 @@ def test_a_gaining_reach_has_no_losing_flux():
     assert s["max_losing_flux_m_per_s"] is None
     assert "no losing reach" in text
     assert s["bed"]["channel"]["losing"] is None
-    assert "no losing reach" in fd.exchange_finding(strict_loads(json.dumps(s))).text
+    assert "no losing reach" in findings.exchange_finding(strict_loads(json.dumps(s))).text
 
 
 @pytest.mark.parametrize("case", ["steady stage below the bed", "transient without bank storage"])
@@ -160,7 +162,7 @@ def test_summary_json_is_strict_json(tmp_path, case):
         d = dict(GAINING, stream={"stage": -0.5, "channel": [8, 12]})
     else:
         d = dict(GAINING, time={"end": "2 h", "step": "30 min", "output_every": "1 h"})
-        d["zone"] = [{"name": "a", "kh": "5 m/d", "kv": "5 m/d", "ss": "1e-5 1/m", "sy": 0.2}]
+        d["zone"] = [{"name": "a", "kh": "5 m/d", "kv": "5 m/d", "specific_storage": "1e-5 1/m", "specific_yield": 0.2}]
     ds = bedflux.simulate(bedflux.Scenario.from_dict(d))
     write_summary(ds, tmp_path)
     data = strict_loads((tmp_path / "summary.json").read_text())
@@ -169,8 +171,8 @@ def test_summary_json_is_strict_json(tmp_path, case):
 
 ALONG = {"title": "Reach along the channel (invented)",
          "grid": {"x": [0, 30], "bottom": -3, "dx": "1 m", "dz": "25 cm", "runs": "along"},
-         "ground": {"elevation": 0}, "zone": [{"name": "a", "kh": "5 m/d", "kv": "2 m/d", "ss": "1e-4 1/m",
-                                               "sy": 0.2}],
+         "ground": {"elevation": 0},
+         "zone": [{"name": "a", "kh": "5 m/d", "kv": "2 m/d", "specific_storage": "1e-4 1/m", "specific_yield": 0.2}],
          "stream": {"pulse": {"base": "0.3 m", "peak": "0.8 m", "start": "1 h", "rise": "2 h", "fall": "3 h"}},
          "sides": {"bottom": {"head": 0.5}},
          "time": {"end": "10 h", "step": "30 min", "output_every": "1 h"}}
@@ -183,7 +185,7 @@ def test_a_section_along_the_channel_never_says_per_metre_of_channel(tmp_path):
     wrong = re.compile(r"per metre of channel(?! width)")
     assert s["events"]["bank_storage_volume"] > 0
     assert not wrong.search(text), text
-    for f in (fd.exchange_finding(s), fd.pulse_finding(s, table)):
+    for f in (findings.exchange_finding(s), findings.pulse_finding(s, table)):
         assert not wrong.search(f.text), f.text
     assert not wrong.search(ds["exchange"].attrs["long_name"])
 
@@ -193,14 +195,15 @@ def test_field_and_model_totals_per_the_same_length():
     # mean flux over the same length, per metre of width, is mean flux x length
     ds = bedflux.simulate(bedflux.Scenario.from_dict({k: v for k, v in ALONG.items() if k != "time"}
                                                      | {"stream": {"stage": 0.3}}))
-    s = strict_loads(json.dumps(summarise(ds)))
+    s = strict_loads(json.dumps(run_summary(ds)))
     field = {"reach": {"mean_flux [m/s]": 2.0e-6, "per_metre_of_channel [m^2/s]": 9.0e-6, "length [m]": 40.0}}
-    text = fd.same_length_sentence(field, s, "reach")
+    text = findings.same_length_sentence(field, s, "reach")
     assert "over the same 30.0 m of channel" in text
-    assert f"the meters give {fd.number(2.0e-6 * 30.0 * DAY)} m³/d and the model " \
-           f"{fd.number(s['exchange_m2_per_s'] * DAY)} m³/d" in text
+    assert f"the meters give {findings.number(2.0e-6 * 30.0 * DAY)} m³/d and the model " \
+           f"{findings.number(s['exchange_m2_per_s'] * DAY)} m³/d" in text
     across = dict(s, per_metre_of="channel")
-    assert f"the meters give {fd.number(9.0e-6 * DAY)} m³/d" in fd.same_length_sentence(field, across, "reach")
+    sentence = findings.same_length_sentence(field, across, "reach")
+    assert f"the meters give {findings.number(9.0e-6 * DAY)} m³/d" in sentence
 
 
 def test_scipy_pin_allows_the_rtol_keyword():

@@ -24,7 +24,8 @@ def section_dict(n_cells: float, steady: bool = True) -> dict:
         "title": f"benchmark section {nx} x {nz}",
         "grid": {"x": [-width / 2, width / 2], "bottom": -depth, "dx": width / nx, "dz": depth / nz},
         "ground": {"profile": [[-width / 2, 0.0], [width / 2, 0.0]]},
-        "zone": [{"name": "aquifer", "kh": "10 m/d", "kv": "3 m/d", "ss": 1e-4, "sy": 0.2},
+        "zone": [{"name": "aquifer", "kh": "10 m/d", "kv": "3 m/d", "specific_storage": 1e-4,
+                  "specific_yield": 0.2},
                  {"name": "bed", "kh": "0.5 m/d", "kv": "0.05 m/d", "depth": 4 * depth / nz, "x": [-20, 20]}],
         "stream": {"stage": 0.5},
         "sides": {"left": {"head": 0.9}, "right": {"head": 0.8}},
@@ -136,7 +137,7 @@ def _case_column() -> dict:
     import scipy.linalg as sla
 
     d = {"grid": {"x": [0, 1], "bottom": -20.0, "dx": 1.0, "dz": 0.01}, "ground": {"elevation": 0.0},
-         "zone": [{"name": "sand", "kh": 1e-4, "ss": 1e-4}],
+         "zone": [{"name": "sand", "kh": 1e-4, "specific_storage": 1e-4}],
          "stream": {"wave": {"mean": 0.5, "amplitude": 0.3, "period": "1 d"}},
          "time": {"end": "10000 min", "step": "1 min", "output_every": "1000 min"}}
     s = bedflux.Scenario.from_dict(d)

@@ -82,7 +82,7 @@ def test_transient_table_needs_every_time():
     s = bedflux.Scenario.from_dict({
         "grid": {"x": [0.0, 1.0], "bottom": -2.0, "dx": 1.0, "dz": 0.25},
         "ground": {"elevation": 0.0},
-        "zone": [{"name": "sand", "kh": 1e-4, "kv": 1e-5, "ss": 1e-4}],
+        "zone": [{"name": "sand", "kh": 1e-4, "kv": 1e-5, "specific_storage": 1e-4}],
         "stream": {"stage": 0.2}, "sides": {"bottom": {"head": 0.5}},
         "time": {"end": "2 h", "step": "10 min"}})
     obs = pd.DataFrame({"kind": "vhg", "x": 0.5, "depth": [0.25, 0.5], "time": [600.0, np.nan],

@@ -44,7 +44,7 @@ def pulse_column():
     return bedflux.simulate(bedflux.Scenario.from_dict({
         "grid": {"x": [0, 1], "bottom": -L, "dx": 1.0, "dz": 0.05},
         "ground": {"elevation": 0.0},
-        "zone": [{"name": "sand", "kh": 5e-5, "kv": K, "ss": 1e-7}],
+        "zone": [{"name": "sand", "kh": 5e-5, "kv": K, "specific_storage": 1e-7}],
         "stream": {"pulse": {"base": BASE, "peak": PEAK, "start": "2 h", "rise": "3 h", "fall": "4 h"}},
         "sides": {"bottom": {"head": H_BASE}},
         "time": {"end": "1 d", "step": "5 min", "output_every": "10 min"},

@@ -30,7 +30,7 @@ def pulse():
     return bedflux.Scenario.from_dict({
         "grid": {"x": [0, 1], "bottom": -4.0, "dx": 1.0, "dz": 0.1},
         "ground": {"elevation": 0.0},
-        "zone": [{"name": "sand", "kh": 5e-5, "kv": 2e-5, "ss": 2e-4}],
+        "zone": [{"name": "sand", "kh": 5e-5, "kv": 2e-5, "specific_storage": 2e-4}],
         "stream": {"pulse": {"base": 0.3, "peak": 0.9, "start": "2 h", "rise": "3 h", "fall": "4 h"}},
         "sides": {"bottom": {"head": 0.45}},
         "time": {"end": "1 d", "step": "10 min", "output_every": "1 h"},

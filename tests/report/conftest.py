@@ -29,8 +29,8 @@ def steady_summary(exchange=2.0e-4, gaining=100.0, losing=20.0, lo=-1e-6, hi=3e-
         "exchange_m2_per_s": exchange, "gaining_length_m": gaining, "losing_length_m": losing,
         "submerged_length_m": gaining + losing, "max_gaining_flux_m_per_s": hi,
         "max_losing_flux_m_per_s": lo, "budget_closure": 1e-14,
-        "budget_in_m2_per_s": {"stream": max(-exchange, 0.0), "bottom": max(exchange, 0.0) + 1e-6},
-        "budget_out_m2_per_s": {"stream": max(exchange, 0.0), "bottom": 0.0},
+        "inflow_m2_per_s": {"stream": max(-exchange, 0.0), "bottom": max(exchange, 0.0) + 1e-6},
+        "outflow_m2_per_s": {"stream": max(exchange, 0.0), "bottom": 0.0},
     }
 
 

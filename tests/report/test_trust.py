@@ -7,7 +7,7 @@ from __future__ import annotations
 import html
 
 from bedflux.report import build_report
-from bedflux.report import findings as fd
+from bedflux.report import findings
 
 from .conftest import steady_summary, write_run
 
@@ -33,12 +33,12 @@ def test_warnings_come_first_in_the_findings(tmp_path):
 
 def test_extremes_have_places_in_findings_and_tables(tmp_path):
     s = _summary_with_places()
-    f = fd.exchange_finding(s, "run")
+    f = findings.exchange_finding(s, "run")
     assert "On the channel bed (x = 10.0 to 40.0 m) no part gains (no gaining reach)" in f.text
-    assert (f"the strongest downward flux is {fd.flux(-2e-6)} at x = 10.2 m, while over 95 % of the wetted "
-            f"bed it stays above {fd.flux(-1.1e-6)}") in f.text
+    assert (f"the strongest downward flux is {findings.flux(-2e-6)} at x = 10.2 m, while over 95 % of the wetted "
+            f"bed it stays above {findings.flux(-1.1e-6)}") in f.text
     write_run(tmp_path / "p" / "run", s)
     page = html.unescape(build_report(tmp_path / "p").read_text())
     assert "Where the bed flux is strongest" in page
-    assert "5th percentile " + fd.flux(-1.1e-6) in page
+    assert "5th percentile " + findings.flux(-1.1e-6) in page
     assert "none (no gaining reach)" in page

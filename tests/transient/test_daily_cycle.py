@@ -47,9 +47,9 @@ def strip(step, end="3 d", start=None, **extra):
         time["start"] = start
     d = {"grid": {"x": [0.0, WIDTH], "bottom": -10.0, "dx": 1.0, "dz": 0.5},
          "ground": {"elevation": 0.0},
-         "zone": [{"name": "aquifer", "kh": 1e-2, "ss": 1e-5, "sy": 0.2}],
+         "zone": [{"name": "aquifer", "kh": 1e-2, "specific_storage": 1e-5, "specific_yield": 0.2}],
          "sides": {"left": {"head": -DEPTH}, "right": {"head": -DEPTH}},
-         "riparian": [{"x": [0.0, WIDTH], "rate": RATE, "extinction_depth": EXT, "daily_cycle": True}],
+         "riparian": [{"x": [0.0, WIDTH], "max_rate": RATE, "extinction_depth": EXT, "daily_cycle": True}],
          "time": time}
     d.update(extra)
     return bedflux.simulate(bedflux.Scenario.from_dict(d))
@@ -57,7 +57,7 @@ def strip(step, end="3 d", start=None, **extra):
 
 def et_rates(ds):
     """ET out of the aquifer (m2/s): the mean over the step that ends at each output."""
-    return ds["budget_out"].sel(term="evapotranspiration").values
+    return ds["outflow"].sel(term="evapotranspiration").values
 
 
 def test_reference_integral_has_a_daily_mean_of_one():

@@ -15,7 +15,7 @@ import numpy as np
 import pytest
 
 import bedflux
-from bedflux.outputs.summary import summarise, summary_text
+from bedflux.outputs.summary import run_summary, run_summary_text
 
 DAY = 86400.0
 TAU = 4 * DAY
@@ -82,9 +82,9 @@ def test_summary_gives_peak_stage_its_time_and_the_flooded_width():
     # peak stage 0.8 m the water covers 2 m + 2 x (0.8 / 1 x 4 m) = 8.4 m (similar triangles)
     s = stage_of(wave(), end="3 d", step="1 h", output_every="7 h")
     ds = bedflux.simulate(s)
-    summary = summarise(ds)
+    summary = run_summary(ds)
     assert summary["peak_stage_m"] == pytest.approx(BASE + RISE, abs=1e-12)
     assert summary["peak_stage_time_s"] == pytest.approx(DAY + TAU / 2, abs=1e-6)   # 3 d: not an output time
     assert summary["flooded_width_m"] == pytest.approx(2.0 + 2 * (BASE + RISE) * 4.0, abs=1e-9)
-    text = summary_text(summary)
+    text = run_summary_text(summary)
     assert "peak stage: 0.8 m at t = 72 h" in text and "8.4 m wide" in text

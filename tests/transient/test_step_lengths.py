@@ -41,7 +41,7 @@ def scenario(scheme, end="1 h"):
     return bedflux.Scenario.from_dict({
         "grid": {"x": [0.0, 1.0], "bottom": GROUND - 40.0, "dx": 1.0, "dz": DZ},
         "ground": {"elevation": GROUND},
-        "zone": [{"name": "sand", "kh": 3 * KV, "kv": KV, "ss": SS, "sy": 0.2}],
+        "zone": [{"name": "sand", "kh": 3 * KV, "kv": KV, "specific_storage": SS, "specific_yield": 0.2}],
         "stream": {"stage": H0 + DH},
         "sides": {"left": "no-flow", "right": "no-flow", "bottom": "no-flow"},
         "time": {"end": end, "step": DT, "output_every": EVERY, "scheme": scheme},
@@ -82,8 +82,8 @@ def test_bed_flux_follows_erfc_with_shortened_steps(result, t):
 
 def test_budget_closes_at_every_output(result):
     scheme, ds = result
-    total_in = ds["budget_in"].values.sum(axis=1)
-    total_out = ds["budget_out"].values.sum(axis=1)
+    total_in = ds["inflow"].values.sum(axis=1)
+    total_out = ds["outflow"].values.sum(axis=1)
     flowing = np.maximum(total_in, total_out) > 0
     rel = np.abs(total_in - total_out)[flowing] / np.maximum(total_in, total_out)[flowing]
     assert flowing[1:].all() and rel.max() < 1e-10, f"{scheme}: budget imbalance {rel.max():.3g}"
@@ -107,8 +107,8 @@ def test_a_budget_that_does_not_close_stops_the_run(wrong_matrix):
     t = ds["time"].values
     assert 0.0 <= t[-1] < 600.0 and np.all(np.diff(t) > 0)
     # what is kept closes: the outputs before the failing step
-    total_in = ds["budget_in"].values.sum(axis=1)
-    total_out = ds["budget_out"].values.sum(axis=1)
+    total_in = ds["inflow"].values.sum(axis=1)
+    total_out = ds["outflow"].values.sum(axis=1)
     assert np.all(np.abs(total_in - total_out) <= 1e-10 * np.maximum(total_in, total_out))
 
 
@@ -117,7 +117,8 @@ def test_command_line_keeps_the_partial_outputs_and_fails(wrong_matrix, tmp_path
 
     scen = tmp_path / "column.toml"
     scen.write_text(f'[grid]\nx = [0, 1]\nbottom = {GROUND - 40}\ndx = 1\ndz = {DZ}\n'
-                    f'[ground]\nelevation = {GROUND}\n[[zone]]\nname = "sand"\nkh = {3 * KV}\nkv = {KV}\nss = {SS}\n'
+                    f'[ground]\nelevation = {GROUND}\n[[zone]]\nname = "sand"\nkh = {3 * KV}\nkv = {KV}\n'
+                    f'specific_storage = {SS}\n'
                     f'[stream]\nstage = {H0 + DH}\n[time]\nend = "10 min"\nstep = {DT}\noutput_every = {EVERY}\n'
                     f'scheme = "crank-nicolson"\n[initial]\nhead = {H0}\n')
     out = tmp_path / "out"

@@ -29,7 +29,7 @@ import pytest
 import bedflux
 from bedflux.errors import InputError
 from bedflux.section.grid import build_grid, resolution_warnings
-from bedflux.outputs.summary import summarise, summary_text
+from bedflux.outputs.summary import run_summary, run_summary_text
 
 WETTED_WIDTH = 2 * (4.0 + 0.45 / 1.5)  # m, plane geometry of the example's banks
 REFINEMENTS = (1.0, 1.5, 2.0, 3.0)  # 7k to 62k cells
@@ -61,7 +61,7 @@ def test_the_example_grid_is_what_the_refinement_study_starts_from():
 def test_wetted_length_is_exact_on_every_grid(sequence):
     # plane geometry: 8.6 m, whatever the column width (0.25 m down to 0.042 m)
     for r, ds in sequence.items():
-        assert summarise(ds)["submerged_length_m"] == pytest.approx(WETTED_WIDTH, abs=1e-9), r
+        assert run_summary(ds)["submerged_length_m"] == pytest.approx(WETTED_WIDTH, abs=1e-9), r
 
 
 def test_net_exchange_converges_toward_the_fine_grid(sequence):
@@ -140,8 +140,8 @@ def test_a_narrow_wetted_bed_is_warned_about():
 
 def test_the_run_summary_lists_the_warnings():
     ds = bedflux.simulate(channel(dz=0.2))
-    s = summarise(ds)
+    s = run_summary(ds)
     assert s["resolution_warnings"] and all("'bed'" in w for w in s["resolution_warnings"])
-    text = summary_text(s)
+    text = run_summary_text(s)
     assert "grid warning:" in text and "zone 'bed'" in text
-    assert "grid warning" not in summary_text(summarise(bedflux.simulate(channel(dz=0.05))))
+    assert "grid warning" not in run_summary_text(run_summary(bedflux.simulate(channel(dz=0.05))))

@@ -27,7 +27,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import bedflux
-from bedflux.outputs.summary import summarise, summary_text
+from bedflux.outputs.summary import run_summary, run_summary_text
 
 ROOT = Path(__file__).resolve().parents[2]
 CLOSURE = 1e-10
@@ -43,8 +43,8 @@ SCENARIO_FILES = [p for folder in TOML_FOLDERS for p in sorted(folder.glob("*.to
 
 def check_closure(result, label):
     """sum(in) - sum(out) from the budget lines, within 1e-10 of the larger total, at every output."""
-    total_in = np.atleast_2d(result["budget_in"].values).sum(axis=1)
-    total_out = np.atleast_2d(result["budget_out"].values).sum(axis=1)
+    total_in = np.atleast_2d(result["inflow"].values).sum(axis=1)
+    total_out = np.atleast_2d(result["outflow"].values).sum(axis=1)
     assert np.all(np.isfinite(total_in)) and np.all(np.isfinite(total_out)), f"{label}: budget not finite"
     imbalance = np.abs(total_in - total_out)
     tolerance = CLOSURE * np.maximum(total_in, total_out)
@@ -61,7 +61,7 @@ def cross_section(**over):
     d = {"title": "constructed: channel with banks",
          "grid": {"x": [0.0, 60.0], "bottom": -15.0, "dx": 0.5, "dz": 0.1, "growth": 1.08, "dz_max": 1.0},
          "ground": {"profile": [[0.0, 2.0], [20.0, 1.2], [24.0, 0.0], [36.0, 0.0], [40.0, 1.0], [60.0, 1.6]]},
-         "zone": [{"name": "aquifer", "kh": "20 m/d", "kv": "5 m/d", "ss": 1e-4, "sy": 0.2},
+         "zone": [{"name": "aquifer", "kh": "20 m/d", "kv": "5 m/d", "specific_storage": 1e-4, "specific_yield": 0.2},
                   {"name": "bed", "kh": "5 m/d", "kv": "1 m/d", "depth": 0.4, "x": [22.0, 38.0]},
                   {"name": "clog", "kh": "0.05 m/d", "kv": "0.01 m/d", "x": [27.0, 31.0], "z": [-0.5, 0.0]}],
          "stream": {"stage": 0.6, "channel": [20.0, 40.0]},
@@ -79,7 +79,7 @@ CONSTRUCTED = {
                                                           "leakance": "0.5 1/d"},
                                                   sides={"left": "no-flow", "right": {"head": 1.0},
                                                          "bottom": {"flux": "1 mm/d"}}),
-    "riparian evapotranspiration": cross_section(riparian=[{"x": [5.0, 18.0], "rate": "5 mm/d",
+    "riparian evapotranspiration": cross_section(riparian=[{"x": [5.0, 18.0], "max_rate": "5 mm/d",
                                                             "extinction_depth": 2.0}]),
     "dune bed, periodic": {
         "grid": {"x": [0.0, 2.0], "bottom": -1.0, "dx": 0.02, "dz": 0.02},
@@ -127,10 +127,10 @@ def test_budget_detects_a_missing_line():
     # the check can fail: drop the stream line from a gaining section and the books no longer balance
     r = bedflux.simulate(bedflux.Scenario.from_dict(CONSTRUCTED["channel with banks"]))
     stream = list(r.term.values).index("stream")
-    assert r.budget_out.values[stream] + r.budget_in.values[stream] > 0
+    assert r.outflow.values[stream] + r.inflow.values[stream] > 0
     broken = r.copy(deep=True)
-    broken["budget_out"].values[stream] = 0.0
-    broken["budget_in"].values[stream] = 0.0
+    broken["outflow"].values[stream] = 0.0
+    broken["inflow"].values[stream] = 0.0
     with pytest.raises(AssertionError, match="imbalance"):
         check_closure(broken, "stream line dropped")
 
@@ -140,21 +140,21 @@ def test_budget_detects_a_missing_line():
 def column(**over):
     d = {"grid": {"x": [0.0, 10.0], "bottom": -10.0, "dx": 1.0, "dz": 0.1},
          "ground": {"elevation": 0.0},
-         "zone": [{"name": "aquifer", "kh": 1e-4, "ss": 1e-4}],
+         "zone": [{"name": "aquifer", "kh": 1e-4, "specific_storage": 1e-4}],
          "stream": {"stage": 0.5}}
     d.update(over)
     return bedflux.simulate(bedflux.Scenario.from_dict(d))
 
 
 def closure_line(ds):
-    return [ln for ln in summary_text(summarise(ds)).splitlines() if ln.startswith("water budget closure")][0]
+    return [ln for ln in run_summary_text(run_summary(ds)).splitlines() if ln.startswith("water budget closure")][0]
 
 
 def test_nothing_flows_is_not_judged():
     # stage, side head and bottom head all equal: nothing flows, so no closure can be judged
     ds = column(sides={"left": {"head": 0.5}, "bottom": {"head": "50 cm"}})
-    assert np.all(np.atleast_1d(ds["budget_in"].values) == 0.0)
-    s = summarise(ds)
+    assert np.all(np.atleast_1d(ds["inflow"].values) == 0.0)
+    s = run_summary(ds)
     assert s["budget_closure"] is None
     assert "not judgeable" in closure_line(ds) and "nothing flows" in closure_line(ds)
 
@@ -170,7 +170,7 @@ def test_tight_bed_under_a_very_permeable_aquifer():
                 sides={"bottom": {"head": 1.5}})
     resistance = b_bed / kv_bed + (10.0 - b_bed) / 1.0          # s, per unit area (Darcy in series)
     assert float(ds["exchange"]) == pytest.approx(10.0 * dh / resistance, rel=1e-9)
-    s = summarise(ds)
+    s = run_summary(ds)
     assert s["budget_closure"] is None or abs(s["budget_closure"]) < 1e-12, closure_line(ds)
     if s["budget_closure"] is None:
         assert "an error in them would not show" in s["budget_closure_note"]
@@ -183,7 +183,7 @@ def test_tiny_steps_keep_a_round_off_closure():
     ds = column(stream={"wave": {"mean": 0.5, "amplitude": 0.3, "period": "1 d"}, "channel": [0.0, 3.0]},
                 sides={"right": {"head": 0.8}},
                 time={"end": 0.2, "step": 1e-3, "output_every": 0.02})
-    s = summarise(ds)
+    s = run_summary(ds)
     assert "partial" not in ds.attrs
     assert s["budget_closure"] is None or abs(s["budget_closure"]) < 1e-12, closure_line(ds)
 

@@ -29,17 +29,17 @@ def section(riparian, stage=None, time=None, channel=None, dx=0.75):
         stream["channel"] = channel
     d = {"grid": {"x": [-30.0, 30.0], "bottom": -6.0, "dx": dx, "dz": 0.1},
          "ground": {"profile": [[-30, z1], [-x1, z1], [-x0, z0], [x0, z0], [x1, z1], [30, z1]]},
-         "zone": [{"name": "aquifer", "kh": 5 / DAY, "kv": 1 / DAY, "ss": 1e-4, "sy": 0.2}],
+         "zone": [{"name": "aquifer", "kh": 5 / DAY, "kv": 1 / DAY, "specific_storage": 1e-4, "specific_yield": 0.2}],
          "stream": stream,
          "sides": {"left": {"head": 1.0}, "right": {"head": 1.0}},
-         "riparian": [{"x": list(riparian), "rate": "5 mm/d", "extinction_depth": "2 m"}]}
+         "riparian": [{"x": list(riparian), "max_rate": "5 mm/d", "extinction_depth": "2 m"}]}
     if time is not None:
         d["time"] = time
     return bedflux.Scenario.from_dict(d)
 
 
 def et_out(ds) -> np.ndarray:
-    return ds["budget_out"].sel(term="evapotranspiration").values
+    return ds["outflow"].sel(term="evapotranspiration").values
 
 
 def water_edge(stage: float) -> float:

@@ -35,12 +35,13 @@ ROUND_OFF = 1e-10
 def two_layer_cell(depth: float, box: bool = False) -> bedflux.Scenario:
     """One column 1 m wide, one 1 m row; a bed of ``depth`` from the ground (or a box zone
     covering x in [0, 0.3] over the full height when ``box``)."""
-    bed = ({"name": "bed", "kh": 2e-4, "kv": 1e-6, "ss": 5e-4, "sy": 0.3, "x": [0.0, 0.3], "z": [-5.0, 5.0]}
-           if box else {"name": "bed", "kh": 2e-4, "kv": 1e-6, "ss": 5e-4, "sy": 0.3, "depth": depth})
+    storage = {"specific_storage": 5e-4, "specific_yield": 0.3}
+    bed = ({"name": "bed", "kh": 2e-4, "kv": 1e-6, **storage, "x": [0.0, 0.3], "z": [-5.0, 5.0]}
+           if box else {"name": "bed", "kh": 2e-4, "kv": 1e-6, **storage, "depth": depth})
     return bedflux.Scenario.from_dict({
         "grid": {"x": [0.0, 1.0], "bottom": -1.0, "dx": 1.0, "dz": 1.0},
         "ground": {"elevation": 0.0},
-        "zone": [{"name": "aquifer", "kh": 1e-4, "kv": 4e-5, "ss": 1e-4, "sy": 0.1}, bed],
+        "zone": [{"name": "aquifer", "kh": 1e-4, "kv": 4e-5, "specific_storage": 1e-4, "specific_yield": 0.1}, bed],
         "stream": {"stage": 0.5},
         "sides": {"bottom": {"head": 1.0}}})
 
@@ -54,8 +55,8 @@ def test_a_cell_holding_two_layers_takes_the_layered_averages(depth):
     f = depth  # the bed's share of the 1 m cell
     assert m.kh[0, 0] == pytest.approx(f * 2e-4 + (1 - f) * 1e-4, rel=1e-14)
     assert m.kv[0, 0] == pytest.approx(1.0 / (f / 1e-6 + (1 - f) / 4e-5), rel=1e-14)
-    assert m.ss[0, 0] == pytest.approx(f * 5e-4 + (1 - f) * 1e-4, rel=1e-14)  # volume-weighted storage
-    assert m.sy[0, 0] == pytest.approx(f * 0.3 + (1 - f) * 0.1, rel=1e-14)
+    assert m.specific_storage[0, 0] == pytest.approx(f * 5e-4 + (1 - f) * 1e-4, rel=1e-14)  # volume-weighted storage
+    assert m.specific_yield[0, 0] == pytest.approx(f * 0.3 + (1 - f) * 0.1, rel=1e-14)
 
 
 def test_a_cell_cut_by_a_vertical_zone_edge_exchanges_the_averages():

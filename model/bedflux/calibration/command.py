@@ -11,7 +11,7 @@ from bedflux.outputs.verb import add_output_options, print_written, staged_outpu
 def _run(args: argparse.Namespace) -> int:
     from bedflux.forward.sensitivity import Forward
     from bedflux.calibration.estimate import calibrate
-    from bedflux.calibration.outputs import summary_text, write_fit
+    from bedflux.calibration.outputs import fit_summary_text, write_fit
     from bedflux.calibration.spec import load_fit
 
     spec = load_fit(args.fitfile)
@@ -21,7 +21,7 @@ def _run(args: argparse.Namespace) -> int:
         say = (lambda line: print(line, file=sys.stderr)) if not args.quiet else None
         result = calibrate(forward, starts=spec.starts, seed=spec.seed, sample=spec.sample, progress=say)
         write_fit(result, spec.scenario, stage)
-    print_written(args, summary_text(result))
+    print_written(args, fit_summary_text(result))
     return 0
 
 

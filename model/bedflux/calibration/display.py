@@ -19,20 +19,20 @@ _UNITS = {
 def dimension_of(path: str) -> str:
     """The dimension word of a parameter path's values (for unit strings in fit and plan files)."""
     last = path.rsplit(".", 1)[-1]
-    if last in ("kh", "kv", "rate", "flux"):
+    if last in ("kh", "kv", "rate", "max_rate", "flux"):
         return "velocity"
-    if last == "ss":
+    if last == "specific_storage":
         return "per_length"
     if last == "leakance":
         return "per_time"
-    if last in ("sy", "porosity", "phase"):
+    if last in ("specific_yield", "porosity", "phase"):
         return "dimensionless"
     return "length"
 
 
 def display_unit(path: str) -> tuple[float, str]:
     """``(factor, unit)``: an SI value of ``path`` times ``factor`` is in ``unit``."""
-    dim = "rate" if path.endswith(".rate") else dimension_of(path)
+    dim = "rate" if path.endswith((".rate", ".max_rate")) else dimension_of(path)
     return _UNITS[dim]
 
 

@@ -50,7 +50,7 @@ class FitResult:
     jacobian: np.ndarray
     n_forward_runs: int
     statistics: dict
-    css: dict[str, float]
+    scaled_sensitivity: dict[str, float]
     singular_values: np.ndarray
     singular_vectors: np.ndarray
     verdicts: dict[str, str]
@@ -141,7 +141,7 @@ def estimate(forward: Forward, starts: int = 1, seed: int = 0,
                      f"after {sol.nfev} evaluations")
         if best is None or objective < best[1]:
             best = (sol.x, objective)
-    result = summarise(forward, best[0], evaluate)
+    result = fit_result_at(forward, best[0], evaluate)
     result.starts = history
     return result
 
@@ -156,7 +156,7 @@ def calibrate(forward: Forward, starts: int = 1, seed: int = 0, sample: int = 0,
     return result
 
 
-def summarise(forward: Forward, m: np.ndarray, evaluate=None) -> FitResult:
+def fit_result_at(forward: Forward, m: np.ndarray, evaluate=None) -> FitResult:
     """Statistics, intervals and verdicts at the parameter vector ``m`` (estimation space)."""
     if evaluate is None:
         d, J = forward.predict_and_jacobian(m)
@@ -199,8 +199,7 @@ def summarise(forward: Forward, m: np.ndarray, evaluate=None) -> FitResult:
     # Hill & Tiedeman scale by the value (b dy/db); a head has an arbitrary datum, so per metre
     scale = np.array([1.0 / LN10 if q.log else (1.0 if _is_head(q.path) else abs(q.natural(v)) or 1.0)
                       for q, v in zip(forward.free, m)])
-    css = np.sqrt(np.mean((Jw * scale[None, :]) ** 2, axis=0))
-    css_d = dict(zip(paths, css.tolist()))
+    scaled_sensitivity = np.sqrt(np.mean((Jw * scale[None, :]) ** 2, axis=0))
     stats_d = {
         "n_observations": n, "n_parameters": p, "n_priors": int(has.sum()),
         "weighted_sum_of_squares": wss, "prior_sum_of_squares": prior_ss,
@@ -213,16 +212,17 @@ def summarise(forward: Forward, m: np.ndarray, evaluate=None) -> FitResult:
     table["simulated"] = d
     table["residual"] = resid
     table["weighted_residual"] = resid / sigma
-    verdicts = _verdicts(forward, m, css, corr, sdm, sv, Vt, J, info, s2, tq)
+    verdicts = _verdicts(forward, m, scaled_sensitivity, corr, sdm, sv, Vt, J, info, s2, tq)
     # gradient of the objective in the estimation space: where the data pull a parameter on a bound
     gradient = -2.0 * J.T @ (w * resid) + 2.0 * np.where(has, (m - centre) / sd**2, 0.0)
-    blind = {q.path for q, u, c in zip(forward.free, unseen, css) if u or c == 0.0}
+    blind = {q.path for q, u, c in zip(forward.free, unseen, scaled_sensitivity) if u or c == 0.0}
     at_bound = bound_notes(forward.free, m, gradient, blind)
     for path, note in at_bound.items():
         verdicts[path] = _bound_verdict(note, verdicts[path], path in blind)
     notes = {q.path: q.note for q in forward.free if q.note}
     sd_si = {q.path: float(sd_j * q.dnatural(v)) for q, v, sd_j in zip(forward.free, m, sdm)}
-    return FitResult(best, ci, cov, corr, table, J, forward.n_forward_runs, stats_d, css_d, sv, Vt,
+    return FitResult(best, ci, cov, corr, table, J, forward.n_forward_runs, stats_d,
+                     dict(zip(paths, scaled_sensitivity.tolist())), sv, Vt,
                      verdicts, paths, np.asarray(m), bound_notes=notes, at_bound=at_bound,
                      standard_deviation=sd_si, free=list(forward.free), transient=forward.scenario.transient)
 
@@ -280,7 +280,7 @@ def _is_head(path: str) -> bool:
     return path.endswith(".head") or path == "stream.stage"
 
 
-def _verdicts(forward: Forward, m, css, corr, sdm, sv, Vt, J, info, s2, tq: float) -> dict[str, str]:
+def _verdicts(forward: Forward, m, scaled_sensitivity, corr, sdm, sv, Vt, J, info, s2, tq: float) -> dict[str, str]:
     """Plain-language verdict per parameter (``tq``: the t quantile of the 95 % intervals).
 
     - not identifiable: the 95 % interval (estimation space) covers more than 80 % of the range
@@ -297,7 +297,7 @@ def _verdicts(forward: Forward, m, css, corr, sdm, sv, Vt, J, info, s2, tq: floa
     for j, q in enumerate(forward.free):
         span = q.internal(q.high) - q.internal(q.low)
         weak_combination = any(null[k] and abs(Vt[k, j]) > 0.3 for k in range(sv.size))
-        if (css[j] == 0.0 or not np.isfinite(sdm[j]) or 2 * tq * sdm[j] > 0.8 * span
+        if (scaled_sensitivity[j] == 0.0 or not np.isfinite(sdm[j]) or 2 * tq * sdm[j] > 0.8 * span
                 or (weak_combination and q.prior is None)):
             out[q.path] = ("not identifiable: the observations barely respond to it (its 95 % interval "
                            "would cover most of the allowed range); fix it or add observations that respond to it")

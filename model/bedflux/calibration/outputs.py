@@ -35,7 +35,7 @@ def result_dict(result: FitResult, scenario: Scenario | None = None) -> dict:
         "covariance_estimation_space": _finite_or_none(result.covariance),
         "correlation": np.round(result.correlation, 6).tolist(),
         "standard_error_estimation_space": np.sqrt(np.clip(np.diag(result.covariance), 0, None)).tolist(),
-        "composite_scaled_sensitivity": result.css,
+        "composite_scaled_sensitivity": result.scaled_sensitivity,
         "singular_values": result.singular_values.tolist(),
         "singular_vectors": np.round(result.singular_vectors, 6).tolist(),
         "verdicts": result.verdicts,
@@ -63,7 +63,7 @@ def _spread(path: str, sd: float) -> str:
     return f"{sd * factor:.3g} {unit}".rstrip() if np.isfinite(sd) else "unbounded"
 
 
-def summary_text(result: FitResult) -> str:
+def fit_summary_text(result: FitResult) -> str:
     """Plain lines: best values with intervals and standard deviations in display units,
     verdicts (a parameter stopped on a bound says so), fit statistics."""
     st = result.statistics
@@ -150,7 +150,7 @@ def write_fit(result: FitResult, scenario: Scenario, outdir: Path) -> None:
     write_text(outdir / "fit_results.json",
                json.dumps(result_dict(result, scenario), indent=2, allow_nan=True) + "\n")
     write_with(outdir / "residuals.csv", lambda tmp: result.residuals.to_csv(tmp, index=False))
-    write_text(outdir / "fit_summary.txt", summary_text(result))
+    write_text(outdir / "fit_summary.txt", fit_summary_text(result))
     calibrated_scenario(scenario, result, outdir)
     plots.observed_vs_simulated(result.residuals, outdir / "observed_vs_simulated.png")
     plots.residual_figure(result.residuals, outdir / "residuals.png", steady=not scenario.transient)

@@ -13,7 +13,7 @@ path = "bed.kv"                    # a scenario parameter path
 low = "0.01 m/d"
 high = "50 m/d"
 start = "1 m/d"                    # default: the scenario's value
-log = true                         # default: true for kh, kv, ss, leakance
+log = true                         # default: true for kh, kv, specific_storage, leakance
 prior = "2 m/d"                    # optional Gaussian prior and its spread (both or neither)
 prior_sd = "1 m/d"
 ```

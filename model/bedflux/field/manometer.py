@@ -17,7 +17,7 @@ from bedflux.field.flags import Flags
 from bedflux.field.sheet_specs import WATER_DENSITY
 from bedflux.field.sheets import Rejected, Sheet, reject_duplicates, reject_where
 from bedflux.field.sites import Sites
-from bedflux.field.stats import summarise
+from bedflux.field.stats import repeat_statistics
 
 #: Standard uncertainty of a reading with resolution d: d / sqrt(12) (uniform over +/- d/2;
 #: JCGM 100:2008, the GUM, F.2.2.1).
@@ -141,8 +141,8 @@ def reduce_manometer(sheet: Sheet, sites: Sites, rejected: Rejected, flags: Flag
     )
     rows = []
     for (site_id, depth), g in readings.groupby(["site", "depth [m]"], sort=True):
-        s_v = summarise(g["vhg [1]"].to_numpy())
-        s_h = summarise(g["head [m]"].to_numpy())
+        s_v = repeat_statistics(g["vhg [1]"].to_numpy())
+        s_h = repeat_statistics(g["head [m]"].to_numpy())
         res_v = float(g["vhg_sigma [1]"].max())
         res_h = float(g["head_sigma [m]"].max())
         within_v = np.hypot(s_v.stderr, res_v) if s_v.n >= 2 else res_v

@@ -16,7 +16,7 @@ from bedflux.field.flags import Flags
 from bedflux.field.sheet_specs import WATER_DENSITY
 from bedflux.field.sheets import Rejected, Sheet, reject_duplicates, reject_where
 from bedflux.field.sites import Sites
-from bedflux.field.stats import BetweenTerm, robust_outliers, summarise
+from bedflux.field.stats import BetweenTerm, robust_outliers, repeat_statistics
 
 #: Net bag change below which a reading sits near the detection floor (Cable et al. 1997), m^3.
 DETECTION_VOLUME = 150e-6
@@ -254,7 +254,7 @@ def _add_between(meters: pd.DataFrame) -> BetweenTerm:
 def _meters(readings: pd.DataFrame, sites: Sites, flags: Flags) -> pd.DataFrame:
     rows = []
     for site_id, g in readings.groupby("site", sort=True):
-        s = summarise(g["flux [m/s]"].to_numpy())
+        s = repeat_statistics(g["flux [m/s]"].to_numpy())
         res2 = float(np.mean(g["resolution_sigma [m/s]"].to_numpy() ** 2))
         if s.n >= 2:
             within = np.sqrt(s.stderr**2 + res2 / s.n)
@@ -302,7 +302,7 @@ def _transects(meters: pd.DataFrame, flags: Flags) -> pd.DataFrame:
         for site_id in g["site"].to_numpy()[out]:
             flags.add("seepage_meters", site_id, "robust_outlier",
                       f"|modified z| > 3.5 among the meters of transect {label} (Iglewicz & Hoaglin 1993)")
-        s = summarise(g["mean [m/s]"].to_numpy()[~out])
+        s = repeat_statistics(g["mean [m/s]"].to_numpy()[~out])
         rows.append(
             {
                 "transect": label,

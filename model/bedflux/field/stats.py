@@ -58,7 +58,7 @@ class BetweenTerm:
     dof: int
 
 
-def summarise(values: np.ndarray, level: float = 0.95) -> Summary:
+def repeat_statistics(values: np.ndarray, level: float = 0.95) -> Summary:
     """n, mean, sample standard deviation, coefficient of variation, standard error, t interval.
 
     Parameters

@@ -220,7 +220,7 @@ def _seepage_weights(section: Section, ops: Operators, terms: list[Term], source
     nx = section.grid.nx
     wet = np.zeros(nx, dtype=bool)
     if top is not None:
-        wet[top.place] = True
+        wet[top.column_or_row] = True
     w = ops.footprint * wet[None, :]
     seep = ops.kind == "seepage"
     total = w.sum(axis=1)
@@ -231,12 +231,12 @@ def _seepage_weights(section: Section, ops: Operators, terms: list[Term], source
                          "in the model", source=source, where=f"row {i + 2}")
     w[seep] /= total[seep, None]
     # to stream-top entries
-    return (w[:, top.place] if top is not None else np.zeros((ops.n, 0))), top
+    return (w[:, top.column_or_row] if top is not None else np.zeros((ops.n, 0))), top
 
 
 def _wet_width(section: Section, top: Term) -> np.ndarray:
     """Wetted width of each stream-top entry (the bed flux is the flow over it)."""
-    return section.grid.dx[top.place] if top.width is None else top.width
+    return section.grid.dx[top.column_or_row] if top.width is None else top.width
 
 
 def predict(section: Section, ops: Operators, u: np.ndarray, terms: list[Term], t: float,
@@ -261,8 +261,9 @@ def predict(section: Section, ops: Operators, u: np.ndarray, terms: list[Term], 
 def linear_parts(section: Section, ops: Operators, u: np.ndarray, terms: list[Term],
                  source: str = "observations") -> tuple[sp.csr_matrix, np.ndarray, np.ndarray, Term | None]:
     """The operator as ``d(value)/d(h)`` (sparse, per unknown), the seepage weights per
-    stream-top entry, and the factor ``(h - H) / w`` (w the wetted width) of each stream-top entry (for derivatives of
-    the bed conductance)."""
+    stream-top entry, the derivative of each stream-top entry's bed flux with respect to its
+    conductance, ``(h - H) / w`` (w the wetted width; for derivatives of the bed conductance), and
+    the stream-top term."""
     kind = ops.kind
     scale = np.ones(ops.n)
     vhg = kind == "vhg"
@@ -274,9 +275,9 @@ def linear_parts(section: Section, ops: Operators, u: np.ndarray, terms: list[Te
     w, top = _seepage_weights(section, ops, terms, source)
     w = np.where(seep[:, None], w, 0.0)
     dx = _wet_width(section, top)
-    # q = g (u - U) / w with U = r / g and w the wetted width: d q / d u_cell = g / w
-    qrows = sp.csr_matrix((w * (top.g / dx)[None, :]))
+    # q = c (u - U) / w with c the conductance, U = r / c and w the wetted width: d q / d u_cell = c / w
+    qrows = sp.csr_matrix((w * (top.conductance / dx)[None, :]))
     qcells = sp.csr_matrix((np.ones(top.cells.size), (np.arange(top.cells.size), top.cells)),
                            shape=(top.cells.size, section.n))
-    factor = (u[top.cells] - top.r / top.g) / dx
-    return (rows + qrows @ qcells).tocsr(), w, factor, top
+    flux_per_conductance = (u[top.cells] - top.r / top.conductance) / dx
+    return (rows + qrows @ qcells).tocsr(), w, flux_per_conductance, top

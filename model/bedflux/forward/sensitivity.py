@@ -33,6 +33,8 @@ from bedflux.section.operator import half_cell_resistance
 from bedflux.section.steady import solve_steady
 
 LN10 = math.log(10.0)
+#: Derivative rules of storage parameters (no effect in a steady run).
+_STORAGE_RULES = ("zone-specific_storage", "zone-specific_yield")
 
 
 @dataclass(frozen=True)
@@ -106,7 +108,7 @@ def free_parameters(scenario: Scenario, free: list[dict], source: str = "fit") -
         except InputError as err:
             raise InputError(err.message, source=source, where=where) from None
         prop = path.rsplit(".", 1)[-1]
-        default_log = prop in ("kh", "kv", "ss", "leakance")
+        default_log = prop in ("kh", "kv", "specific_storage", "leakance")
         log = bool(f.get("log", default_log))
         try:
             low, high = float(f["low"]), float(f["high"])
@@ -177,29 +179,31 @@ def _allowed_bound(scenario: Scenario, path: str, start: float, bound: float, lo
 # derivatives of the residual at fixed heads
 
 @dataclass
-class _Kind:
-    """How one parameter enters the discrete equations."""
+class DerivativeRule:
+    """How one parameter enters the discrete equations, and so which analytic derivative applies."""
 
-    name: str  # zone-kh, zone-kv, zone-ss, zone-sy, recharge, riparian, side-head, leakance, numeric
+    # zone-kh, zone-kv, zone-specific_storage, zone-specific_yield, recharge, riparian, side-head,
+    # leakance, numeric (central differences)
+    name: str
     zone: int = -1
     side: str = ""
 
 
-def classify(scenario: Scenario, path: str) -> _Kind:
+def derivative_rule(scenario: Scenario, path: str) -> DerivativeRule:
     """Which analytic derivative applies to a parameter path (``numeric``: central differences)."""
     parts = path.split(".")
     names = scenario.zone_names()
-    if len(parts) == 2 and parts[0] in names and parts[1] in ("kh", "kv", "ss", "sy"):
-        return _Kind(f"zone-{parts[1]}", zone=names.index(parts[0]))
+    if len(parts) == 2 and parts[0] in names and parts[1] in ("kh", "kv", "specific_storage", "specific_yield"):
+        return DerivativeRule(f"zone-{parts[1]}", zone=names.index(parts[0]))
     if path == "recharge.rate":
-        return _Kind("recharge")
-    if len(parts) == 3 and parts[0] == "riparian" and parts[2] == "rate":
-        return _Kind("riparian", zone=int(parts[1]))
+        return DerivativeRule("recharge")
+    if len(parts) == 3 and parts[0] == "riparian" and parts[2] == "max_rate":
+        return DerivativeRule("riparian", zone=int(parts[1]))
     if len(parts) == 3 and parts[0] == "sides" and parts[2] == "head":
-        return _Kind("side-head", side=parts[1])
+        return DerivativeRule("side-head", side=parts[1])
     if path == "stream.leakance":
-        return _Kind("leakance")
-    return _Kind("numeric")
+        return DerivativeRule("leakance")
+    return DerivativeRule("numeric")
 
 
 def _share(section: Section, prop: str, zone: int, value: float) -> np.ndarray:
@@ -209,83 +213,97 @@ def _share(section: Section, prop: str, zone: int, value: float) -> np.ndarray:
     return (m.derivative(prop, zone) * value / getattr(m, prop)).ravel()
 
 
-def _top_pos(section: Section, place: np.ndarray) -> np.ndarray:
-    return section.grid.top_row[place] * section.grid.nx + place
+def _top_position(section: Section, cols: np.ndarray) -> np.ndarray:
+    """Flat (row-major) position of the top cell of each column in ``cols``."""
+    return section.grid.top_row[cols] * section.grid.nx + cols
 
 
-def residual_derivative(section: Section, terms: list[Term], u: np.ndarray, kind: _Kind, value: float
+def residual_derivative(section: Section, terms: list[Term], u: np.ndarray, rule: DerivativeRule, value: float
                         ) -> tuple[np.ndarray, np.ndarray | None]:
-    """``dR/dp`` at fixed heads (per unknown) and ``dg/dp`` of the stream-top entries (or None).
+    """``dR/dp`` at fixed heads (per unknown) and ``d(conductance)/dp`` of the stream-top entries
+    (or None).
 
     ``R`` is the sum of inflows into each cell; ``value`` is the parameter's current SI value.
     """
     n = section.n
     dR = np.zeros(n)
-    dg_top = None
+    dconductance_top = None
     g = section.grid
     m = section.materials
-    if kind.name in ("zone-kh", "zone-kv"):
-        horizontal = kind.name == "zone-kh"
+    if rule.name in ("zone-kh", "zone-kv"):
+        horizontal = rule.name == "zone-kh"
         f = section.hfaces if horizontal else section.vfaces
         if horizontal:
             res = half_cell_resistance(np.broadcast_to(g.dx[None, :], g.active.shape), m.kh).ravel()
         else:
             res = half_cell_resistance(g.thickness, m.kv).ravel()
         r_lo, r_hi = res[f.lo_pos], res[f.hi_pos]
-        rho = _share(section, "kh" if horizontal else "kv", kind.zone, value)
+        rho = _share(section, "kh" if horizontal else "kv", rule.zone, value)
         share = r_lo * rho[f.lo_pos] + r_hi * rho[f.hi_pos]
         dC = f.conductance * share / (r_lo + r_hi) / value
         dF = dC * (u[f.lo] - u[f.hi])
         dR -= np.bincount(f.lo, weights=dF, minlength=n)
         dR += np.bincount(f.hi, weights=dF, minlength=n)
         for t in terms:
-            if t.face == "cell" or not np.any(t.g > 0):
+            if t.face == "cell" or not np.any(t.conductance > 0):
                 continue
             if horizontal and t.face in ("left", "right"):
                 col = 0 if t.face == "left" else g.nx - 1
-                dgt = t.g * rho[t.place * g.nx + col] / value
+                dconductance = t.conductance * rho[t.column_or_row * g.nx + col] / value
             elif not horizontal and t.face == "bottom":
-                dgt = t.g * rho[(g.nz - 1) * g.nx + t.place] / value
+                dconductance = t.conductance * rho[(g.nz - 1) * g.nx + t.column_or_row] / value
             elif not horizontal and t.face == "top":
-                half = section.top_half[t.place]
-                width = g.dx[t.place] if t.width is None else t.width
-                frac = half * t.g / width  # half / (half + 1/leakance)
-                dgt = t.g * frac * rho[_top_pos(section, t.place)] / value
+                half = section.top_half_resistance[t.column_or_row]
+                width = g.dx[t.column_or_row] if t.width is None else t.width
+                frac = half * t.conductance / width  # half / (half + 1/leakance)
+                dconductance = t.conductance * frac * rho[_top_position(section, t.column_or_row)] / value
                 if t.kind == "stream":
-                    dg_top = dgt
+                    dconductance_top = dconductance
             else:
                 continue
-            dR += np.bincount(t.cells, weights=dgt * (t.r / t.g - u[t.cells]), minlength=n)
-        return dR, dg_top
-    if kind.name == "leakance":
+            dR += np.bincount(t.cells, weights=dconductance * (t.r / t.conductance - u[t.cells]), minlength=n)
+        return dR, dconductance_top
+    if rule.name == "leakance":
         for t in terms:
             if t.kind == "stream" and t.face == "top":
                 inv = 1.0 / value
-                dgt = t.g * (inv / (section.top_half[t.place] + inv)) / value
-                dR += np.bincount(t.cells, weights=dgt * (t.r / t.g - u[t.cells]), minlength=n)
-                dg_top = dgt
-        return dR, dg_top
-    if kind.name == "recharge":
+                dconductance = t.conductance * (inv / (section.top_half_resistance[t.column_or_row] + inv)) / value
+                dR += np.bincount(t.cells, weights=dconductance * (t.r / t.conductance - u[t.cells]), minlength=n)
+                dconductance_top = dconductance
+        return dR, dconductance_top
+    if rule.name == "recharge":
         for t in terms:
             if t.kind == "recharge":
-                dR += np.bincount(t.cells, weights=g.dx[t.place] if t.width is None else t.width, minlength=n)
+                dR += np.bincount(t.cells, weights=g.dx[t.column_or_row] if t.width is None else t.width,
+                                  minlength=n)
         return dR, None
-    if kind.name == "riparian":
+    if rule.name == "riparian":
         for t in terms:
             if t.kind == "evapotranspiration" and value > 0:
-                sel = section.et_zone == kind.zone
+                sel = section.et_zone == rule.zone
                 dR += np.bincount(t.cells[sel], weights=t.inflow(u)[sel] / value, minlength=n)
         return dR, None
-    if kind.name == "side-head":
+    if rule.name == "side-head":
         for t in terms:
-            if t.face == kind.side and t.kind == kind.side:
-                dR += np.bincount(t.cells, weights=t.g, minlength=n)
+            if t.face == rule.side and t.kind == rule.side:
+                dR += np.bincount(t.cells, weights=t.conductance, minlength=n)
         return dR, None
     # storage parameters do not enter the steady residual
     return dR, None
 
 
 # ------------------------------------------------------------------------------------------
+
+@dataclass
+class _StepEnd:
+    """What the transient Jacobian carries from one step to the next, at the end of the last step:
+    the head sensitivities ``dh/dp`` (per unknown and parameter), the predicted data and their
+    Jacobian (None without analytic parameters)."""
+
+    head_sensitivity: np.ndarray
+    predicted: np.ndarray
+    jacobian: np.ndarray | None
+
 
 @dataclass
 class Forward:
@@ -315,7 +333,7 @@ class Forward:
 
     def __post_init__(self):
         self.observations = check_observations(self.observations, self.source, self.scenario.transient)
-        self.kinds = [classify(self.scenario, p.path) for p in self.free]
+        self.rules = [derivative_rule(self.scenario, p.path) for p in self.free]
         # every observation must lie in the section (checked once, before any fitting)
         build_operators(discretise(self.scenario_at(self.start())), self.observations, self.pan_diameter, self.source)
         if self.scenario.transient:
@@ -353,13 +371,13 @@ class Forward:
     def predict_and_jacobian(self, m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Simulated observations and the Jacobian in one pass (analytic where available)."""
         m = np.asarray(m, dtype=float)
-        analytic = [j for j, k in enumerate(self.kinds) if k.name != "numeric"
-                    and not (k.name in ("zone-ss", "zone-sy") and not self.scenario.transient)]
+        analytic = [j for j, rule in enumerate(self.rules) if rule.name != "numeric"
+                    and not (rule.name in _STORAGE_RULES and not self.scenario.transient)]
         d, J = self._run(m, analytic)
-        for j, k in enumerate(self.kinds):
+        for j, rule in enumerate(self.rules):
             if j in analytic:
                 continue
-            if k.name in ("zone-ss", "zone-sy") and not self.scenario.transient:
+            if rule.name in _STORAGE_RULES and not self.scenario.transient:
                 J[:, j] = 0.0  # storage does not act in a steady run
             else:
                 J[:, j] = self._central_difference(m, j)
@@ -394,81 +412,81 @@ class Forward:
             sol = solve_steady(section, reuse=True)
             d = predict(section, ops, sol.u, sol.terms, 0.0, self.source)
             if analytic:
-                Jsub = self._steady_jacobian(section, ops, sol, [self.kinds[j] for j in analytic],
+                Jsub = self._steady_jacobian(section, ops, sol, [self.rules[j] for j in analytic],
                                              [values[j] for j in analytic])
                 J[:, analytic] = Jsub * chain[analytic][None, :]
             return d, J
-        d, Jsub = self._transient(section, ops, [self.kinds[j] for j in analytic], [values[j] for j in analytic])
+        d, Jsub = self._transient(section, ops, [self.rules[j] for j in analytic], [values[j] for j in analytic])
         if analytic:
             J[:, analytic] = Jsub * chain[analytic][None, :]
         return d, J
 
-    def _steady_jacobian(self, section: Section, ops, sol, kinds: list[_Kind], values: list[float]) -> np.ndarray:
-        W, w_top, factor_top, top = linear_parts(section, ops, sol.u, sol.terms)
-        dR = np.zeros((section.n, len(kinds)))
-        E = np.zeros((ops.n, len(kinds)))
-        for j, (k, v) in enumerate(zip(kinds, values)):
-            dR[:, j], dg = residual_derivative(section, sol.terms, sol.u, k, v)
-            if dg is not None and w_top.shape[1]:
-                E[:, j] = w_top @ (dg * factor_top)
-        if len(kinds) <= ops.n:
+    def _steady_jacobian(self, section: Section, ops, sol, rules: list[DerivativeRule], values: list[float]
+                         ) -> np.ndarray:
+        W, w_top, flux_per_conductance, top = linear_parts(section, ops, sol.u, sol.terms)
+        dR = np.zeros((section.n, len(rules)))
+        E = np.zeros((ops.n, len(rules)))
+        for j, (rule, v) in enumerate(zip(rules, values)):
+            dR[:, j], dconductance = residual_derivative(section, sol.terms, sol.u, rule, v)
+            if dconductance is not None and w_top.shape[1]:
+                E[:, j] = w_top @ (dconductance * flux_per_conductance)
+        if len(rules) <= ops.n:
             X = sol.factor.solve(dR)
-            self.n_sensitivity_solves += len(kinds)
+            self.n_sensitivity_solves += len(rules)
             return W @ X + E
         lam = sol.factor.solve(W.T.toarray())
         self.n_sensitivity_solves += ops.n
         return lam.T @ dR + E
 
-    def _transient(self, section: Section, ops, kinds: list[_Kind], values: list[float]):
+    def _transient(self, section: Section, ops, rules: list[DerivativeRule], values: list[float]):
         from bedflux.section.transient import run_transient
 
         times = ops.table["time"].to_numpy()
-        P = len(kinds)
+        P = len(rules)
         d = np.full(ops.n, np.nan)
         J = np.zeros((ops.n, P))
-        st: dict = {}
+        last = _StepEnd(np.zeros((section.n, P)), np.full(ops.n, np.nan), None)
 
         def observe(u, s, terms, t):
             vals = predict(section, ops, u, terms, t)
             if not P:
                 return vals, None
-            W, w_top, factor_top, top = linear_parts(section, ops, u, terms)
+            W, w_top, flux_per_conductance, top = linear_parts(section, ops, u, terms)
             dJ = W @ s
-            for j, (k, v) in enumerate(zip(kinds, values)):
-                if k.name in ("zone-kv", "leakance") and w_top.shape[1]:
-                    _, dg = residual_derivative(section, terms, u, k, v)
-                    if dg is not None:
-                        dJ[:, j] += w_top @ (dg * factor_top)
+            for j, (rule, v) in enumerate(zip(rules, values)):
+                if rule.name in ("zone-kv", "leakance") and w_top.shape[1]:
+                    _, dconductance = residual_derivative(section, terms, u, rule, v)
+                    if dconductance is not None:
+                        dJ[:, j] += w_top @ (dconductance * flux_per_conductance)
             return vals, dJ
 
         def on_start(u, terms, init):
             s = np.zeros((section.n, P))
             if P and init is not None:
-                dR = np.column_stack([residual_derivative(section, init.terms, u, k, v)[0]
-                                      for k, v in zip(kinds, values)])
+                dR = np.column_stack([residual_derivative(section, init.terms, u, rule, v)[0]
+                                      for rule, v in zip(rules, values)])
                 s = init.factor.solve(dR)
-            st.update(u=u, s=s, terms=terms, t=0.0)
+            vals, dJ = observe(u, s, terms, 0.0)
             at0 = times <= 0.0
             if at0.any():
-                vals, dJ = observe(u, s, terms, 0.0)
                 d[at0] = vals[at0]
                 if P:
                     J[at0] = dJ[at0]
-            st["obs0"] = observe(u, s, terms, 0.0)
+            last.head_sensitivity, last.predicted, last.jacobian = s, vals, dJ
 
         def on_step(info):
-            s1 = _step_sensitivity(section, info, st["s"], kinds, values) if P else st["s"]
+            s1 = (_step_sensitivity(section, info, last.head_sensitivity, rules, values) if P
+                  else last.head_sensitivity)
             self.n_sensitivity_solves += P
             inside = (times > info.t0) & (times <= info.t1 + 1e-9 * max(info.t1, 1.0))
-            obs1 = observe(info.u1, s1, info.terms1, info.t1)
+            v1, j1 = observe(info.u1, s1, info.terms1, info.t1)
             if inside.any():
                 a = ((times[inside] - info.t0) / info.dt)[:, None]
-                v0, j0 = st["obs0"]
-                v1, j1 = obs1
+                v0, j0 = last.predicted, last.jacobian
                 d[inside] = ((1 - a[:, 0]) * v0[inside] + a[:, 0] * v1[inside])
                 if P:
                     J[inside] = (1 - a) * j0[inside] + a * j1[inside]
-            st.update(s=s1, obs0=obs1)
+            last.head_sensitivity, last.predicted, last.jacobian = s1, v1, j1
 
         run_transient(section, on_start=on_start, on_step=on_step)
         return d, J
@@ -485,7 +503,7 @@ def _lag_derivative(section: Section, factor: float, t: float, u_lag: np.ndarray
     return np.bincount(section.et_cells, weights=coef, minlength=section.n)
 
 
-def _step_sensitivity(section: Section, info, s0: np.ndarray, kinds: list[_Kind],
+def _step_sensitivity(section: Section, info, s0: np.ndarray, rules: list[DerivativeRule],
                       values: list[float]) -> np.ndarray:
     """Carry the sensitivities over one step with the step's own factorization.
 
@@ -503,35 +521,35 @@ def _step_sensitivity(section: Section, info, s0: np.ndarray, kinds: list[_Kind]
     rhs += _lag_derivative(section, info.et_factor, info.t1, info.u0)[:, None] * s0
     if info.filled.any():
         top = section.top_cells[info.filled]
-        sy = section.materials.sy[g.top_row[info.filled], np.nonzero(info.filled)[0]]
+        specific_yield = section.materials.specific_yield[g.top_row[info.filled], np.nonzero(info.filled)[0]]
         ground_u = g.ground[info.filled] - section.h_ref
         below = (ground_u - info.u0[top]) > 0
         coef = np.zeros(section.n)
-        coef[top] = np.where(below, sy * g.dx[info.filled] / dt, 0.0)
+        coef[top] = np.where(below, specific_yield * g.dx[info.filled] / dt, 0.0)
         rhs += coef[:, None] * s0
     if th != 1.0:
         diag0 = np.zeros(section.n)
         for t in info.terms0:
-            diag0 += np.bincount(t.cells, weights=t.g, minlength=section.n)
+            diag0 += np.bincount(t.cells, weights=t.conductance, minlength=section.n)
         rhs -= (1.0 - th) * (section.L @ s0 + diag0[:, None] * s0)
-    for j, (k, v) in enumerate(zip(kinds, values)):
-        col = th * residual_derivative(section, info.terms1, info.u1, k, v)[0]
+    for j, (rule, v) in enumerate(zip(rules, values)):
+        col = th * residual_derivative(section, info.terms1, info.u1, rule, v)[0]
         if th != 1.0:
-            col += (1.0 - th) * residual_derivative(section, info.terms0, info.u0, k, v)[0]
-        if k.name == "zone-ss":
-            dss = section.materials.derivative("ss", k.zone)[g.active]
-            col -= dss * section.cell_volume * (info.u1 - info.u0) / dt
-        elif k.name == "zone-sy":
-            dsy = section.materials.derivative("sy", k.zone)[g.top_row, np.arange(g.nx)]
+            col += (1.0 - th) * residual_derivative(section, info.terms0, info.u0, rule, v)[0]
+        if rule.name == "zone-specific_storage":
+            dstorage = section.materials.derivative("specific_storage", rule.zone)[g.active]
+            col -= dstorage * section.cell_volume * (info.u1 - info.u0) / dt
+        elif rule.name == "zone-specific_yield":
+            dyield = section.materials.derivative("specific_yield", rule.zone)[g.top_row, np.arange(g.nx)]
             dS = np.zeros(section.n)
             wt = info.water_table
-            sel = (dsy > 0) & (wt[section.top_cells] > 0)
-            dS[section.top_cells[sel]] = g.dx[sel] * dsy[sel]
+            sel = (dyield > 0) & (wt[section.top_cells] > 0)
+            dS[section.top_cells[sel]] = g.dx[sel] * dyield[sel]
             col -= dS * (info.u1 - info.u0_wt) / dt
             if info.filled.any():
-                fz = info.filled & (dsy > 0)
+                fz = info.filled & (dyield > 0)
                 if fz.any():
                     cells = section.top_cells[fz]
-                    col[cells] -= info.fill[cells] * dsy[fz] / section.top_sy[fz]
+                    col[cells] -= info.fill[cells] * dyield[fz] / section.top_specific_yield[fz]
         rhs[:, j] += col
     return info.factor.solve(rhs)

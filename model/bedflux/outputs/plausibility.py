@@ -62,14 +62,14 @@ def _sources(ds: xr.Dataset) -> tuple[float, float, list[str], list[str]]:
     terms = [str(t) for t in ds["term"].values]
     fluxes = [s for s in str(ds.attrs.get("flux_boundaries", "")).split(",") if s]
     names = ["recharge", "evapotranspiration"] + fluxes
-    bin_ = np.atleast_2d(ds["budget_in"].values)
-    bout = np.atleast_2d(ds["budget_out"].values)
+    inflow = np.atleast_2d(ds["inflow"].values)
+    outflow = np.atleast_2d(ds["outflow"].values)
     pick = [terms.index(n) for n in names if n in terms]
-    q_in = bin_[:, pick].sum(axis=1) if pick else np.zeros(bin_.shape[0])
-    q_out = bout[:, pick].sum(axis=1) if pick else np.zeros(bout.shape[0])
-    inflow = [n for n in names if n in terms and bin_[:, terms.index(n)].max() > 0]
-    outflow = [n for n in names if n in terms and bout[:, terms.index(n)].max() > 0]
-    return float(q_in.max()), float(q_out.max()), inflow, outflow
+    q_in = inflow[:, pick].sum(axis=1) if pick else np.zeros(inflow.shape[0])
+    q_out = outflow[:, pick].sum(axis=1) if pick else np.zeros(outflow.shape[0])
+    sources_in = [n for n in names if n in terms and inflow[:, terms.index(n)].max() > 0]
+    sources_out = [n for n in names if n in terms and outflow[:, terms.index(n)].max() > 0]
+    return float(q_in.max()), float(q_out.max()), sources_in, sources_out
 
 
 def _geometry(ds: xr.Dataset) -> tuple[float, float, float, float]:
@@ -154,8 +154,8 @@ def disconnected_stream(ds: xr.Dataset) -> list[str]:
     if not np.isfinite(q).any():
         terms = [str(t) for t in ds["term"].values]
         k = terms.index("stream")
-        through_sides = (np.abs(np.atleast_2d(ds["budget_in"].values)[:, k]).max() > 0
-                         or np.abs(np.atleast_2d(ds["budget_out"].values)[:, k]).max() > 0)
+        through_sides = (np.abs(np.atleast_2d(ds["inflow"].values)[:, k]).max() > 0
+                         or np.abs(np.atleast_2d(ds["outflow"].values)[:, k]).max() > 0)
         if not np.isfinite(stage).any() or through_sides:
             return []
         return [f"the stage ({np.nanmax(stage):.4g} m at most) is below the ground of every column of the channel "

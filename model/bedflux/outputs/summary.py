@@ -19,7 +19,7 @@ from bedflux.scenario.units import SECONDS_PER_DAY as DAY
 HOUR = 3600.0
 
 
-def summarise(ds: xr.Dataset) -> dict:
+def run_summary(ds: xr.Dataset) -> dict:
     """Key figures of a run (SI), for the summary file and the report.
 
     For transient runs the figures are of the last output time, plus the time range of the net
@@ -51,8 +51,8 @@ def summarise(ds: xr.Dataset) -> dict:
         "max_losing_flux_m_per_s": float(np.nanmin(q)) if wet.any() and np.nanmin(q) < 0 else None,
         "budget_closure": closure,
         "budget_closure_note": closure_note,
-        "budget_in_m2_per_s": {k: float(v) for k, v in zip(BUDGET_LINES, last["budget_in"].values)},
-        "budget_out_m2_per_s": {k: float(v) for k, v in zip(BUDGET_LINES, last["budget_out"].values)},
+        "inflow_m2_per_s": {k: float(v) for k, v in zip(BUDGET_LINES, last["inflow"].values)},
+        "outflow_m2_per_s": {k: float(v) for k, v in zip(BUDGET_LINES, last["outflow"].values)},
         "bed": flux_extremes(ds),
         "warnings": [],
         "resolution_warnings": [w for w in ds.attrs.get("resolution_warnings", "").split("\n") if w],
@@ -121,7 +121,7 @@ def bed_text(bed: dict, transient: bool) -> list[str]:
     return lines
 
 
-def summary_text(s: dict, events: str = "") -> str:
+def run_summary_text(s: dict, events: str = "") -> str:
     """The summary as a few plain lines (m^3/d per metre and m/d for readability); ``events`` are
     the lines of :func:`bedflux.section.events.events_text` of a transient run."""
     day = DAY
@@ -154,7 +154,7 @@ def summary_text(s: dict, events: str = "") -> str:
     if "exchange_min_m2_per_s" in s:
         lines.append(f"net exchange over the run: {s['exchange_min_m2_per_s'] * day:.4g} to "
                      f"{s['exchange_max_m2_per_s'] * day:.4g} m3/d per metre of {of}")
-    et = s["budget_out_m2_per_s"]["evapotranspiration"]
+    et = s["outflow_m2_per_s"]["evapotranspiration"]
     if et > 0:
         lines.append(f"riparian evapotranspiration from groundwater: {et * day:.4g} m3/d per metre of {of}")
     lines += events.splitlines()
@@ -167,7 +167,7 @@ def summary_text(s: dict, events: str = "") -> str:
 
 def build_summary(ds: xr.Dataset) -> tuple[dict, str, pd.DataFrame | None]:
     """The summary, its text and (for a transient run) the per-column events table."""
-    s = summarise(ds)
+    s = run_summary(ds)
     table = None
     events = ""
     if "time" in ds.dims and ds.sizes["time"] > 1:
@@ -176,7 +176,7 @@ def build_summary(ds: xr.Dataset) -> tuple[dict, str, pd.DataFrame | None]:
         table, reach = exchange_events(ds)
         add_events(s, ds, table, reach)
         events = events_text(reach, table, s["per_metre_of"])
-    return s, summary_text(s, events), table
+    return s, run_summary_text(s, events), table
 
 
 def json_safe(value: Any) -> Any:

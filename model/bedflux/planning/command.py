@@ -13,7 +13,7 @@ from bedflux.outputs.verb import add_output_options, print_written, staged_outpu
 def _run(args: argparse.Namespace) -> int:
     from bedflux.planning import plan
     from bedflux.planning.detect import detectability
-    from bedflux.planning.outputs import summary_text, write_plan
+    from bedflux.planning.outputs import plan_summary_text, write_plan
     from bedflux.planning.spec import load_plan
 
     spec = load_plan(args.planfile, args.output)
@@ -31,7 +31,7 @@ def _run(args: argparse.Namespace) -> int:
             detect = detectability(ds, np.asarray(spec.depths), spec.instruments.head_resolution,
                                    spec.instruments.seepage_floor)
         write_plan(table, scenario, stage, detect)
-    print_written(args, summary_text(table))
+    print_written(args, plan_summary_text(table))
     for warning in table.attrs.get("warnings", []):
         print(f"bedflux plan: warning: {warning}", file=sys.stderr)
     return 0

@@ -45,7 +45,7 @@ def _spread(table: pd.DataFrame, sd: float) -> str:
     return f"{sd * factor:.3g} {unit}".rstrip()
 
 
-def summary_text(table: pd.DataFrame) -> str:
+def plan_summary_text(table: pd.DataFrame) -> str:
     """Plain lines for the screen: where the plan starts, when the instruments are read, the
     spreads with their unit, and the warnings."""
     a = table.attrs
@@ -66,7 +66,7 @@ def write_plan(table: pd.DataFrame, scenario, outdir: Path, detect: tuple | None
     cols = ["rank", "kind", "x", "depth", "expected_sd", "reduction", "sigma", "simulated"]
     write_with(outdir / "plan_table.csv", lambda tmp: table[cols].to_csv(tmp, index=False))
     write_text(outdir / "plan_summary.json", json.dumps(summary_dict(table, ""), indent=2, allow_nan=True) + "\n")
-    write_text(outdir / "plan_summary.txt", summary_text(table))
+    write_text(outdir / "plan_summary.txt", plan_summary_text(table))
     from bedflux.forward.geometry import bed_geometry
 
     plots.plan_map(table, bed_geometry(scenario, 0.0), outdir / "plan_map.png")

@@ -27,6 +27,7 @@ import numpy as np
 from bedflux.errors import InputError
 from bedflux.calibration.display import dimension_of, display_unit
 from bedflux.forward.sensitivity import Forward
+from bedflux.scenario.spec import renamed_path
 from bedflux.scenario.units import DIMENSIONS, SECONDS_PER_DAY
 
 
@@ -79,6 +80,9 @@ def parse_target(text: str, paths: list[str], length: float | None = None, sourc
             return Target("reversal", x=float(text.split(":", 1)[1]))
         except ValueError:
             pass
+    if renamed_path(text) in paths:
+        raise InputError(f"target {text!r} was renamed; write target = \"{renamed_path(text)}\"", source=source,
+                         where="target")
     raise InputError(f"target {text!r} is not allowed; use \"parameters\", a free parameter path "
                      f"({', '.join(paths)}), \"exchange\", \"reach_total\" or \"reversal:X\"", source=source,
                      where="target")

@@ -32,7 +32,7 @@ _KIND_WORDS = {"seepage": "seepage meter", "vhg": "mini-piezometer (vertical gra
                "head": "piezometer (head)", "piezometer": "mini-piezometer",
                "manometer": "mini-piezometer"}
 _PROPERTY_WORDS = {"kh": "horizontal conductivity", "kv": "vertical conductivity", "k": "conductivity",
-                   "ss": "specific storage", "sy": "specific yield", "head": "head"}
+                   "specific_storage": "specific storage", "specific_yield": "specific yield", "head": "head"}
 
 
 @dataclass
@@ -119,11 +119,11 @@ def parameter_value(path: str, value: float) -> str:
     prop = path.rsplit(".", 1)[-1]
     if prop in ("kh", "kv", "k"):
         return conductivity(value)
-    if prop == "ss":
+    if prop == "specific_storage":
         return f"{number(value)} 1/m"
     if prop in ("head", "stage") or path.endswith(".stage"):
         return f"{number(value, 5)} m"
-    if prop == "rate":
+    if prop in ("rate", "max_rate"):
         return f"{number(float(value) * 1000 * DAY)} mm/d"
     return number(value)
 
@@ -164,7 +164,7 @@ def exchange_finding(summary: dict, source: str = ".", unit: str = "m/d") -> Fin
         Display unit of the bed flux.
     """
     ex = float(summary["exchange_m2_per_s"])
-    scale = sum(abs(float(v)) for v in (summary.get("budget_in_m2_per_s") or {}).values()) or abs(ex)
+    scale = sum(abs(float(v)) for v in (summary.get("inflow_m2_per_s") or {}).values()) or abs(ex)
     way = _direction(ex, scale)
     transient = summary.get("run") == "transient"
     when = f"At the end of the run ({hours(summary['end_time_s'])}) the" if transient and \

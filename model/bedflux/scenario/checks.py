@@ -13,14 +13,28 @@ from bedflux.scenario.units import DIMENSIONS, parse_quantity
 _MISSING = object()
 
 
-def reject_unknown(table: Mapping[str, Any], allowed: Iterable[str], where: str) -> None:
-    """Raise if ``table`` has keys outside ``allowed``."""
+def reject_unknown(table: Mapping[str, Any], allowed: Iterable[str], where: str,
+                   renamed: Mapping[str, str] | None = None) -> None:
+    """Raise if ``table`` has keys outside ``allowed``; a key of ``renamed`` (old -> new name) is
+    refused with the new name."""
+    for old, new in (renamed or {}).items():
+        if old in table:
+            raise InputError(f"'{old}' was renamed; write {new} = {_toml_value(table[old])}", where=where)
     allowed = list(allowed)
     unknown = [k for k in table if k not in allowed]
     if unknown:
         raise InputError(
             f"unknown key '{unknown[0]}'; allowed keys are: {', '.join(allowed)}", where=where
         )
+
+
+def _toml_value(value: Any) -> str:
+    """``value`` as it is written in a TOML file (text in double quotes)."""
+    if isinstance(value, str):
+        return '"' + value.replace("\\", "\\\\").replace('"', '\\"') + '"'
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    return repr(value)
 
 
 def table(parent: Mapping[str, Any], key: str, where: str, required: bool = False) -> dict:

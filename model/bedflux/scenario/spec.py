@@ -33,6 +33,11 @@ STEP_MIN = 1e-3  # s: shortest time step and output interval (1 ms; a bed respon
 
 _TOP_KEYS = ["title", "grid", "ground", "zone", "stream", "sides", "recharge", "riparian", "time", "initial"]
 _SIDE_WORDS = ["no-flow", "periodic", "stream"]
+#: Zone properties a scenario sets, and the ones a parameter path ``ZONE.PROPERTY`` may change.
+ZONE_PROPERTIES = ("kh", "kv", "specific_storage", "specific_yield", "porosity", "depth")
+#: Keys that were renamed (old -> new): an old key is refused with a message giving the new one.
+RENAMED_ZONE_KEYS = {"ss": "specific_storage", "sy": "specific_yield"}
+RENAMED_RIPARIAN_KEYS = {"rate": "max_rate"}
 
 
 @dataclass(frozen=True)
@@ -60,8 +65,8 @@ class ZoneSpec:
     name: str
     kh: float
     kv: float
-    ss: float
-    sy: float
+    specific_storage: float
+    specific_yield: float
     depth: float | None = None
     x: tuple[float, float] | None = None
     z: tuple[float, float] | None = None
@@ -109,7 +114,7 @@ class RiparianSpec:
     """A riparian evapotranspiration zone over an x range."""
 
     x: tuple[float, float]
-    rate: float
+    max_rate: float
     extinction_depth: float
     root_depth: float = 0.0
     daily_cycle: bool = False
@@ -172,8 +177,8 @@ class Scenario:
     def with_values(self, values: Mapping[str, float]) -> "Scenario":
         """A copy with values replaced by parameter path (SI), re-validated.
 
-        Paths are ``ZONE.PROPERTY`` (``bed.kv``, ``aquifer.ss``) or a table path
-        (``recharge.rate``, ``stream.stage``, ``riparian.0.rate``, ``sides.left.head``,
+        Paths are ``ZONE.PROPERTY`` (``bed.kv``, ``aquifer.specific_storage``) or a table path
+        (``recharge.rate``, ``stream.stage``, ``riparian.0.max_rate``, ``sides.left.head``,
         ``stream.bedform.amplitude``).
         """
         raw = copy.deepcopy(dict(self.raw))
@@ -322,11 +327,12 @@ def _zones(zs: Any, grid: GridSpec) -> tuple[ZoneSpec, ...]:
         if "." in name or name in _TOP_KEYS or name == "sides" or not name.strip():
             raise InputError(f"name {name!r} is not allowed (no dots, not a table name)", where=where)
         seen.add(name)
-        checks.reject_unknown(z, ["name", "kh", "kv", "ss", "sy", "porosity", "depth", "x", "z"], where=where)
+        checks.reject_unknown(z, ["name", *ZONE_PROPERTIES, "x", "z"], where=where, renamed=RENAMED_ZONE_KEYS)
         kh = _conductivity(z, "kh", where)
         kv = _conductivity(z, "kv", where, default=kh)
-        ss = checks.quantity(z, "ss", "per_length", where, default=1e-5, low=0.0, high=SS_MAX, high_hint="1/km")
-        sy = checks.number(z, "sy", where, default=0.2, low=0.0, high=0.5)
+        specific_storage = checks.quantity(z, "specific_storage", "per_length", where, default=1e-5, low=0.0,
+                                           high=SS_MAX, high_hint="1/km")
+        specific_yield = checks.number(z, "specific_yield", where, default=0.2, low=0.0, high=0.5)
         porosity = checks.number(z, "porosity", where, default=0.3, low=0.01, high=0.7)
         depth = checks.quantity(z, "depth", "length", where, default=None, low=0.0, low_inclusive=False)
         xr = checks.interval(z, "x", where, default=None)
@@ -341,7 +347,7 @@ def _zones(zs: Any, grid: GridSpec) -> tuple[ZoneSpec, ...]:
                 raise InputError("give either depth (a layer) or z (a box), not both", where=where)
             if zr is not None and xr is None:
                 raise InputError("a box needs x = [a, b] as well as z", where=where)
-        out.append(ZoneSpec(name, kh, kv, ss, sy, depth, xr, zr, porosity))
+        out.append(ZoneSpec(name, kh, kv, specific_storage, specific_yield, depth, xr, zr, porosity))
     return tuple(out)
 
 
@@ -518,13 +524,14 @@ def _riparian(rs: Any, grid: GridSpec) -> tuple[RiparianSpec, ...]:
         if not isinstance(r, Mapping):
             raise InputError("must be a table", where=where)
         r = dict(r)
-        checks.reject_unknown(r, ["x", "rate", "extinction_depth", "root_depth", "daily_cycle"], where=where)
+        checks.reject_unknown(r, ["x", "max_rate", "extinction_depth", "root_depth", "daily_cycle"], where=where,
+                              renamed=RENAMED_RIPARIAN_KEYS)
         xr = checks.interval(r, "x", where)
-        rate = checks.quantity(r, "rate", "velocity", where, low=0.0, high=ET_MAX, high_hint="mm/d")
+        max_rate = checks.quantity(r, "max_rate", "velocity", where, low=0.0, high=ET_MAX, high_hint="mm/d")
         ext = checks.quantity(r, "extinction_depth", "length", where, low=0.0, low_inclusive=False, high=30.0)
         root = checks.quantity(r, "root_depth", "length", where, default=0.0, low=0.0, high=30.0)
         cyc = checks.flag(r, "daily_cycle", where)
-        out.append(RiparianSpec(xr, rate, ext, root, cyc))
+        out.append(RiparianSpec(xr, max_rate, ext, root, cyc))
     return tuple(out)
 
 
@@ -560,14 +567,28 @@ def _time(t: dict) -> TimeSpec | None:
 # --------------------------------------------------------------------------------------------
 # parameter paths
 
+def renamed_path(path: str) -> str | None:
+    """The parameter path that replaced an old one (``aquifer.ss`` -> ``aquifer.specific_storage``,
+    ``riparian.0.rate`` -> ``riparian.0.max_rate``), or None when ``path`` was not renamed."""
+    parts = path.split(".")
+    if len(parts) == 2 and parts[1] in RENAMED_ZONE_KEYS and parts[0] not in _TOP_KEYS + ["sides"]:
+        return f"{parts[0]}.{RENAMED_ZONE_KEYS[parts[1]]}"
+    if len(parts) == 3 and parts[0] == "riparian" and parts[2] in RENAMED_RIPARIAN_KEYS:
+        return f"riparian.{parts[1]}.{RENAMED_RIPARIAN_KEYS[parts[2]]}"
+    return None
+
+
 def _locate(raw: dict, path: str, source: str) -> tuple[Any, Any]:
     parts = path.split(".")
     zones = raw.get("zone") or []
     names = [z.get("name") for z in zones if isinstance(z, Mapping)]
+    new = renamed_path(path)
+    if new is not None and (parts[0] in names or parts[0] == "riparian"):
+        raise InputError(f"'{path}' was renamed; write {new}", source=source, where=path)
     if len(parts) == 2 and parts[0] in names:
-        if parts[1] not in ("kh", "kv", "ss", "sy", "porosity", "depth"):
-            raise InputError(f"zone property '{parts[1]}' cannot be set; use kh, kv, ss, sy, porosity or depth",
-                             source=source, where=path)
+        if parts[1] not in ZONE_PROPERTIES:
+            raise InputError(f"zone property '{parts[1]}' cannot be set; use {', '.join(ZONE_PROPERTIES[:-1])} "
+                             f"or {ZONE_PROPERTIES[-1]}", source=source, where=path)
         return zones[names.index(parts[0])], parts[1]
     if parts == ["recharge", "rate"] and "recharge" not in raw:
         raw["recharge"] = {}
@@ -579,8 +600,9 @@ def _locate(raw: dict, path: str, source: str) -> tuple[Any, Any]:
             node = node[p]
         else:
             raise InputError(f"unknown parameter path '{path}'; zone paths are "
-                             f"{', '.join(n + '.kh' for n in names)} (and .kv .ss .sy), table paths e.g. "
-                             "recharge.rate, stream.stage, riparian.0.rate, sides.left.head",
+                             f"{', '.join(n + '.kh' for n in names)} (and .kv .specific_storage "
+                             ".specific_yield), table paths e.g. recharge.rate, stream.stage, riparian.0.max_rate, "
+                             "sides.left.head",
                              source=source, where=path)
     key = parts[-1]
     if not isinstance(node, Mapping) or (key not in node and key not in ("kv", "rate", "leakance")):

@@ -1,10 +1,11 @@
 """The discretised section: conductance matrix, boundary faces and their terms at a given time.
 
-Each boundary condition is a *term*: for the cells it touches, an inflow ``r - g u`` (m^2/s per
-metre of section width, positive into the aquifer) where ``u = h - h_ref`` is the head relative to
-a reference head. The matrix is ``L + diag(sum g)``; the right-hand side is ``sum r``. A stage
-change alters only ``r``; a face that changes type (flooded, seepage face, evapotranspiration
-below the extinction depth) alters ``g`` and so the factorization.
+Each boundary condition is a *term*: for the cells it touches, an inflow ``r - c u`` (m^2/s per
+metre of section width, positive into the aquifer) where ``c`` is the term's conductance and
+``u = h - h_ref`` is the head relative to a reference head. The matrix is ``L + diag(sum c)``; the
+right-hand side is ``sum r``. A stage change alters only ``r``; a face that changes type (flooded,
+seepage face, evapotranspiration below the extinction depth) alters ``c`` and so the
+factorization.
 
 Top faces of columns are split at the water's edge: the *wetted fraction* of a column is the
 share of its width where the ground profile lies below the local stage (and inside the channel
@@ -20,7 +21,7 @@ over the dry part:
   set chosen by the solver).
 
 Riparian evapotranspiration is a head-dependent sink in the cells of the root zone:
-``ET = rate * clip(1 - (ground - h) / extinction_depth, 0, 1)`` per unit of ground area, split over
+``ET = max_rate * clip(1 - (ground - h) / extinction_depth, 0, 1)`` per unit of ground area, split over
 the root depth by cell thickness (each cell uses its own head, so the matrix stays symmetric). It
 acts on the ground that lies both inside the riparian x range and out of the water at that time:
 none under the stream or a flood.
@@ -60,25 +61,27 @@ def et_branch(depth: np.ndarray, extinction_depth: np.ndarray) -> np.ndarray:
 
 @dataclass
 class Term:
-    """One boundary or sink term: inflow ``r - g u[cells]`` into the listed cells.
+    """One boundary or sink term: inflow ``r - conductance u[cells]`` into the listed cells.
 
     ``kind`` is its budget line; ``face`` says which face of the cell it crosses (``top``,
-    ``left``, ``right``, ``bottom``; ``cell`` for a volume sink) and ``place`` the column (top,
-    bottom, cell) or row (sides) of each entry. ``width`` is the part of a top face the term acts
-    on (m): the wetted or the dry part of the column (None: the whole face).
+    ``left``, ``right``, ``bottom``; ``cell`` for a volume sink) and ``column_or_row`` the column
+    (top, bottom, cell) or row (sides) of each entry. ``conductance`` (m^2/s per m of head per
+    metre of width) is what the term adds to the matrix diagonal, ``r`` what it adds to the
+    right-hand side. ``width`` is the part of a top face the term acts on (m): the wetted or the
+    dry part of the column (None: the whole face).
     """
 
     kind: str
     face: str
     cells: np.ndarray
-    place: np.ndarray
-    g: np.ndarray
+    column_or_row: np.ndarray
+    conductance: np.ndarray
     r: np.ndarray
     width: np.ndarray | None = None
 
     def inflow(self, u: np.ndarray) -> np.ndarray:
         """Inflow (m^2/s) through each entry for relative heads ``u``."""
-        return self.r - self.g * u[self.cells]
+        return self.r - self.conductance * u[self.cells]
 
 
 @dataclass
@@ -98,7 +101,7 @@ class ActiveSet:
 @dataclass
 class _SideGeometry:
     cells: np.ndarray
-    place: np.ndarray
+    column_or_row: np.ndarray
     conductance: np.ndarray
     area: np.ndarray
 
@@ -138,7 +141,7 @@ class Section:
     L: sp.csr_matrix
     h_ref: float
     top_cells: np.ndarray
-    top_half: np.ndarray
+    top_half_resistance: np.ndarray
     channel: np.ndarray
     bed_head: np.ndarray
     sides: dict[str, _SideGeometry]
@@ -263,7 +266,7 @@ class Section:
         out: list[Term] = []
         if wet.any():
             sc = self.scenario.stream
-            half = self.top_half[wet]
+            half = self.top_half_resistance[wet]
             if sc.leakance is not None:
                 half = half + 1.0 / sc.leakance
             cond = ws.wet[wet] / half
@@ -273,7 +276,7 @@ class Section:
         dry = ws.fraction < 1.0
         seep = dry & state.seepage
         if seep.any():
-            cond = ws.dry[seep] / self.top_half[seep]
+            cond = ws.dry[seep] / self.top_half_resistance[seep]
             out.append(Term("seepage_face", "top", self.top_cells[seep], cols[seep], cond,
                             cond * (self.seepage_level(t)[seep] - self.h_ref), ws.dry[seep]))
         rech = dry & ~state.seepage
@@ -287,7 +290,7 @@ class Section:
                 continue
             if spec.kind == "flux":
                 q = float(spec.signal(t))
-                out.append(Term(side, side, geo.cells, geo.place, np.zeros(geo.cells.size), q * geo.area))
+                out.append(Term(side, side, geo.cells, geo.column_or_row, np.zeros(geo.cells.size), q * geo.area))
             else:
                 if spec.kind == "stream":
                     x_side = g.x_edges[0] if side == "left" else g.x_edges[-1]
@@ -295,7 +298,7 @@ class Section:
                 else:
                     head = float(spec.signal(t))
                 kind = "stream" if spec.kind == "stream" else side
-                out.append(Term(kind, side, geo.cells, geo.place, geo.conductance,
+                out.append(Term(kind, side, geo.cells, geo.column_or_row, geo.conductance,
                                 geo.conductance * (head - self.h_ref)))
         if self.et_cells.size:
             ground = g.ground[self.et_cols]
@@ -309,13 +312,13 @@ class Section:
                 mode = np.where(explicit, self.et_branch_at(u_lag), mode)
             # ET = f rate (1 - (ground - h)/ext) on the linear branch, f rate when h >= ground
             implicit = (mode == ET_LINEAR) & ~explicit
-            gg = np.where(implicit, rate / self.et_ext, 0.0)
+            et_conductance = np.where(implicit, rate / self.et_ext, 0.0)
             linear_r = -rate * (1.0 - (ground - self.h_ref) / self.et_ext)
             if explicit.any():
                 lagged = -rate * (1.0 - (ground - self.h_ref - u_lag[self.et_cells]) / self.et_ext)
                 linear_r = np.where(explicit, lagged, linear_r)
             r = np.where(mode == ET_LINEAR, linear_r, np.where(mode == ET_FULL, -rate, 0.0))
-            out.append(Term("evapotranspiration", "cell", self.et_cells, self.et_cols, gg, r))
+            out.append(Term("evapotranspiration", "cell", self.et_cells, self.et_cols, et_conductance, r))
         return out
 
     def update_active_set(self, u: np.ndarray, terms: list[Term], t: float, state: ActiveSet) -> ActiveSet:
@@ -333,7 +336,7 @@ class Section:
             if term.kind == "seepage_face":
                 inflow = term.inflow(u) / term.width
                 release = inflow > max(self.scenario.recharge, 0.0) + 1e-15
-                new.seepage[term.place[release]] = False
+                new.seepage[term.column_or_row[release]] = False
         new.seepage[ws.fraction >= 1.0] = False
         if self.et_cells.size:
             new.et_mode = self.et_branch_at(u)
@@ -351,7 +354,7 @@ class Section:
 
     @cached_property
     def _elastic(self) -> np.ndarray:
-        return self.materials.ss[self.grid.active] * self.cell_volume
+        return self.materials.specific_storage[self.grid.active] * self.cell_volume
 
     @cached_property
     def ground_u(self) -> np.ndarray:
@@ -361,23 +364,24 @@ class Section:
         return out
 
     @cached_property
-    def top_sy(self) -> np.ndarray:
+    def top_specific_yield(self) -> np.ndarray:
         """Specific yield of the top cell of each column."""
-        return self.materials.sy[self.grid.top_row, np.arange(self.grid.nx)]
+        return self.materials.specific_yield[self.grid.top_row, np.arange(self.grid.nx)]
 
     def water_table_storage(self, wet: np.ndarray) -> np.ndarray:
         """Specific yield times column width at the top cell of each exposed column, per unknown."""
         s = np.zeros(self.n)
         exposed = ~wet
-        s[self.top_cells[exposed]] = self.top_sy[exposed] * self.grid.dx[exposed]
+        s[self.top_cells[exposed]] = self.top_specific_yield[exposed] * self.grid.dx[exposed]
         return s
 
     # ---------------------------------------------------------------------------- assembly
     def matrix(self, terms: list[Term], extra_diag: np.ndarray | float = 0.0) -> sp.csr_matrix:
-        """``L + diag(sum g + extra_diag)``, sharing ``L``'s index arrays (only the values are new)."""
+        """``L + diag(sum conductance + extra_diag)``, sharing ``L``'s index arrays (only the values
+        are new)."""
         d = np.zeros(self.n) + extra_diag
         for term in terms:
-            _bincount_add(d, term.cells, term.g)
+            _bincount_add(d, term.cells, term.conductance)
         data = self.L.data.copy()
         data[self.diagonal] += d
         A = sp.csr_matrix((data, self.L.indices, self.L.indptr), shape=self.L.shape, copy=False)
@@ -436,7 +440,7 @@ def _evapotranspiration(scenario: Scenario, grid: Grid, idx: np.ndarray):
         if r.root_depth <= 0.0:
             rows = grid.top_row[for_cols]
             cells.append(idx[rows, for_cols]); cols.append(for_cols)
-            rate.append(np.full(for_cols.size, r.rate))
+            rate.append(np.full(for_cols.size, r.max_rate))
         else:
             depth = grid.ground[None, for_cols] - zc[:, for_cols]
             within = grid.active[:, for_cols] & (depth <= r.root_depth)
@@ -445,7 +449,7 @@ def _evapotranspiration(scenario: Scenario, grid: Grid, idx: np.ndarray):
             w = w / w.sum(axis=0, keepdims=True)
             rr, cc = np.nonzero(within)
             cells.append(idx[rr, for_cols[cc]]); cols.append(for_cols[cc])
-            rate.append(r.rate * w[rr, cc])
+            rate.append(r.max_rate * w[rr, cc])
         n = cells[-1].size
         ext.append(np.full(n, r.extinction_depth)); cyc.append(np.full(n, r.daily_cycle))
         zone.append(np.full(n, iz))
@@ -493,7 +497,7 @@ def discretise(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = Non
     L = conductance_matrix(grid.n_active, [hf, vf, sk])
     cols = np.arange(grid.nx)
     top_cells = idx[grid.top_row, cols]
-    top_half = half_cell_resistance(grid.thickness[grid.top_row, cols], mat.kv[grid.top_row, cols])
+    top_half_resistance = half_cell_resistance(grid.thickness[grid.top_row, cols], mat.kv[grid.top_row, cols])
     stream = scenario.stream
     limits = stream.channel if stream is not None and stream.channel is not None else None
     cuts = list(limits or ()) + [v for r in scenario.riparian for v in r.x]
@@ -513,8 +517,8 @@ def discretise(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = Non
     sides = {s: _side_geometry(grid, mat, idx, s) for s in ("left", "right", "bottom")}
     et = _evapotranspiration(scenario, grid, idx)
     section = Section(scenario, grid, mat, idx, joined(hf, sk), vf, L, _reference_head(scenario, grid), top_cells,
-                      top_half, channel, bed_head, sides, *et, pieces=pieces, piece_in_channel=in_channel,
-                      piece_in_riparian=in_riparian, diagonal=diagonal_positions(L))
+                      top_half_resistance, channel, bed_head, sides, *et, pieces=pieces,
+                      piece_in_channel=in_channel, piece_in_riparian=in_riparian, diagonal=diagonal_positions(L))
     _require_fixed_head(section)
     return section
 

@@ -5,7 +5,7 @@ stream (gaining). Budget lines are flows per metre of section width (m^2/s), spl
 enters and what leaves the aquifer through each boundary.
 
 Budget closure. Every flow of the budget is computed as a difference of two larger numbers:
-``r - g u`` on a boundary face (conductance times the imposed head, conductance times the
+``r - c u`` on a boundary face (conductance times the imposed head, conductance times the
 computed head, both relative to the reference head) and ``S (u1 - u0) / dt`` in storage. Their
 round-off is a fraction of the size of those parts, not of the net flow, so the closure is
 scaled by the *gross flow*: the sum of the magnitudes of all those parts (m^2/s). It is zero only
@@ -43,15 +43,15 @@ class Fluxes:
     qz: np.ndarray
     top_flux: np.ndarray
     bed_flux: np.ndarray
-    budget_in: dict[str, float]
-    budget_out: dict[str, float]
+    inflow: dict[str, float]
+    outflow: dict[str, float]
     exchange: float
     gross: float = 0.0
 
     @property
     def closure(self) -> float:
         """Budget imbalance (in - out) over the gross flow; NaN when nothing flows (module doc)."""
-        return closure(self.budget_in, self.budget_out, self.gross)
+        return closure(self.inflow, self.outflow, self.gross)
 
 
 def inflow_outflow(q: np.ndarray, weight: float = 1.0) -> tuple[float, float]:
@@ -65,24 +65,25 @@ def term_budget(terms: list[Term], u: np.ndarray, weight: float = 1.0,
                 ) -> tuple[dict[str, float], dict[str, float]]:
     """Inflow and outflow of every budget line through ``terms`` at relative heads ``u``, times
     ``weight``; added to ``into`` when given (a new pair of zero budgets otherwise)."""
-    budget_in, budget_out = into if into is not None else ({k: 0.0 for k in BUDGET_LINES},
+    inflow, outflow = into if into is not None else ({k: 0.0 for k in BUDGET_LINES},
                                                            {k: 0.0 for k in BUDGET_LINES})
     for term in terms:
         flow_in, flow_out = inflow_outflow(term.inflow(u), weight)
-        budget_in[term.kind] += flow_in
-        budget_out[term.kind] += flow_out
-    return budget_in, budget_out
+        inflow[term.kind] += flow_in
+        outflow[term.kind] += flow_out
+    return inflow, outflow
 
 
-def closure(budget_in: dict[str, float], budget_out: dict[str, float], gross: float) -> float:
+def closure(inflow: dict[str, float], outflow: dict[str, float], gross: float) -> float:
     """``(sum in - sum out) / gross``; NaN when the gross flow is zero (nothing flows)."""
-    net = sum(budget_in.values()) - sum(budget_out.values())
+    net = sum(inflow.values()) - sum(outflow.values())
     return net / gross if gross > 0.0 else float("nan")
 
 
 def gross_flow(terms: list[Term], u: np.ndarray) -> float:
-    """Sum of ``|r| + |g u|`` over every entry of the terms (m^2/s): the scale of their round-off."""
-    return float(sum(np.abs(t.r).sum() + np.abs(t.g * u[t.cells]).sum() for t in terms))
+    """Sum of ``|r| + |conductance u|`` over every entry of the terms (m^2/s): the scale of their
+    round-off."""
+    return float(sum(np.abs(t.r).sum() + np.abs(t.conductance * u[t.cells]).sum() for t in terms))
 
 
 def not_judgeable(inflow: float, outflow: float, gross: float, limit: float) -> str:
@@ -96,10 +97,10 @@ def not_judgeable(inflow: float, outflow: float, gross: float, limit: float) -> 
     return ""
 
 
-def check_closure(budget_in: dict[str, float], budget_out: dict[str, float], gross: float, limit: float,
+def check_closure(inflow: dict[str, float], outflow: dict[str, float], gross: float, limit: float,
                   where: str) -> None:
     """Raise :class:`SolverError` when a budget misses closure by more than ``limit``."""
-    c = closure(budget_in, budget_out, gross)
+    c = closure(inflow, outflow, gross)
     if np.isfinite(c) and abs(c) > limit:
         raise SolverError(f"the water budget does not close {where}: in - out = {c:.3g} of the gross flow "
                           f"({gross:.3g} m2/s), above the {limit:g} a correct solve keeps to; "
@@ -146,7 +147,7 @@ def derive(section: Section, u: np.ndarray, terms: list[Term], storage_inflow: n
     stream_flow = np.zeros(g.nx)
     stream_width = np.zeros(g.nx)
     gross = gross_flow(terms, u)
-    budget_in, budget_out = term_budget(terms, u)
+    inflow, outflow = term_budget(terms, u)
     stream_cols = np.zeros(g.nx, dtype=bool)
     exchange = 0.0
     for term in terms:
@@ -155,20 +156,20 @@ def derive(section: Section, u: np.ndarray, terms: list[Term], storage_inflow: n
             exchange -= float(q.sum())
         if term.face == "top":
             # a partly wetted column has a stream term and a dry-part term on one top face
-            top_flow += np.bincount(term.place, -q, g.nx)
+            top_flow += np.bincount(term.column_or_row, -q, g.nx)
             if term.kind == "stream":
-                stream_cols[term.place] = True
-                stream_flow += np.bincount(term.place, -q, g.nx)
-                width = g.dx[term.place] if term.width is None else term.width
-                stream_width += np.bincount(term.place, width, g.nx)
+                stream_cols[term.column_or_row] = True
+                stream_flow += np.bincount(term.column_or_row, -q, g.nx)
+                width = g.dx[term.column_or_row] if term.width is None else term.width
+                stream_width += np.bincount(term.column_or_row, width, g.nx)
         elif term.face == "bottom":
-            lower[g.nz - 1, term.place] = q / g.dx[term.place]
+            lower[g.nz - 1, term.column_or_row] = q / g.dx[term.column_or_row]
         elif term.face == "left":
-            left[term.place, 0] = q / g.thickness[term.place, 0]
+            left[term.column_or_row, 0] = q / g.thickness[term.column_or_row, 0]
         elif term.face == "right":
-            right[term.place, g.nx - 1] = -q / g.thickness[term.place, g.nx - 1]
+            right[term.column_or_row, g.nx - 1] = -q / g.thickness[term.column_or_row, g.nx - 1]
     if storage_inflow is not None:
-        budget_in["storage"], budget_out["storage"] = inflow_outflow(storage_inflow)
+        inflow["storage"], outflow["storage"] = inflow_outflow(storage_inflow)
         gross += float(np.abs(storage_inflow).sum())
     top_flux = top_flow / g.dx
     upper[g.top_row, np.arange(g.nx)] = top_flux
@@ -178,7 +179,7 @@ def derive(section: Section, u: np.ndarray, terms: list[Term], storage_inflow: n
     mask = stream_cols if wet is None else (wet | stream_cols)
     with np.errstate(invalid="ignore", divide="ignore"):
         bed_flux = np.where(mask & (stream_width > 0), stream_flow / stream_width, np.nan)
-    return Fluxes(head, qx, qz, top_flux, bed_flux, budget_in, budget_out, exchange, gross)
+    return Fluxes(head, qx, qz, top_flux, bed_flux, inflow, outflow, exchange, gross)
 
 
 def closure_summary(ds) -> tuple[float | None, str]:
@@ -186,10 +187,10 @@ def closure_summary(ds) -> tuple[float | None, str]:
     judged (None when it can be judged nowhere) and a note saying where and why it cannot."""
     limit = CLOSURE_LIMIT.get(ds.attrs.get("solver", "direct"), CLOSURE_LIMIT["direct"])
     c = np.atleast_1d(ds["budget_closure"].values)
-    bin_ = np.atleast_2d(ds["budget_in"].values).sum(axis=1)
-    bout = np.atleast_2d(ds["budget_out"].values).sum(axis=1)
+    inflow = np.atleast_2d(ds["inflow"].values).sum(axis=1)
+    outflow = np.atleast_2d(ds["outflow"].values).sum(axis=1)
     gross = np.atleast_1d(ds["budget_gross"].values)
-    reasons = [not_judgeable(i, o, g, limit) for i, o, g in zip(bin_, bout, gross)]
+    reasons = [not_judgeable(i, o, g, limit) for i, o, g in zip(inflow, outflow, gross)]
     judged = np.array([not r for r in reasons])
     if not judged.any():
         return None, reasons[-1]

@@ -17,7 +17,7 @@ and the strips of a column stand side by side, so
     kv of the cell = arithmetic mean over its strips, weighted by width
     kh of the cell = harmonic mean over its strips, weighted by width
 
-Storage (ss, sy) and porosity are volume-weighted means. A cell inside one zone keeps that
+Storage (specific storage and specific yield) and porosity are volume-weighted means. A cell inside one zone keeps that
 zone's values exactly.
 """
 from __future__ import annotations
@@ -31,7 +31,9 @@ from bedflux.errors import InputError
 from bedflux.section.grid import Grid
 from bedflux.scenario.spec import K_MAX, K_MIN, Scenario
 
-PROPERTIES = ("kh", "kv", "ss", "sy", "porosity")
+PROPERTIES = ("kh", "kv", "specific_storage", "specific_yield", "porosity")
+#: Property field names that were renamed (old -> new).
+RENAMED_FIELDS = {"ss": "specific_storage", "sy": "specific_yield"}
 
 
 @dataclass(frozen=True)
@@ -133,7 +135,8 @@ def _require_cover(scenario: Scenario, grid: Grid, covered: np.ndarray) -> None:
 
 @dataclass(frozen=True)
 class Materials:
-    """``(nz, nx)`` arrays of kh, kv (m/s), ss (1/m), sy, porosity (-) and the zone of each cell.
+    """``(nz, nx)`` arrays of kh, kv (m/s), specific storage (1/m), specific yield and porosity (-) and
+    the zone of each cell.
 
     ``zone`` is the zone at the cell centre (for figures); the properties are the averages over
     the zones a cell holds (see the module docstring). ``cover`` and ``table`` keep what is needed
@@ -142,8 +145,8 @@ class Materials:
 
     kh: np.ndarray
     kv: np.ndarray
-    ss: np.ndarray
-    sy: np.ndarray
+    specific_storage: np.ndarray
+    specific_yield: np.ndarray
     porosity: np.ndarray
     zone: np.ndarray
     zone_names: tuple[str, ...]
@@ -205,7 +208,8 @@ def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] |
     scenario, grid
         The scenario and its grid.
     fields
-        Optional ``(nz, nx)`` arrays (SI) for any of kh, kv, ss, sy that replace the zone values:
+        Optional ``(nz, nx)`` arrays (SI) for any of kh, kv, specific_storage, specific_yield and porosity
+        that replace the zone values:
         a heterogeneous field from the Python API. Values of inactive cells are ignored.
 
     Raises
@@ -231,6 +235,8 @@ def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] |
     for p, s in sums.items():
         arrays[p] = cover.to_columns(grid, s)
     for name, value in (fields or {}).items():
+        if name in RENAMED_FIELDS:
+            raise InputError(f"field '{name}' was renamed; pass it as '{RENAMED_FIELDS[name]}'", where="fields")
         if name not in PROPERTIES:
             raise InputError(f"unknown property field '{name}'; allowed: {', '.join(PROPERTIES)}", where="fields")
         a = np.asarray(value, dtype=float)
@@ -243,9 +249,9 @@ def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] |
         if name in ("kh", "kv") and (vals.min() < K_MIN or vals.max() > K_MAX):
             raise InputError(f"field '{name}' must lie in [{K_MIN:g}, {K_MAX:g}] m/s; got "
                              f"{vals.min():.3g} to {vals.max():.3g}", where="fields")
-        if name in ("ss", "sy", "porosity") and vals.min() < 0:
+        if name in ("specific_storage", "specific_yield", "porosity") and vals.min() < 0:
             raise InputError(f"field '{name}' must be >= 0", where="fields")
         arrays[name] = np.where(grid.active, a, arrays[name])
-    return Materials(arrays["kh"], arrays["kv"], arrays["ss"], arrays["sy"], arrays["porosity"],
-                     _centre_zone(cover, grid), tuple(z.name for z in scenario.zones), grid, cover, table,
-                     frozenset(fields or {}))
+    return Materials(arrays["kh"], arrays["kv"], arrays["specific_storage"], arrays["specific_yield"],
+                     arrays["porosity"], _centre_zone(cover, grid), tuple(z.name for z in scenario.zones), grid,
+                     cover, table, frozenset(fields or {}))

@@ -27,8 +27,8 @@ VARIABLES: dict[str, tuple[str, str, str]] = {
     "kv": ("m s-1", "cell", "vertical hydraulic conductivity"),
     "porosity": ("1", "cell", "effective porosity (for pore velocities)"),
     "zone": ("1", "cell", "index of the material zone (see attribute zone_names)"),
-    "budget_in": ("m2 s-1", "section", "flow into the aquifer through each boundary, per metre of width"),
-    "budget_out": ("m2 s-1", "section", "flow out of the aquifer through each boundary, per metre of width"),
+    "inflow": ("m2 s-1", "section", "flow into the aquifer through each boundary, per metre of width"),
+    "outflow": ("m2 s-1", "section", "flow out of the aquifer through each boundary, per metre of width"),
     "budget_closure": ("1", "section", "budget imbalance (in - out) over the gross flow; NaN when nothing flows"),
     "budget_gross": ("m2 s-1", "section", "gross flow: sum of the magnitudes of the parts every budget flow is "
                                           "the difference of (the scale of the closure)"),
@@ -63,8 +63,8 @@ def build_dataset(section: Section, states: Sequence[Fluxes], stages: Sequence[f
         "exchange": (lead, stack(lambda s: np.float64(s.exchange))),
         "stage": (lead, np.array([np.nan if v is None else v for v in stages])[0] if steady
                   else np.array([np.nan if v is None else v for v in stages])),
-        "budget_in": (lead + ("term",), stack(lambda s: np.array([s.budget_in[k] for k in BUDGET_LINES]))),
-        "budget_out": (lead + ("term",), stack(lambda s: np.array([s.budget_out[k] for k in BUDGET_LINES]))),
+        "inflow": (lead + ("term",), stack(lambda s: np.array([s.inflow[k] for k in BUDGET_LINES]))),
+        "outflow": (lead + ("term",), stack(lambda s: np.array([s.outflow[k] for k in BUDGET_LINES]))),
         "budget_closure": (lead, stack(lambda s: np.float64(s.closure))),
         "budget_gross": (lead, stack(lambda s: np.float64(s.gross))),
         "ground": (("x",), g.ground),
@@ -117,8 +117,9 @@ def prescribed_head_range(section: Section) -> tuple[float, float]:
     """
     held = [section.grid.ground[~section.submerged(0.0)]]
     for term in section.terms(0.0, section.initial_active_set()):
-        if term.kind in ("stream", "left", "right", "bottom") and term.g.size and np.all(term.g > 0):
-            held.append(term.r / term.g + section.h_ref)
+        held_by_head = term.kind in ("stream", "left", "right", "bottom")
+        if held_by_head and term.conductance.size and np.all(term.conductance > 0):
+            held.append(term.r / term.conductance + section.h_ref)
     values = np.concatenate(held) if held else np.zeros(0)
     if values.size == 0:
         return float("nan"), float("nan")

@@ -22,7 +22,8 @@ def simulate(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = None,
     scenario
         A validated scenario (:func:`bedflux.load`).
     fields
-        Optional ``(nz, nx)`` property arrays (``kh``, ``kv``, ``ss``, ``sy``) overriding the zones.
+        Optional ``(nz, nx)`` property arrays (``kh``, ``kv``, ``specific_storage``, ``specific_yield``,
+        ``porosity``) overriding the zones.
     method
         Linear solver: ``"auto"`` (by size), ``"direct"`` or ``"amg-cg"``.
     progress
@@ -63,7 +64,7 @@ def steady_dataset(section: Section, method: str = "auto") -> xr.Dataset:
     sol = solve_steady(section, 0.0, method=method)
     sol.factor = None  # free the factorization or multigrid hierarchy before the derived fields
     fl = derive(section, sol.u, sol.terms, wet=section.submerged(0.0))
-    check_closure(fl.budget_in, fl.budget_out, fl.gross, CLOSURE_LIMIT[sol.method],
+    check_closure(fl.inflow, fl.outflow, fl.gross, CLOSURE_LIMIT[sol.method],
                   f"in the steady solve ({sol.method})")
     attrs = {"run": "steady", "solver": sol.method, "active_set_passes": sol.passes,
              "cells": section.n}

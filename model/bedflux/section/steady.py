@@ -1,6 +1,6 @@
 """Steady solve with the active set of seepage faces and evapotranspiration branches.
 
-Each pass assembles ``(L + diag g) u = r`` for the current active set, solves it, and updates the
+Each pass assembles ``(L + diag conductance) u = r`` for the current active set, solves it, and updates the
 set from the heads; it stops when the set no longer changes. A set that keeps changing is
 reported with the columns involved.
 """
@@ -59,7 +59,7 @@ def solve_steady(section: Section, t: float = 0.0, method: str = "auto", reuse: 
     history: list[ActiveSet] = []
     for passes in range(1, MAX_PASSES + 1):
         terms = section.terms(t, state, steady=True)
-        if not any(np.any(term.g > 0) for term in terms):
+        if not any(np.any(term.conductance > 0) for term in terms):
             if section.scenario.recharge > 0 and not state.seepage.any():
                 state.seepage[:] = ~section.submerged(t)
                 continue

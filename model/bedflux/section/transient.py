@@ -7,7 +7,7 @@ each step solves
     backward Euler:  (S/dt + A1) u1 = S/dt u0 + b1
     Crank-Nicolson:  (S/dt + A1/2) u1 = (S/dt - A0/2) u0 + (b0 + b1)/2
 
-where ``A = L + diag(g)`` and ``b = r`` come from the boundary terms. The matrix depends only on
+where ``A = L + diag(conductance)`` and ``b = r`` come from the boundary terms. The matrix depends only on
 the step length, the scheme's theta (Crank-Nicolson runs also take backward-Euler half steps) and
 on which faces are submerged, seeping or evapotranspiring on which branch; factorizations are
 cached by exactly that, so a constant step reuses one factor and a flood that floods and drains
@@ -94,10 +94,10 @@ class FactorCache:
         import time
 
         t0 = time.perf_counter()
-        scaled = [Term(t.kind, t.face, t.cells, t.place, theta * t.g, t.r) for t in terms]
+        scaled = [Term(t.kind, t.face, t.cells, t.column_or_row, theta * t.conductance, t.r) for t in terms]
         A = self.section.matrix(scaled, extra_diag)
         if theta != 1.0:
-            A = A - (1.0 - theta) * self.section.L  # theta * L + diag(theta g + S/dt)
+            A = A - (1.0 - theta) * self.section.L  # theta * L + diag(theta conductance + S/dt)
         f = factorize(A, "direct")
         self.build_seconds += time.perf_counter() - t0
         self.builds += 1
@@ -123,10 +123,10 @@ def _state_key(wet: np.ndarray, state: ActiveSet, dt: float, theta: float) -> tu
 
 
 def _apply(terms: list[Term], u: np.ndarray, section: Section) -> np.ndarray:
-    """``A u = L u + sum g u`` for the given terms."""
+    """``A u = L u + sum conductance u`` for the given terms."""
     out = section.L @ u
     for t in terms:
-        out += np.bincount(t.cells, weights=t.g * u[t.cells], minlength=section.n)
+        out += np.bincount(t.cells, weights=t.conductance * u[t.cells], minlength=section.n)
     return out
 
 
@@ -183,7 +183,7 @@ def run_transient(section: Section, progress: Callable[[float], None] | None = N
     partial = ""
     failure = None
     steps = 0
-    damp = RANNACHER_STEPS if theta != 1.0 else 0
+    backward_euler_starts_left = RANNACHER_STEPS if theta != 1.0 else 0
     last_key = None
     limit = CLOSURE_LIMIT["direct"]
     try:
@@ -192,33 +192,33 @@ def run_transient(section: Section, progress: Callable[[float], None] | None = N
                 dt = min(ts.step, t_out - t)
                 if t_out - (t + dt) < 1e-6 * ts.step:
                     dt = t_out - t
-                if damp > 0:
+                if backward_euler_starts_left > 0:
                     # damp the undamped high modes of Crank-Nicolson after the start and after every
                     # change of the face states (Rannacher 1984): two backward-Euler half steps
-                    parts = [(dt / 2, 1.0), (dt / 2, 1.0)]
-                    damp -= 1
+                    substeps = [(dt / 2, 1.0), (dt / 2, 1.0)]
+                    backward_euler_starts_left -= 1
                 else:
-                    parts = [(dt, theta)]
-                pieces = []
+                    substeps = [(dt, theta)]
+                substep_results = []
                 t_start = t
-                for h, th in parts:
+                for h, th in substeps:
                     info, storage_part, budget_part = _step(section, cache, u, t, h, th, state, terms0)
-                    pieces.append((h / dt, storage_part, budget_part))
+                    substep_results.append((h / dt, storage_part, budget_part))
                     u, state, terms0 = info.u1, info.state, info.terms1
                     t += h
                     if on_step is not None:
                         on_step(info)
-                storage_in, budget = _combine(pieces)
+                storage_in, budget = _combine(substep_results)
                 steps += 1
                 check_closure(*budget, limit, f"in step {steps} (t = {t_start:g} s to {t:g} s)")
                 key = (section.wetted_fraction(t).tobytes(), state.seepage.tobytes(), state.et_mode.tobytes())
                 if theta != 1.0 and last_key is not None and key != last_key:
-                    damp = RANNACHER_STEPS
+                    backward_euler_starts_left = RANNACHER_STEPS
                 last_key = key
                 if progress is not None:
                     progress(t / ts.end)
             fl = derive(section, u, terms0, storage_in, wet=section.submerged(t))
-            fl.budget_in, fl.budget_out, fl.gross = budget
+            fl.inflow, fl.outflow, fl.gross = budget
             states.append(fl)
             stages.append(section.stage(t))
             done_times.append(t)
@@ -240,14 +240,15 @@ def run_transient(section: Section, progress: Callable[[float], None] | None = N
     return run
 
 
-def _combine(pieces: list) -> tuple[np.ndarray, tuple[dict, dict, float]]:
-    """Time-weighted mean of the storage release, budget and gross flow of the parts of one step."""
-    if len(pieces) == 1:
-        return pieces[0][1], pieces[0][2]
-    storage = sum(w * st for w, st, _ in pieces)
-    bin_ = {k: sum(w * b[0][k] for w, _, b in pieces) for k in BUDGET_LINES}
-    bout = {k: sum(w * b[1][k] for w, _, b in pieces) for k in BUDGET_LINES}
-    return storage, (bin_, bout, sum(w * b[2] for w, _, b in pieces))
+def _combine(substep_results: list) -> tuple[np.ndarray, tuple[dict, dict, float]]:
+    """Time-weighted mean of the storage release, budget and gross flow of the substeps of one
+    step (each result is ``(share of the step, storage release, (inflow, outflow, gross))``)."""
+    if len(substep_results) == 1:
+        return substep_results[0][1], substep_results[0][2]
+    storage = sum(w * release for w, release, _ in substep_results)
+    inflow = {k: sum(w * b[0][k] for w, _, b in substep_results) for k in BUDGET_LINES}
+    outflow = {k: sum(w * b[1][k] for w, _, b in substep_results) for k in BUDGET_LINES}
+    return storage, (inflow, outflow, sum(w * b[2] for w, _, b in substep_results))
 
 
 def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: float, theta: float,
@@ -260,8 +261,9 @@ def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: f
 
     Water-table storage acts only below the ground: a column whose top face is a seepage face or
     is flooded at the end of the step has its water table at the ground, so its pore space above
-    the start head fills by ``sy dx max(ground - h0, 0)`` (a known amount) and it has no
-    specific-yield term in the matrix; other exposed columns store ``sy dx (h1 - min(h0, ground))``.
+    the start head fills by ``Sy dx max(ground - h0, 0)`` (a known amount, ``Sy`` the specific
+    yield) and it has no specific-yield term in the matrix; other exposed columns store
+    ``Sy dx (h1 - min(h0, ground))``.
     """
     t1 = t0 + dt
     g = section.grid
@@ -286,7 +288,8 @@ def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: f
         fill = np.zeros(section.n)
         if filled.any():
             top = section.top_cells[filled]
-            fill[top] = section.top_sy[filled] * g.dx[filled] * np.maximum(ground_u[top] - u0[top], 0.0) / dt
+            fill[top] = (section.top_specific_yield[filled] * g.dx[filled]
+                         * np.maximum(ground_u[top] - u0[top], 0.0) / dt)
         S = S_el + S_wt
         base = S_el / dt * u0 + S_wt / dt * u0_wt - fill - explicit0
         terms1 = section.terms(t1, state, steady=False, u_lag=u0, et_window=window)
@@ -300,14 +303,14 @@ def _step(section: Section, cache: FactorCache, u0: np.ndarray, t0: float, dt: f
         raise SolverError(f"seepage faces / evapotranspiration branches did not settle in the step to "
                           f"t = {t1:g} s; shorten [time] step")
     storage_in = -(S_el * (u1 - u0) + S_wt * (u1 - u0_wt)) / dt - fill
-    bin_, bout = term_budget(terms1, u1, theta)
+    inflow, outflow = term_budget(terms1, u1, theta)
     gross = theta * gross_flow(terms1, u1)
     if theta != 1.0:
-        term_budget(terms0, u0, 1.0 - theta, into=(bin_, bout))
+        term_budget(terms0, u0, 1.0 - theta, into=(inflow, outflow))
         gross += (1.0 - theta) * gross_flow(terms0, u0)
-    bin_["storage"], bout["storage"] = inflow_outflow(storage_in)
+    inflow["storage"], outflow["storage"] = inflow_outflow(storage_in)
     gross += float((S_el * (np.abs(u1) + np.abs(u0)) + S_wt * (np.abs(u1) + np.abs(u0_wt))).sum() / dt
                    + np.abs(fill).sum())
     info = StepInfo(t0, t1, dt, theta, u0, u1, u0_wt, terms0, terms1, factor, S_el, S_wt, fill,
                     filled, state, et_factor)
-    return info, storage_in, (bin_, bout, gross)
+    return info, storage_in, (inflow, outflow, gross)
