@@ -46,7 +46,8 @@ def test_base_case_is_valid():
 @pytest.mark.parametrize("change, key, place, allowed", [
     (lambda d: d.update(colour="red"), "colour", "top level", ["grid", "ground", "zone", "stream", "sides"]),
     (lambda d: d["grid"].update(dxx=1.0), "dxx", "[grid]", ["x", "bottom", "dx", "dz", "growth"]),
-    (lambda d: d["zone"][1].update(colour="brown"), "colour", "zone 'bed'", ["kh", "kv", "ss", "sy", "depth"]),
+    (lambda d: d["zone"][1].update(colour="brown"), "colour", "zone 'bed'",
+     ["kh", "kv", "specific_storage", "specific_yield", "depth"]),
     (lambda d: d["stream"].update(stages=0.4), "stages", "[stream]", ["stage", "channel", "leakance"]),
     (lambda d: d["sides"].update(top="no-flow"), "top", "[sides]", ["left", "right", "bottom"]),
 ], ids=["top", "grid", "zone", "stream", "sides"])

@@ -11,7 +11,7 @@ import pytest
 
 import bedflux
 from bedflux.errors import InputError
-from bedflux.forcing import read_series
+from bedflux.scenario.forcing import read_series
 
 
 def write(tmp_path, text, name="stage.csv"):
@@ -67,7 +67,7 @@ def test_series_must_cover_the_run(tmp_path):
 def test_side_head_series(tmp_path):
     write(tmp_path, "elapsed [min],head [m]\n0,1.0\n60,1.5\n", name="side.csv")
     d = {"grid": {"x": [0, 10], "bottom": -2, "dx": 1, "dz": 2}, "ground": {"elevation": 3},
-         "zone": [{"name": "a", "kh": 1e-4, "ss": 1e-5, "sy": 0.1}],
+         "zone": [{"name": "a", "kh": 1e-4, "specific_storage": 1e-5, "specific_yield": 0.1}],
          "sides": {"left": {"head_csv": "side.csv"}, "right": {"head": 1.0}},
          "time": {"end": "1 h", "step": "5 min", "output_every": "30 min"}}
     ds = bedflux.simulate(bedflux.Scenario.from_dict(d, base_dir=tmp_path))

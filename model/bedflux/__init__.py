@@ -3,14 +3,37 @@
 Field sheets -> checked observations -> a finite-difference model of the section under the
 channel -> calibration with sensitivities -> placement of the next instruments -> figures and a
 report.
+
+The public names are imported when first used, so ``import bedflux`` and ``bedflux --help`` stay
+quick: ``bedflux.load``, ``bedflux.simulate``, ``bedflux.fit``, ``bedflux.plan``, ``bedflux.Scenario``.
 """
 from __future__ import annotations
 
-__version__ = "0.1.0"
+from importlib import import_module
+from typing import Any
 
-from .errors import InputError, SolverError  # noqa: E402
-from .scenario import Scenario, load  # noqa: E402
-from .simulate import simulate  # noqa: E402
-from . import fit, plan  # noqa: E402,F401  (callable packages: bedflux.fit(...), bedflux.plan(...))
+from bedflux.errors import InputError, SolverError
+from bedflux.version import __version__
+
+#: public name -> module that defines it
+_PUBLIC = {
+    "Scenario": "bedflux.scenario.spec",
+    "load": "bedflux.scenario.spec",
+    "simulate": "bedflux.section.simulate",
+    "fit": "bedflux.calibration.estimate",
+    "plan": "bedflux.planning.placement",
+}
 
 __all__ = ["InputError", "SolverError", "Scenario", "load", "simulate", "fit", "plan", "__version__"]
+
+
+def __getattr__(name: str) -> Any:
+    if name in _PUBLIC:
+        value = getattr(import_module(_PUBLIC[name]), name)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'bedflux' has no attribute {name!r}")
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(_PUBLIC))

@@ -24,7 +24,8 @@ def section_dict(n_cells: float, steady: bool = True) -> dict:
         "title": f"benchmark section {nx} x {nz}",
         "grid": {"x": [-width / 2, width / 2], "bottom": -depth, "dx": width / nx, "dz": depth / nz},
         "ground": {"profile": [[-width / 2, 0.0], [width / 2, 0.0]]},
-        "zone": [{"name": "aquifer", "kh": "10 m/d", "kv": "3 m/d", "ss": 1e-4, "sy": 0.2},
+        "zone": [{"name": "aquifer", "kh": "10 m/d", "kv": "3 m/d", "specific_storage": 1e-4,
+                  "specific_yield": 0.2},
                  {"name": "bed", "kh": "0.5 m/d", "kv": "0.05 m/d", "depth": 4 * depth / nz, "x": [-20, 20]}],
         "stream": {"stage": 0.5},
         "sides": {"left": {"head": 0.9}, "right": {"head": 0.8}},
@@ -51,7 +52,7 @@ def _case_steady_run(n: float, method: str) -> dict:
 
 def _system(n: float):
     import bedflux
-    from bedflux.solve.section import discretise
+    from bedflux.section.discretisation import discretise
 
     sec = discretise(bedflux.Scenario.from_dict(section_dict(n)))
     terms = sec.terms(0.0, sec.initial_active_set())
@@ -60,7 +61,7 @@ def _system(n: float):
 
 def _case_assembly(n: float) -> dict:
     import bedflux
-    from bedflux.solve.section import discretise
+    from bedflux.section.discretisation import discretise
 
     s = bedflux.Scenario.from_dict(section_dict(n))
     t0 = time.perf_counter()
@@ -83,7 +84,7 @@ def _case_bare(n: float, which: str) -> dict:
     elif which == "spsolve":
         x = spla.spsolve(A.tocsc(), b)
     else:
-        from bedflux.solve.linear import factorize
+        from bedflux.section.linear import factorize
 
         x = factorize(A, "amg-cg").solve(b)
     dt = time.perf_counter() - t0
@@ -93,9 +94,9 @@ def _case_bare(n: float, which: str) -> dict:
 
 def _case_transient_step(n: float) -> dict:
     import bedflux
-    from bedflux.solve.linear import factorize
-    from bedflux.solve.section import discretise
-    from bedflux.solve.transient import run_transient
+    from bedflux.section.linear import factorize
+    from bedflux.section.discretisation import discretise
+    from bedflux.section.transient import run_transient
 
     s = bedflux.Scenario.from_dict(section_dict(n, steady=False))
     sec = discretise(s)
@@ -136,7 +137,7 @@ def _case_column() -> dict:
     import scipy.linalg as sla
 
     d = {"grid": {"x": [0, 1], "bottom": -20.0, "dx": 1.0, "dz": 0.01}, "ground": {"elevation": 0.0},
-         "zone": [{"name": "sand", "kh": 1e-4, "ss": 1e-4}],
+         "zone": [{"name": "sand", "kh": 1e-4, "specific_storage": 1e-4}],
          "stream": {"wave": {"mean": 0.5, "amplitude": 0.3, "period": "1 d"}},
          "time": {"end": "10000 min", "step": "1 min", "output_every": "1000 min"}}
     s = bedflux.Scenario.from_dict(d)

@@ -1,18 +1,23 @@
 """The ``bedflux`` command line.
 
 Exit status: 0 on success, 2 for bad input (a message naming the file, key or row and what is
-allowed), 1 when a numerical method fails, 130 when interrupted.
+allowed) or an output folder that cannot take the outputs, 1 when a numerical method fails, 130
+when interrupted by Ctrl-C and 143 when stopped by SIGTERM (what schedulers and container stops
+send). Both signals end a transient run the same way: its outputs so far are kept, marked partial.
 """
 from __future__ import annotations
 
 import argparse
+import signal
 import sys
-from importlib import resources
+import threading
+from importlib import import_module, resources
 from pathlib import Path
 from typing import Sequence
 
-from . import __version__
-from .errors import InputError, SolverError
+from bedflux.version import __version__
+from bedflux.errors import InputError, SolverError
+from bedflux.outputs.verb import add_output_options, add_units_option, print_written
 
 EXAMPLE = "gaining_channel.toml"
 
@@ -22,23 +27,41 @@ def example_path() -> Path:
     return Path(str(resources.files("bedflux") / "examples" / EXAMPLE))
 
 
+class Terminated(KeyboardInterrupt):
+    """SIGTERM, raised where Ctrl-C would raise KeyboardInterrupt and handled the same way."""
+
+
+#: SIGTERMs received during the current command.
+_terminations: list[int] = []
+
+
+def _on_sigterm(signum, frame) -> None:
+    _terminations.append(signum)
+    raise Terminated()
+
+
+def _interrupt_status() -> int:
+    """128 + the signal number: 130 for Ctrl-C, 143 for SIGTERM."""
+    return 128 + (signal.SIGTERM if _terminations else signal.SIGINT)
+
+
 def _cmd_run(args: argparse.Namespace) -> int:
-    from .run import run_scenario
+    from bedflux.outputs.run import run_scenario
 
     scenario = Path(args.scenario) if args.scenario else example_path()
     summary = run_scenario(scenario, Path(args.output), unit=args.units, quiet=args.quiet)
-    if not args.quiet:
-        print(summary["text"], end="")
-        print(f"outputs written to {args.output}/")
-    return 130 if summary["partial"] else 0
+    print_written(args, summary["text"], partial=bool(summary["partial"]))
+    if summary["partial"]:
+        print(f"bedflux run: {summary['partial']}", file=sys.stderr)
+        return _interrupt_status()
+    return 0
 
 
 def _cmd_field(args: argparse.Namespace) -> int:
-    from .field import run_field
+    from bedflux.field import run_field
 
-    run_field(Path(args.sheets), Path(args.output), quiet=args.quiet)
-    if not args.quiet:
-        print(f"outputs written to {args.output}/")
+    run_field(Path(args.sheets), Path(args.output), quiet=args.quiet, keep_flagged=args.keep_flagged)
+    print_written(args)
     return 0
 
 
@@ -59,10 +82,8 @@ def build_parser() -> argparse.ArgumentParser:
                                    "channel with a silty clogging patch. Writes result.nc, summary.txt, "
                                    "summary.json and figures into OUTDIR.")
     r.add_argument("scenario", nargs="?", help="scenario TOML file (omit for the built-in example)")
-    r.add_argument("-o", "--output", default="bedflux-out", help="output folder (default: bedflux-out)")
-    r.add_argument("--units", default="m/d", choices=["m/d", "mm/d", "cm/d", "cm/s", "m/s"],
-                   help="display unit of fluxes in figures (files stay SI)")
-    r.add_argument("-q", "--quiet", action="store_true", help="no progress bar or summary on screen")
+    add_output_options(r, "bedflux-out", "no progress bar or summary on screen")
+    add_units_option(r, "display unit of fluxes in figures (files stay SI)")
     r.set_defaults(func=_cmd_run)
 
     f = sub.add_parser("field", help="reduce field sheets to checked observations",
@@ -71,28 +92,20 @@ def build_parser() -> argparse.ArgumentParser:
                                    "gradients and conductivities with uncertainties and flags, and write "
                                    "observations.csv for calibration with tables and figures into OUTDIR.")
     f.add_argument("sheets", help="folder with the field sheets")
-    f.add_argument("-o", "--output", default="bedflux-field", help="output folder (default: bedflux-field)")
-    f.add_argument("-q", "--quiet", action="store_true", help="no summary on screen")
+    add_output_options(f, "bedflux-field", "no summary on screen")
+    f.add_argument("--keep-flagged", action="store_true",
+                   help="keep flagged meters and piezometers (robust outliers, scattered repeats, gradients "
+                        "within the velocity head) in observations.csv; by default they are left out and "
+                        "listed in flagged_observations.csv")
     f.set_defaults(func=_cmd_field)
     for extra in _EXTRA_VERBS:
         extra(sub)
     return p
 
 
-def _register_optional() -> list:
-    verbs = []
-    for name in ("fit", "plan", "report"):
-        try:
-            mod = __import__(f"bedflux.{name}.command", fromlist=["register"])
-        except ModuleNotFoundError as err:
-            if err.name and err.name.startswith("bedflux"):
-                continue
-            raise
-        verbs.append(mod.register)
-    return verbs
-
-
-_EXTRA_VERBS = _register_optional()
+#: Verbs defined in their own rooms: each module has ``register(subparsers)``.
+_VERB_MODULES = ("bedflux.calibration.command", "bedflux.planning.command", "bedflux.report.command")
+_EXTRA_VERBS = [import_module(name).register for name in _VERB_MODULES]
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -105,6 +118,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     if hasattr(args, "output") and args.output is not None and not str(args.output).strip():
         print(f"bedflux {args.verb}: error: -o needs a folder name; got an empty one", file=sys.stderr)
         return 2
+    in_main = threading.current_thread() is threading.main_thread()
+    _terminations.clear()
+    before = signal.signal(signal.SIGTERM, _on_sigterm) if in_main else None
     try:
         return args.func(args)
     except InputError as err:
@@ -118,8 +134,11 @@ def main(argv: Sequence[str] | None = None) -> int:
         print(f"bedflux {args.verb}: the solver failed: {err}", file=sys.stderr)
         return 1
     except KeyboardInterrupt:
-        print(f"bedflux {args.verb}: interrupted", file=sys.stderr)
-        return 130
+        print(f"bedflux {args.verb}: {'stopped by SIGTERM' if _terminations else 'interrupted'}", file=sys.stderr)
+        return _interrupt_status()
+    finally:
+        if in_main:
+            signal.signal(signal.SIGTERM, before)
 
 
 if __name__ == "__main__":

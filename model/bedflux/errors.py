@@ -42,4 +42,12 @@ class InputError(ValueError):
 
 
 class SolverError(RuntimeError):
-    """A numerical method did not converge; the message says which and why."""
+    """A numerical method failed; the message says which and why.
+
+    ``partial`` holds what was computed before the failure when that is worth keeping (the
+    outputs of a transient run before a step whose water budget did not close), else None.
+    """
+
+    def __init__(self, message: str, partial: object = None):
+        super().__init__(message)
+        self.partial = partial

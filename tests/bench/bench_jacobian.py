@@ -23,8 +23,8 @@ import numpy as np
 import pandas as pd
 
 import bedflux
-from bedflux.fit import fit
-from bedflux.sensitivity import Forward, free_parameters
+from bedflux.calibration import fit
+from bedflux.forward.sensitivity import Forward, free_parameters
 
 WIDTH, DEPTH = 100.0, 20.0
 
@@ -91,8 +91,8 @@ def jacobian_case(n_cells: float, boxes: int, n_obs: int, repeats: int, central:
 
 def block_solve_case(n_cells: float, boxes: int, k: int, repeats: int) -> dict:
     """k back-substitutions with the forward factor: as one (n, k) block, and one column at a time."""
-    from bedflux.solve.section import discretise
-    from bedflux.solve.steady import solve_steady
+    from bedflux.section.discretisation import discretise
+    from bedflux.section.steady import solve_steady
 
     sec = discretise(bedflux.Scenario.from_dict(section(n_cells, boxes)))
     t_fwd = median_time(lambda: solve_steady(sec, reuse=True), repeats)

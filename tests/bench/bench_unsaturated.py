@@ -28,8 +28,8 @@ def run(path_or_dict, method="newton"):
     import warnings
 
     import bedflux
-    from bedflux.solve.richards_run import run_variably_saturated
-    from bedflux.solve.section import discretise
+    from bedflux.section.richards_run import run_variably_saturated
+    from bedflux.section.discretisation import discretise
 
     sc = bedflux.load(path_or_dict) if isinstance(path_or_dict, (str, Path)) else bedflux.Scenario.from_dict(path_or_dict)
     sec = discretise(sc)
@@ -47,11 +47,11 @@ def one_linear_solve(path) -> tuple[float, float]:
     """Seconds of one factorization + solve of the linear model's matrix (SPD, symmetric mode)
     and of one Jacobian solve of the variably saturated run, same section."""
     import bedflux
-    from bedflux.solve.linear import factorize
-    from bedflux.solve.richards import RichardsSystem
-    from bedflux.solve.richards_newton import JacobianSolver
-    from bedflux.solve.richards_steps import SectionBoundaries, soil_water
-    from bedflux.solve.section import discretise
+    from bedflux.section.linear import factorize
+    from bedflux.section.richards import RichardsSystem
+    from bedflux.section.richards_newton import JacobianSolver
+    from bedflux.section.richards_steps import SectionBoundaries, soil_water
+    from bedflux.section.discretisation import discretise
 
     sec = discretise(bedflux.load(path))
     terms = sec.terms(0.0, sec.initial_active_set())
@@ -83,7 +83,7 @@ def flood():
 
     path = ROOT / "scenarios/flood_pulse_unsaturated.toml"
     lin_t0 = time.perf_counter()
-    bedflux.simulate(bedflux.load(ROOT / "scenarios/flood_pulse.toml"))
+    bedflux.section.simulate(bedflux.load(ROOT / "scenarios/flood_pulse.toml"))
     lin = time.perf_counter() - lin_t0
     ds, secs, err = run(path)
     it = ds["step_iterations"].values
@@ -127,7 +127,7 @@ def large():
 
     d = section_dict(1e5)
     for z in d["zone"]:
-        z.pop("sy", None)
+        z.pop("specific_yield", None)
         z["retention"] = {"model": "van-genuchten", "alpha": "3.6 1/m", "n": 1.56, "residual": 0.078,
                           "saturated": 0.43}
     d["ground"] = {"profile": [[-50.0, 1.2], [-20.0, 0.8], [-19.0, 0.0], [19.0, 0.0], [20.0, 0.8], [50.0, 1.2]]}

@@ -3,8 +3,7 @@ import numpy as np
 import pytest
 
 from bedflux import InputError
-from bedflux.field import (amplification, gradient_sigma, head_resolution, manometer_head_difference,
-                           vertical_gradient)
+from bedflux.field import (amplification, gradient_sigma, head_resolution, manometer_head_difference, vertical_gradient)
 
 INCH = 0.0254  # m, by definition
 

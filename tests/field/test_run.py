@@ -23,7 +23,7 @@ def test_demo_writes_everything(demo):
     for name in ["observations.csv", "seepage_readings.csv", "seepage_meters.csv", "seepage_transects.csv",
                  "manometer_readings.csv", "piezometers.csv", "slug_tests.csv", "permeameter_tests.csv",
                  "velocity_readings.csv", "consistency.csv", "flags.csv", "rejected.csv",
-                 "field_summary.json", "transect_profiles.png", "bed_flux_map.png", "gradient_vs_flux.png"]:
+                 "flagged_observations.csv", "field_summary.json", "transect_profiles.png", "bed_flux_map.png", "gradient_vs_flux.png"]:
         assert (out / name).stat().st_size > 0, name
     assert json.loads((out / "field_summary.json").read_text()) == json.loads(json.dumps(summary))
 
@@ -62,13 +62,20 @@ def test_observations_carry_hand_computed_values(campaign, tmp_path):
     # Hydrostatics: SG 0.9 oil amplifies 10 times; mean reading 11 cm -> 1.1 cm of head over 0.30 m.
     assert vhg["value"] == pytest.approx(0.011 / 0.30, rel=1e-9)
     assert vhg["x"] == 10 and vhg["depth"] == pytest.approx(0.30) and vhg["time"] == pytest.approx(5400)
-    # sigma: standard error of the two readings combined with the resolution term
-    # 0.1 mm of head / sqrt(12) / 0.30 m (GUM, F.2.2.1).
+    # sigma: standard error of the two readings, the resolution term 0.1 mm of head / sqrt(12)
+    # / 0.30 m (GUM, F.2.2.1) and the between-piezometer term: the opening depth known to 1 cm
+    # (common practice), i.e. |vhg| x 0.01 m / 0.30 m, all in quadrature.
     g = np.array([0.010, 0.012]) / 0.30
     se = np.std(g, ddof=1) / np.sqrt(2)
-    assert vhg["sigma"] == pytest.approx(np.hypot(se, 1e-4 / np.sqrt(12) / 0.30), rel=1e-9)
+    depth_term = (0.011 / 0.30) * 0.01 / 0.30
+    assert vhg["sigma"] == pytest.approx(np.sqrt(se**2 + (1e-4 / np.sqrt(12) / 0.30) ** 2 + depth_term**2), rel=1e-9)
     head = obs[obs["kind"] == "head"].iloc[0]
     assert head["value"] == pytest.approx(100.511, rel=1e-12)
+    # The head carries the same depth term in metres: the head changes by vhg x 1 cm.
+    h = 100.5 + np.array([0.010, 0.012])
+    se_h = np.std(h, ddof=1) / np.sqrt(2)
+    assert head["sigma"] == pytest.approx(
+        np.sqrt(se_h**2 + (1e-4 / np.sqrt(12)) ** 2 + ((0.011 / 0.30) * 0.01) ** 2), rel=1e-9)
 
 
 def test_scatter_detection_and_fill_flags(campaign, tmp_path):

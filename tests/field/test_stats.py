@@ -3,7 +3,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from bedflux.field import modified_z, robust_outliers, summarise
+from bedflux.field import modified_z, robust_outliers, repeat_statistics
 
 SAMPLE = np.array([12, 15, 14, 13, 40, 16, 11], dtype=float)  # cm/d, issue 4
 
@@ -19,7 +19,7 @@ def test_interval_of_the_rest():
     # Issue 4 / references 11.2: the rest have mean 13.5 and a t-based 95 % half-width of 1.963
     # (t with 5 degrees of freedom from scipy; s with n - 1 from numpy).
     rest = SAMPLE[SAMPLE != 40]
-    s = summarise(rest)
+    s = repeat_statistics(rest)
     t5 = stats.t.ppf(0.975, 5)
     assert s.n == 6
     assert s.mean == pytest.approx(13.5, rel=1e-12)
@@ -30,13 +30,13 @@ def test_interval_of_the_rest():
 
 def test_all_seven():
     # References 11.3: mean 17.285714, s 10.160615, CV 0.587804.
-    s = summarise(SAMPLE)
+    s = repeat_statistics(SAMPLE)
     assert (s.mean, s.std, s.cv) == pytest.approx((17.285714, 10.160615, 0.587804), rel=1e-6)
     assert s.stderr == pytest.approx(10.160615 / np.sqrt(7), rel=1e-6)
 
 
 def test_single_value_has_no_spread():
-    s = summarise(np.array([3.0]))
+    s = repeat_statistics(np.array([3.0]))
     assert s.n == 1 and np.isnan(s.std) and np.isnan(s.half_width)
 
 

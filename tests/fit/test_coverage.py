@@ -30,8 +30,8 @@ import pandas as pd
 from scipy import stats
 
 import bedflux
-from bedflux.fit import fit
-from bedflux.sensitivity import Forward, free_parameters
+from bedflux.calibration import fit
+from bedflux.forward.sensitivity import Forward, free_parameters
 
 N_FITS = 600
 SEED = 20240502

@@ -20,7 +20,7 @@ import pandas as pd
 import pytest
 
 import bedflux
-from bedflux.fit import fit
+from bedflux.calibration import fit
 
 STAGE = 0.2
 BED = 0.4  # bed thickness (m)

@@ -25,8 +25,8 @@ import pandas as pd
 import pytest
 
 import bedflux
-from bedflux.fit import fit
-from bedflux.sensitivity import Forward, free_parameters
+from bedflux.calibration import fit
+from bedflux.forward.sensitivity import Forward, free_parameters
 
 NOT_IDENTIFIABLE = "not identifiable"
 
@@ -36,7 +36,7 @@ def column(nx: int = 1) -> bedflux.Scenario:
     return bedflux.Scenario.from_dict({
         "grid": {"x": [0.0, float(nx)], "bottom": -2.0, "dx": 1.0, "dz": 0.25},
         "ground": {"elevation": 0.0},
-        "zone": [{"name": "aquifer", "kh": 1e-4, "kv": 1e-4, "ss": 1e-5},
+        "zone": [{"name": "aquifer", "kh": 1e-4, "kv": 1e-4, "specific_storage": 1e-5},
                  {"name": "bed", "kh": 1e-5, "kv": 1e-5, "depth": 0.5}],
         "stream": {"stage": 0.3},
         "sides": {"left": "no-flow", "right": "no-flow", "bottom": {"head": 1.0}}})
@@ -73,7 +73,7 @@ BASE = {"path": "sides.bottom.head", "low": 0.0, "high": 3.0, "start": 1.5}
 
 def storage_fit():
     s = column()
-    ss = {"path": "aquifer.ss", "low": 1e-7, "high": 1e-3, "start": 3e-5}
+    ss = {"path": "aquifer.specific_storage", "low": 1e-7, "high": 1e-3, "start": 3e-5}
     free = [KV, BASE, ss]
     return fit(s, noisy(s, COLUMN_TABLE, free), free), ss
 

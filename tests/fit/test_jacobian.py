@@ -1,4 +1,4 @@
-"""Sensitivities of the observations to the free parameters (``bedflux.sensitivity.Forward``).
+"""Sensitivities of the observations to the free parameters (``bedflux.forward.sensitivity.Forward``).
 
 Checks, each independent of the analytic Jacobian under test:
 
@@ -18,8 +18,8 @@ The cases are steady and transient (backward Euler and Crank-Nicolson) sections 
 zones (kh != kv), a box zone and a bed layer (heterogeneous), recharge, riparian ET (with the daily
 cycle in transient runs), side and bottom heads, a bed leakance, a stage pulse that floods the
 banks, and observations of every kind (head, vhg, seepage) at times between time steps. Together
-they cover every parameter kind with an analytic derivative: zone kh, kv, ss, sy, recharge.rate,
-riparian.N.rate, sides.X.head and stream.leakance.
+they cover every parameter kind with an analytic derivative: zone kh, kv, specific_storage,
+specific_yield, recharge.rate, riparian.N.max_rate, sides.X.head and stream.leakance.
 """
 from __future__ import annotations
 
@@ -28,8 +28,8 @@ import pandas as pd
 import pytest
 
 import bedflux
-from bedflux.sensitivity import Forward, free_parameters
-from bedflux.solve.section import discretise
+from bedflux.forward.sensitivity import Forward, free_parameters
+from bedflux.section.discretisation import discretise
 
 EPS = np.finfo(float).eps
 STEPS = 10.0 ** -np.arange(1, 7)  # 1e-1 ... 1e-6 (style.md item 8)
@@ -42,15 +42,16 @@ def section(scheme: str | None) -> bedflux.Scenario:
     side and bottom heads and a bed leakance; transient runs add a stage pulse that floods the banks."""
     d = {"grid": {"x": [0.0, 40.0], "bottom": 0.0, "dx": 1.0, "dz": 0.25, "growth": 1.1, "dz_max": 1.0},
          "ground": {"profile": [[0, 10], [15, 10], [18, 9], [22, 9], [25, 10], [40, 10]]},
-         "zone": [{"name": "aquifer", "kh": "10 m/d", "kv": "2 m/d", "ss": 1e-4, "sy": 0.2},
-                  {"name": "lens", "kh": "0.5 m/d", "kv": "0.1 m/d", "ss": 3e-4, "sy": 0.1,
+         "zone": [{"name": "aquifer", "kh": "10 m/d", "kv": "2 m/d", "specific_storage": 1e-4,
+                   "specific_yield": 0.2},
+                  {"name": "lens", "kh": "0.5 m/d", "kv": "0.1 m/d", "specific_storage": 3e-4, "specific_yield": 0.1,
                    "x": [5, 30], "z": [3, 5]},
-                  {"name": "bed", "kh": "1 m/d", "kv": "0.2 m/d", "ss": 5e-4, "sy": 0.25,
+                  {"name": "bed", "kh": "1 m/d", "kv": "0.2 m/d", "specific_storage": 5e-4, "specific_yield": 0.25,
                    "depth": 0.5, "x": [15, 25]}],
          "stream": {"stage": 9.5, "leakance": 1e-5},
          "sides": {"left": {"head": 9.0}, "right": {"head": 8.8}, "bottom": {"head": 9.3}},
          "recharge": {"rate": "1 mm/d"},
-         "riparian": [{"x": [2, 12], "rate": "3 mm/d", "extinction_depth": 2.0,
+         "riparian": [{"x": [2, 12], "max_rate": "3 mm/d", "extinction_depth": 2.0,
                        "daily_cycle": scheme is not None}]}
     if scheme is not None:
         d["time"] = {"end": "1 d", "step": "1 h", "output_every": "1 d", "scheme": scheme}
@@ -71,9 +72,10 @@ def observations(times=(0.0,), points=POINTS) -> pd.DataFrame:
 
 
 STEADY_PATHS = ["aquifer.kh", "aquifer.kv", "lens.kh", "lens.kv", "bed.kh", "bed.kv", "recharge.rate",
-                "riparian.0.rate", "sides.left.head", "sides.right.head", "sides.bottom.head",
+                "riparian.0.max_rate", "sides.left.head", "sides.right.head", "sides.bottom.head",
                 "stream.leakance"]
-TRANSIENT_PATHS = STEADY_PATHS + ["aquifer.ss", "lens.ss", "bed.ss", "aquifer.sy", "bed.sy"]
+TRANSIENT_PATHS = STEADY_PATHS + ["aquifer.specific_storage", "lens.specific_storage", "bed.specific_storage",
+                                  "aquifer.specific_yield", "bed.specific_yield"]
 # 5.5 h and 17.3 h fall between steps of 1 h: the time interpolation is differentiated too
 TRANSIENT_TIMES = (5.5 * 3600, 12 * 3600, 17.3 * 3600, 86400.0)
 
@@ -90,9 +92,9 @@ def free_list(s: bedflux.Scenario, paths) -> list[dict]:
         v = s.value_at(p)
         if p.endswith(".head"):
             out.append({"path": p, "low": v - 5.0, "high": v + 5.0, "start": v})
-        elif p.endswith(".rate"):
+        elif p.endswith((".rate", ".max_rate")):
             out.append({"path": p, "low": -1e-6 if p.startswith("recharge") else 0.0, "high": 1e-6, "start": v})
-        elif p.endswith(".sy"):
+        elif p.endswith(".specific_yield"):
             out.append({"path": p, "low": 0.01, "high": 0.5, "start": v})
         else:
             out.append({"path": p, "low": v / 1000, "high": min(v * 1000, 1e-2), "start": v})
@@ -218,11 +220,11 @@ def test_agrees_with_central_differences(evaluated):
 
 def test_analytic_kinds_are_all_covered():
     # the cases exercise every parameter kind that has an analytic derivative
-    from bedflux.sensitivity import classify
+    from bedflux.forward.sensitivity import derivative_rule
 
-    kinds = {classify(section("backward-euler"), p).name for p in TRANSIENT_PATHS}
-    assert kinds == {"zone-kh", "zone-kv", "zone-ss", "zone-sy", "recharge", "riparian", "side-head",
-                     "leakance"}
+    rules = {derivative_rule(section("backward-euler"), p).name for p in TRANSIENT_PATHS}
+    assert rules == {"zone-kh", "zone-kv", "zone-specific_storage", "zone-specific_yield", "recharge", "riparian",
+                     "side-head", "leakance"}
 
 
 def test_fallback_differences_agree():
@@ -237,7 +239,7 @@ def test_fallback_differences_agree():
 def test_storage_has_no_effect_in_a_steady_run():
     # a steady state does not depend on storage: its column is exactly zero
     s = section(None)
-    fw = Forward(s, observations(), free_parameters(s, free_list(s, ["aquifer.ss", "bed.kv"])))
+    fw = Forward(s, observations(), free_parameters(s, free_list(s, ["aquifer.specific_storage", "bed.kv"])))
     m = fw.start()
     J = fw.jacobian(m)
     assert np.all(J[:, 0] == 0.0)

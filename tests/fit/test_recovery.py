@@ -14,7 +14,7 @@ import numpy as np
 import pandas as pd
 
 import bedflux
-from bedflux.fit import fit
+from bedflux.calibration import fit
 
 RECOVER = 1e-6  # the tolerance
 
@@ -87,15 +87,16 @@ def column(v: dict) -> bedflux.Scenario:
     return bedflux.Scenario.from_dict({
         "grid": {"x": [0.0, 1.0], "bottom": -3.0, "dx": 1.0, "dz": 0.1},
         "ground": {"elevation": 0.0},
-        "zone": [{"name": "aquifer", "kh": 1e-5, "kv": v["aquifer.kv"], "ss": v["aquifer.ss"]},
-                 {"name": "bed", "kh": 1e-6, "kv": v["bed.kv"], "ss": 1e-4, "depth": 0.3}],
+        "zone": [{"name": "aquifer", "kh": 1e-5, "kv": v["aquifer.kv"],
+                  "specific_storage": v["aquifer.specific_storage"]},
+                 {"name": "bed", "kh": 1e-6, "kv": v["bed.kv"], "specific_storage": 1e-4, "depth": 0.3}],
         "stream": {"wave": {"mean": 0.5, "amplitude": 0.2, "period": "6 h"}},
         "sides": {"left": "no-flow", "right": "no-flow", "bottom": "no-flow"},
         "time": {"end": "12 h", "step": "10 min", "output_every": "2 h"}})
 
 
-COLUMN_TRUTH = {"aquifer.kv": 1e-5, "aquifer.ss": 2e-3, "bed.kv": 1e-6}
-COLUMN_START = {"aquifer.kv": 4e-5, "aquifer.ss": 5e-4, "bed.kv": 4e-6}
+COLUMN_TRUTH = {"aquifer.kv": 1e-5, "aquifer.specific_storage": 2e-3, "bed.kv": 1e-6}
+COLUMN_START = {"aquifer.kv": 4e-5, "aquifer.specific_storage": 5e-4, "bed.kv": 4e-6}
 
 
 def transient_data(ds) -> pd.DataFrame:

@@ -18,10 +18,10 @@ import pandas as pd
 import pytest
 
 import bedflux
-from bedflux.plan import plan, prior_covariance
-from bedflux.plan.candidates import Instruments, as_observations, check_candidates
-from bedflux.plan.worth import add_one, greedy, posterior, target_spread
-from bedflux.sensitivity import Forward, free_parameters
+from bedflux.planning import plan, prior_covariance
+from bedflux.planning.candidates import Instruments, as_observations, check_candidates
+from bedflux.planning.worth import add_one, greedy, posterior, target_spread
+from bedflux.forward.sensitivity import Forward, free_parameters
 
 
 def small_section(bed_kv="0.5 m/d"):

@@ -8,6 +8,8 @@ from pathlib import Path
 import pytest
 from PIL import Image
 
+from bedflux.outputs import manifest
+
 SCENARIO_TEXT = '# invented test scenario <with markup & quotes>\ntitle = "Test reach"\n'
 
 
@@ -27,8 +29,8 @@ def steady_summary(exchange=2.0e-4, gaining=100.0, losing=20.0, lo=-1e-6, hi=3e-
         "exchange_m2_per_s": exchange, "gaining_length_m": gaining, "losing_length_m": losing,
         "submerged_length_m": gaining + losing, "max_gaining_flux_m_per_s": hi,
         "max_losing_flux_m_per_s": lo, "budget_closure": 1e-14,
-        "budget_in_m2_per_s": {"stream": max(-exchange, 0.0), "bottom": max(exchange, 0.0) + 1e-6},
-        "budget_out_m2_per_s": {"stream": max(exchange, 0.0), "bottom": 0.0},
+        "inflow_m2_per_s": {"stream": max(-exchange, 0.0), "bottom": max(exchange, 0.0) + 1e-6},
+        "outflow_m2_per_s": {"stream": max(exchange, 0.0), "bottom": 0.0},
     }
 
 
@@ -47,7 +49,7 @@ def transient_summary(reversals=((7.2 * 3600, 15.5 * 3600),), initial=8.0e-6) ->
 
 
 def write_run(folder: Path, summary: dict, figures=("section.png",)) -> Path:
-    """A run output folder: summary.json, provenance.json, inputs/ and figures."""
+    """A run output folder: summary.json, provenance.json, inputs/, figures and the manifest."""
     folder.mkdir(parents=True, exist_ok=True)
     (folder / "summary.json").write_text(json.dumps(summary))
     (folder / "inputs").mkdir(exist_ok=True)
@@ -59,6 +61,7 @@ def write_run(folder: Path, summary: dict, figures=("section.png",)) -> Path:
     (folder / "result.nc").write_bytes(b"")
     for name in figures:
         png(folder / name)
+    manifest.write(folder, "run")
     return folder
 
 
@@ -84,6 +87,7 @@ def write_fit(folder: Path, results: dict | None = None) -> Path:
     (folder / "residuals.csv").write_text("kind,x,depth,time,value,sigma,simulated,residual,weighted_residual\n"
                                           "seepage,1.0,0,0,1e-6,1e-7,1.1e-6,-1e-7,-1.0\n")
     png(folder / "parameter_intervals.png")
+    manifest.write(folder, "fit")
     return folder
 
 
@@ -97,6 +101,7 @@ def write_plan(folder: Path, n=3) -> Path:
     (folder / "plan_summary.json").write_text(json.dumps({"target": "bed.kv", "n_picks": n, "prior_sd": 0.25,
                                                           "final_sd": 0.2 - 0.03 * (n - 1), "picks": []}))
     png(folder / "plan_map.png")
+    manifest.write(folder, "plan")
     return folder
 
 
@@ -108,6 +113,7 @@ def write_field(folder: Path) -> Path:
                   "total_ci95 [m^3/s]": [3e-4, 6e-4]}}))
     (folder / "seepage_meters.csv").write_text("site,x [m],mean [m/s]\nA1,1.0,1.5e-6\n")
     png(folder / "transect_profiles.png")
+    manifest.write(folder, "field")
     return folder
 
 

@@ -12,7 +12,7 @@ import pytest
 from PIL import Image, ImageChops
 
 import bedflux
-from bedflux.animation import animate, frame_indices
+from bedflux.outputs.animation import animate, frame_indices
 
 SCENARIOS = Path(__file__).resolve().parents[2] / "scenarios"
 

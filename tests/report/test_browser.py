@@ -24,7 +24,7 @@ import pytest
 from PIL import Image
 
 from bedflux.cli import main
-from bedflux.report import findings as fd
+from bedflux.report import findings
 from bedflux.report.collect import collect
 
 ROOT = Path(__file__).resolve().parents[2]
@@ -51,7 +51,7 @@ def project(tmp_path_factory) -> Path:
              ["run", str(SCENARIOS / "reach_long.toml"), "-o", str(root / "reach"), "-q"],
              ["field", str(SCENARIOS / "field"), "-o", str(root / "field"), "-q"],
              ["fit", str(SCENARIOS / "reach_fit.toml"), "-o", str(root / "fit"), "-q"]]
-    if importlib.util.find_spec("bedflux.plan.command") is not None:
+    if importlib.util.find_spec("bedflux.planning.command") is not None:
         plans = sorted(SCENARIOS.glob("*plan*.toml"))
         if not plans:
             pytest.fail("bedflux plan exists but scenarios/ has no *plan*.toml for the worked example")
@@ -60,8 +60,8 @@ def project(tmp_path_factory) -> Path:
         assert main(argv) == 0, f"bedflux {' '.join(argv)} failed"
     if not (root / "pulse" / "animation.gif").exists():
         # until bedflux run writes the animation itself
-        from bedflux.animation import animate
-        from bedflux.io import read_result
+        from bedflux.outputs.animation import animate
+        from bedflux.outputs.files import read_result
 
         animate(read_result(root / "pulse" / "result.nc"), root / "pulse" / "animation")
     assert main(["report", str(root), "-q"]) == 0
@@ -158,31 +158,31 @@ def test_findings_state_the_numbers_of_the_runs(project, page):
         assert f"reach is {way}" in text
         assert f"{abs(ex) * 86400:.3g} m³/d per metre of {s['per_metre_of']}" in text, run
         for key in ("gaining_length_m", "losing_length_m", "submerged_length_m"):
-            assert fd.length(s[key]) in text, (run, key)
-        assert fd.flux(s["max_gaining_flux_m_per_s"]) in text
-        assert fd.flux(s["max_losing_flux_m_per_s"]) in text
+            assert findings.length(s[key]) in text, (run, key)
+        assert findings.flux(s["bed_flux_max_m_per_s"]) in text
+        assert findings.flux(s["bed_flux_min_m_per_s"]) in text
     ev = json.loads((project / "pulse" / "summary.json").read_text())["events"]
     assert ev["reversals"], "the worked flood pulse should reverse the exchange"
     for start, end in ev["reversals"]:
         assert f"from {start / 3600:.1f} h to {end / 3600:.1f} h" in text
     assert f"({ev['reversed_duration'] / 3600:.1f} h in all)" in text
-    assert f"Bank storage takes in {fd.number(ev['bank_storage_volume'])} m³ per metre of channel" in text
-    assert f"{fd.number(ev['returned_volume'])} m³ ({100 * ev['returned_fraction']:.0f} %)" in text
-    assert fd.length(ev["max_penetration_depth"]) + " below the bed" in text
+    assert f"Bank storage takes in {findings.number(ev['bank_storage_volume'])} m³ per metre of channel" in text
+    assert f"{findings.number(ev['returned_volume'])} m³ ({100 * ev['returned_fraction']:.0f} %)" in text
+    assert findings.length(ev["max_penetration_depth"]) + " below the bed" in text
 
     fit = json.loads((project / "fit" / "fit_results.json").read_text())
     kv = fit["best"]["bed.kv"]
     lo, hi = fit["ci95"]["bed.kv"]
     assert f"bed.kv (vertical conductivity of zone 'bed') = {kv * 86400:.3g} m/d" in text
-    assert f"95 % interval {fd.number(lo * 86400)} to {fd.number(hi * 86400)} m/d" in text
+    assert f"95 % interval {findings.number(lo * 86400)} to {findings.number(hi * 86400)} m/d" in text
     assert fit["verdicts"]["bed.kv"] in text
 
     field = json.loads((project / "field" / "field_summary.json").read_text())
-    assert fd.per_metre(field["reach"]["per_metre_of_channel [m^2/s]"]) in text
+    assert findings.per_metre(field["reach"]["per_metre_of_channel [m^2/s]"]) in text
 
     if (project / "plan" / "plan_table.csv").exists():
         first = pd.read_csv(project / "plan" / "plan_table.csv").sort_values("rank").iloc[0]
-        assert f"1) {fd.pick_text(first.to_dict())}" in text
+        assert f"1) {findings.pick_text(first.to_dict())}" in text
     else:
         assert "Where to measure next" in text
 

@@ -10,9 +10,11 @@ from pathlib import Path
 import pytest
 
 from bedflux import __version__
+from bedflux.outputs import manifest
 from bedflux.cli import main
 from bedflux.errors import InputError
-from bedflux.report import build_report, collect
+from bedflux.report import build_report
+from bedflux.report.collect import collect
 
 from .conftest import SCENARIO_TEXT, png, steady_summary, write_run
 
@@ -192,6 +194,7 @@ def test_gif_embedded_as_gif(tmp_path):
     from PIL import Image
     frames = [Image.new("RGB", (20, 10), c) for c in ((255, 0, 0), (0, 0, 255))]
     frames[0].save(run / "animation.gif", save_all=True, append_images=frames[1:])
+    manifest.write(run, "run")
     page = parse(build_report(tmp_path))
     assert any(v.startswith("data:image/gif;base64,") for t, a, v in page.refs if t == "img")
 

@@ -120,8 +120,9 @@ def run(scheme):
     kh = T / B
     d = {"grid": {"x": [0.0, 1500.0], "bottom": 0.0, "dx": DX, "dz": B},
          "ground": {"elevation": B},
-         "zone": [{"name": "bank", "kh": kh, "kv": kh, "ss": SS, "sy": SY}],
-         "stream": {"flood_wave": {"base": BASE, "amplitude": N0, "duration": TAU, "decay": "0 1/d",
+         "zone": [{"name": "bank", "kh": kh, "kv": kh, "specific_storage": SS, "specific_yield": SY}],
+         # the input is the flood's peak rise above base: 2 N0 when delta = 0 (references.md 6.5)
+         "stream": {"flood_wave": {"base": BASE, "peak_rise": 2 * N0, "duration": TAU, "decay": "0 1/d",
                                    "start": 0.0},
                     "channel": [-10.0, -5.0]},
          "sides": {"left": "stream", "right": "no-flow", "bottom": "no-flow"},

@@ -39,7 +39,7 @@ RIGHT_HEAD = 1.0
 
 
 def pulse_stage(t, base, peak, start, rise, fall):
-    """The documented pulse (bedflux.forcing): half-cosine rise over ``rise``, exponential recession."""
+    """The documented pulse (bedflux.scenario.forcing): half-cosine rise over ``rise``, exponential recession."""
     s = np.asarray(t, dtype=float) - start
     amp = peak - base
     rising = base + amp * 0.5 * (1.0 - np.cos(np.pi * np.clip(s, 0.0, rise) / rise))
@@ -52,11 +52,12 @@ def flood_scenario(scheme, profile=((0, 0), (5, 0), (7, 0.8), (40, 1.2)), daily_
     return bedflux.Scenario.from_dict({
         "grid": {"x": [0.0, 40.0], "bottom": BOTTOM, "dx": DX, "dz": DZ},
         "ground": {"profile": [list(p) for p in profile]},
-        "zone": [{"name": "aquifer", "kh": 1e-4, "kv": 2e-5, "ss": SS, "sy": SY},
-                 {"name": "bed", "kh": 1e-5, "kv": 5e-6, "ss": SS, "sy": SY, "depth": 0.5, "x": [0, 6]}],
+        "zone": [{"name": "aquifer", "kh": 1e-4, "kv": 2e-5, "specific_storage": SS, "specific_yield": SY},
+                 {"name": "bed", "kh": 1e-5, "kv": 5e-6, "specific_storage": SS, "specific_yield": SY, "depth": 0.5,
+                  "x": [0, 6]}],
         "stream": {"pulse": dict(PULSE)},
         "sides": {"left": "no-flow", "right": {"head": RIGHT_HEAD}, "bottom": "no-flow"},
-        "riparian": [{"x": [10, 40], "rate": "6 mm/d", "extinction_depth": "2 m", "daily_cycle": daily_cycle}],
+        "riparian": [{"x": [10, 40], "max_rate": "6 mm/d", "extinction_depth": "2 m", "daily_cycle": daily_cycle}],
         "time": {"end": "3 d", "step": "10 min", "output_every": "10 min", "scheme": scheme},
     })
 
@@ -70,8 +71,8 @@ def flood(request):
 
 def test_budget_closes_at_every_output(flood):
     scheme, ds = flood
-    bi = ds["budget_in"].values
-    bo = ds["budget_out"].values
+    bi = ds["inflow"].values
+    bo = ds["outflow"].values
     total_in, total_out = bi.sum(axis=1), bo.sum(axis=1)
     scale = np.maximum(total_in, total_out)
     ok = scale > 0
@@ -107,7 +108,7 @@ def test_storage_line_equals_head_change(flood):
     thick[top_row, cols] = ground - edges[top_row + 1]
     assert np.all((thick[top_row, cols] > 0.5 * DZ - 1e-12) & (thick[top_row, cols] < 1.5 * DZ + 1e-12))
     terms = list(ds["term"].values)
-    storage_net_in = ds["budget_in"].values[:, terms.index("storage")] - ds["budget_out"].values[:, terms.index("storage")]
+    storage_net_in = ds["inflow"].values[:, terms.index("storage")] - ds["outflow"].values[:, terms.index("storage")]
     stage = pulse_stage(t, **PULSE)
 
     def content(k):
@@ -137,8 +138,8 @@ def test_heads_obey_the_maximum_principle(flood):
 
 def test_evapotranspiration_is_a_sink_only(flood):
     scheme, ds = flood
-    et_in = ds["budget_in"].sel(term="evapotranspiration").values
-    et_out = ds["budget_out"].sel(term="evapotranspiration").values
+    et_in = ds["inflow"].sel(term="evapotranspiration").values
+    et_out = ds["outflow"].sel(term="evapotranspiration").values
     assert et_in.max() <= 1e-12 * et_out.max(), (
         f"{scheme}: evapotranspiration adds water: up to {et_in.max():.3g} m2/s "
         f"({et_in.max() / et_out.max():.2g} of the largest ET), first at t = "
@@ -153,16 +154,16 @@ def test_constant_forcing_from_steady_state_stays_steady(scheme):
     sc = bedflux.Scenario.from_dict({
         "grid": {"x": [0.0, 40.0], "bottom": BOTTOM, "dx": DX, "dz": DZ},
         "ground": {"profile": [[0, 0], [5, 0], [7, 0.8], [40, 1.2]]},
-        "zone": [{"name": "aquifer", "kh": 1e-4, "kv": 2e-5, "ss": SS, "sy": SY}],
+        "zone": [{"name": "aquifer", "kh": 1e-4, "kv": 2e-5, "specific_storage": SS, "specific_yield": SY}],
         "stream": {"stage": PULSE["base"]},
         "sides": {"left": "no-flow", "right": {"head": RIGHT_HEAD}, "bottom": "no-flow"},
-        "riparian": [{"x": [10, 40], "rate": "6 mm/d", "extinction_depth": "2 m"}],
+        "riparian": [{"x": [10, 40], "max_rate": "6 mm/d", "extinction_depth": "2 m"}],
         "time": {"end": "1 d", "step": "10 min", "output_every": "2 h", "scheme": scheme}})
     ds = bedflux.simulate(sc)
     h = ds["head"].values
     drift = float(np.nanmax(np.abs(h - h[0])))
-    storage = ds["budget_in"].sel(term="storage").values + ds["budget_out"].sel(term="storage").values
-    total = ds["budget_in"].values.sum(axis=1)
+    storage = ds["inflow"].sel(term="storage").values + ds["outflow"].sel(term="storage").values
+    total = ds["inflow"].values.sum(axis=1)
     assert drift <= 1e-9, f"{scheme}: heads drift {drift:.3g} m from the steady state under constant forcing"
     assert storage.max() <= 1e-9 * total.max(), f"{scheme}: storage moves {storage.max():.3g} m2/s"
 
@@ -193,8 +194,9 @@ def gaining(request):
     sc = bedflux.Scenario.from_dict({
         "grid": {"x": [0.0, 30.0], "bottom": -8.0, "dx": 0.5, "dz": 0.25},
         "ground": {"profile": [[0, 0], [5, 0], [5.5, 3.0], [30, 3.0]]},
-        "zone": [{"name": "aquifer", "kh": 1e-4, "kv": 2e-5, "ss": SS, "sy": SY},
-                 {"name": "bed", "kh": 1e-5, "kv": 5e-6, "ss": SS, "sy": SY, "depth": 0.5, "x": [0, 5.5]}],
+        "zone": [{"name": "aquifer", "kh": 1e-4, "kv": 2e-5, "specific_storage": SS, "specific_yield": SY},
+                 {"name": "bed", "kh": 1e-5, "kv": 5e-6, "specific_storage": SS, "specific_yield": SY, "depth": 0.5,
+                  "x": [0, 5.5]}],
         "stream": {"pulse": dict(REV_PULSE), "channel": [0.0, 5.5]},
         "sides": {"left": "no-flow", "right": {"head": 1.0}, "bottom": "no-flow"},
         "time": {"end": "1 d", "step": "1 min", "output_every": REV_OUT, "scheme": request.param},
@@ -279,7 +281,7 @@ def test_column_reversal_vs_convolution():
     sc = bedflux.Scenario.from_dict({
         "grid": {"x": [0.0, 1.0], "bottom": -L1, "dx": 1.0, "dz": 0.05},
         "ground": {"elevation": 0.0},
-        "zone": [{"name": "bed", "kh": KV1, "kv": KV1, "ss": SS1, "sy": 0.2}],
+        "zone": [{"name": "bed", "kh": KV1, "kv": KV1, "specific_storage": SS1, "specific_yield": 0.2}],
         "stream": {"pulse": dict(COL_PULSE)},
         "sides": {"left": "no-flow", "right": "no-flow", "bottom": {"head": H_bottom}},
         "time": {"end": "12 h", "step": "1 min", "output_every": COL_OUT},
@@ -299,7 +301,7 @@ def test_column_reversal_vs_convolution():
 
 
 def test_pulse_slopes_as_documented():
-    """bedflux.forcing documents the pulse: slope continuous at the start (zero on both sides),
+    """bedflux.scenario.forcing documents the pulse: slope continuous at the start (zero on both sides),
     zero at the peak from below, and -(peak - base) / fall at the start of the recession."""
     p = PULSE
     eps = 1.0

@@ -83,7 +83,7 @@ def run(kind, scheme):
         kv, ss = COLUMN["kv"], COLUMN["ss"]
         d = {"grid": {"x": [0.0, 1.0], "bottom": -40.0, "dx": 1.0, "dz": 0.02},
              "ground": {"elevation": 0.0},
-             "zone": [{"name": "bed", "kh": kv, "kv": kv, "ss": ss, "sy": 0.2}],
+             "zone": [{"name": "bed", "kh": kv, "kv": kv, "specific_storage": ss, "specific_yield": 0.2}],
              "stream": {"wave": wave},
              "sides": {"left": "no-flow", "right": "no-flow", "bottom": "no-flow"}}
     else:
@@ -93,7 +93,8 @@ def run(kind, scheme):
         # domain), so it carries sy; the left side follows the stage over its whole height
         d = {"grid": {"x": [0.0, 400.0], "bottom": 0.0, "dx": 0.2, "dz": b},
              "ground": {"elevation": b},
-             "zone": [{"name": "bank", "kh": kh, "kv": kh, "ss": BANK["ss"], "sy": BANK["sy"]}],
+             "zone": [{"name": "bank", "kh": kh, "kv": kh, "specific_storage": BANK["ss"],
+                       "specific_yield": BANK["sy"]}],
              "stream": {"wave": wave, "channel": [-10.0, -5.0]},
              "sides": {"left": "stream", "right": "no-flow", "bottom": "no-flow"}}
     d["time"] = t

@@ -65,7 +65,7 @@ def test_reference_formulas_reproduce_the_worked_examples():
 def run(scheme):
     d = {"grid": {"x": [0.0, 1.0], "bottom": GROUND - 40.0, "dx": 1.0, "dz": DZ},
          "ground": {"elevation": GROUND},
-         "zone": [{"name": "sand", "kh": 3 * KV, "kv": KV, "ss": SS, "sy": 0.2}],
+         "zone": [{"name": "sand", "kh": 3 * KV, "kv": KV, "specific_storage": SS, "specific_yield": 0.2}],
          "stream": {"stage": H0 + DH},
          "sides": {"left": "no-flow", "right": "no-flow", "bottom": "no-flow"},
          "time": {"end": "1 h", "step": DT, "output_every": "10 min", "scheme": scheme},

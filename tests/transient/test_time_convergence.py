@@ -31,7 +31,7 @@ def scenario(scheme, nsteps):
     return bedflux.Scenario.from_dict({
         "grid": {"x": [0.0, 20.0], "bottom": -6.0, "dx": 0.5, "dz": 0.25},
         "ground": {"profile": [[0.0, 0.0], [4.0, 0.0], [4.5, 2.0], [20.0, 2.0]]},
-        "zone": [{"name": "aquifer", "kh": 5e-5, "kv": 1e-5, "ss": 2e-4, "sy": 0.1}],
+        "zone": [{"name": "aquifer", "kh": 5e-5, "kv": 1e-5, "specific_storage": 2e-4, "specific_yield": 0.1}],
         "stream": {"wave": {"mean": 0.6, "amplitude": 0.3, "period": P}, "channel": [0.0, 4.5]},
         "sides": {"left": "no-flow", "right": {"head": 1.0}, "bottom": "no-flow"},
         "time": {"end": P, "step": P / nsteps, "output_every": P / 4, "scheme": scheme},

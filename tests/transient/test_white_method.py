@@ -61,7 +61,7 @@ def scenario(kind):
         C = kv / (L - dz / 2.0)
         H = -DEPTH + RATE * (1.0 - DEPTH / EXT) / C
         d = {"grid": {"x": [0.0, 1.0], "bottom": -L, "dx": 1.0, "dz": dz},
-             "zone": [{"name": "silt", "kh": kv, "kv": kv, "ss": SS, "sy": SY}],
+             "zone": [{"name": "silt", "kh": kv, "kv": kv, "specific_storage": SS, "specific_yield": SY}],
              "sides": {"left": "no-flow", "right": "no-flow", "bottom": {"head": H}}}
         riparian_x, width = [0.0, 1.0], 1.0
     else:
@@ -69,11 +69,11 @@ def scenario(kind):
         C = kh * b / (dx / 2.0) / dx
         H = -DEPTH + RATE * (1.0 - DEPTH / EXT) / C
         d = {"grid": {"x": [0.0, dx], "bottom": -b, "dx": dx, "dz": b},
-             "zone": [{"name": "sand", "kh": kh, "kv": kh, "ss": SS, "sy": SY}],
+             "zone": [{"name": "sand", "kh": kh, "kv": kh, "specific_storage": SS, "specific_yield": SY}],
              "sides": {"left": {"head": H}, "right": "no-flow", "bottom": "no-flow"}}
         riparian_x, width = [0.0, dx], dx
     d["ground"] = {"elevation": 0.0}
-    d["riparian"] = [{"x": riparian_x, "rate": RATE, "extinction_depth": EXT, "daily_cycle": True}]
+    d["riparian"] = [{"x": riparian_x, "max_rate": RATE, "extinction_depth": EXT, "daily_cycle": True}]
     d["time"] = {"end": "6 d", "step": "10 min", "output_every": "10 min"}
     return bedflux.Scenario.from_dict(d), H, width
 
@@ -138,7 +138,7 @@ def test_white_recovers_daily_et(run, day):
     assert abs(white / ET_DAILY - 1.0) <= tol + 0.004, f"{kind} day {day}: White {white * 1e3:.4f} mm/d"
 
     # (c) the model's budget ET line, integrated over the day, is the ET it applied
-    etb = ds["budget_out"].sel(term="evapotranspiration").values[one_day] / width
+    etb = ds["outflow"].sel(term="evapotranspiration").values[one_day] / width
     dt = np.diff(t[one_day])
     et_budget = np.sum(etb[1:] * dt)                  # backward Euler: each step's rate at its end
     assert et_budget == pytest.approx(et_true, rel=2e-3)

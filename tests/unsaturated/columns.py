@@ -4,16 +4,16 @@ from __future__ import annotations
 
 import numpy as np
 
-from bedflux.scenario import Scenario
-from bedflux.solve.richards import RichardsSystem, StepForcing, boundary_pressure
-from bedflux.solve.richards_steps import Stepper, soil_water
-from bedflux.solve.section import Section, Term, discretise
+from bedflux.scenario.spec import Scenario
+from bedflux.section.richards import RichardsSystem, StepForcing, boundary_pressure
+from bedflux.section.richards_steps import Stepper, soil_water
+from bedflux.section.discretisation import Section, Term, discretise
 
 
 def box(width, height, dx, dz, ks, retention, **extra) -> Section:
     """A rectangular section ``[0, width] x [0, height]`` of one soil."""
     d = {"grid": {"x": [0.0, width], "bottom": 0.0, "dx": dx, "dz": dz}, "ground": {"elevation": height},
-         "zone": [{"name": "soil", "kh": ks, "kv": ks, "ss": 0.0, "retention": retention}],
+         "zone": [{"name": "soil", "kh": ks, "kv": ks, "specific_storage": 0.0, "retention": retention}],
          "sides": {"left": {"head": 0.0}, "right": {"head": 0.0}, "bottom": {"head": 0.0}}}
     d.update(extra)
     return discretise(Scenario.from_dict(d))
@@ -29,11 +29,11 @@ def pressure_terms(section: Section, faces: dict) -> StepForcing:
         if side == "top":
             cols = np.arange(g.nx)
             cells, place = section.top_cells, cols
-            cond = g.dx / section.top_half
+            cond = g.dx / section.top_half_resistance
             head = pressure(g.xc) + g.ground
         else:
             geo = section.sides[side]
-            cells, place, cond = geo.cells, geo.place, geo.conductance
+            cells, place, cond = geo.cells, geo.column_or_row, geo.conductance
             if side == "bottom":
                 head = pressure(g.xc) + g.z_edges[-1]
             else:

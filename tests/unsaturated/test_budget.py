@@ -14,7 +14,7 @@ SANDY_LOAM = {"model": "van-genuchten", "alpha": "7.5 1/m", "n": 1.89, "residual
 FLOOD = {
     "grid": {"x": [-15.0, 15.0], "bottom": -5.0, "dx": 0.5, "dz": 0.1, "growth": 1.1, "dz_max": 0.5},
     "ground": {"profile": [[-15.0, 1.3], [-5.0, 0.9], [-4.0, 0.0], [4.0, 0.0], [5.0, 0.9], [15.0, 1.3]]},
-    "zone": [{"name": "aquifer", "kh": "12 m/d", "kv": "4 m/d", "ss": "1e-4 1/m", "retention": SANDY_LOAM},
+    "zone": [{"name": "aquifer", "kh": "12 m/d", "kv": "4 m/d", "specific_storage": "1e-4 1/m", "retention": SANDY_LOAM},
              {"name": "bed", "kh": "3 m/d", "kv": "1 m/d", "depth": 0.3, "x": [-5.0, 5.0], "retention": LOAM}],
     "stream": {"pulse": {"base": "0.4 m", "peak": "1.1 m", "start": "3 h", "rise": "6 h", "fall": "10 h"}},
     "sides": {"bottom": {"flux": "1.5 cm/d"}},
@@ -25,7 +25,7 @@ FLOOD = {
 
 @pytest.fixture(scope="module")
 def flood():
-    return bedflux.simulate(bedflux.Scenario.from_dict(FLOOD))
+    return bedflux.section.simulate(bedflux.Scenario.from_dict(FLOOD))
 
 
 def test_every_step_closes(flood):
@@ -44,7 +44,7 @@ def test_steps_land_on_outputs_and_breakpoints(flood):
 
 def test_storage_split_adds_up(flood):
     i = list(flood["term"].values).index("storage")
-    total = flood["budget_in"].values[1:, i] - flood["budget_out"].values[1:, i]
+    total = flood["inflow"].values[1:, i] - flood["outflow"].values[1:, i]
     parts = flood["storage_saturated"].values[1:] + flood["storage_unsaturated"].values[1:]
     assert np.allclose(parts, total, rtol=1e-9, atol=1e-16)
     # the banks fill as the stage rises: pore water is taken up during the rise
@@ -70,10 +70,10 @@ def test_water_table_rises_into_the_banks_and_drains(flood):
 RIPARIAN = {
     "grid": {"x": [-6.0, 14.0], "bottom": -4.0, "dx": 0.5, "dz": 0.1, "growth": 1.08, "dz_max": 0.4},
     "ground": {"profile": [[-6.0, 0.8], [-1.5, 0.7], [-1.0, 0.0], [1.0, 0.0], [1.5, 0.7], [14.0, 0.8]]},
-    "zone": [{"name": "aquifer", "kh": "4 m/d", "kv": "1 m/d", "ss": "1e-4 1/m", "retention": SANDY_LOAM}],
+    "zone": [{"name": "aquifer", "kh": "4 m/d", "kv": "1 m/d", "specific_storage": "1e-4 1/m", "retention": SANDY_LOAM}],
     "stream": {"stage": "0.3 m", "channel": [-1.5, 1.5]},
     "sides": {"left": {"head": 0.4}},
-    "riparian": [{"x": [-0.5, 12.0], "rate": "8 mm/d", "extinction_depth": "2 m", "root_depth": "0.8 m",
+    "riparian": [{"x": [-0.5, 12.0], "max_rate": "8 mm/d", "extinction_depth": "2 m", "root_depth": "0.8 m",
                   "daily_cycle": True}],
     "time": {"end": "2 d", "step": "30 min", "output_every": "3 h"},
 }
@@ -81,10 +81,10 @@ RIPARIAN = {
 
 def test_root_uptake_budget_and_limits():
     with pytest.warns(UserWarning, match="extinction_depth is not used"):
-        ds = bedflux.simulate(bedflux.Scenario.from_dict(RIPARIAN))
+        ds = bedflux.section.simulate(bedflux.Scenario.from_dict(RIPARIAN))
     assert np.max(np.abs(ds["step_closure"].values)) < 1e-8
     i = list(ds["term"].values).index("evapotranspiration")
-    uptake = ds["budget_out"].values[1:, i]
+    uptake = ds["outflow"].values[1:, i]
     t = ds["time"].values[1:]
     # the daily cycle: no uptake in intervals that lie wholly in the night (18:00-06:00)
     hour = (t % 86400) / 3600
@@ -103,10 +103,10 @@ def test_infiltration_excess_ponds():
     # seepage face, and the excess is reported as ponding (never lost from the budget)
     d = {"grid": {"x": [0.0, 2.0], "bottom": -3.0, "dx": 0.5, "dz": 0.1},
          "ground": {"elevation": 0.0},
-         "zone": [{"name": "soil", "kh": "2 mm/d", "ss": 0.0, "retention": LOAM}],
+         "zone": [{"name": "soil", "kh": "2 mm/d", "specific_storage": 0.0, "retention": LOAM}],
          "sides": {"bottom": {"head": -2.5}}, "recharge": {"rate": "50 mm/d"},
          "time": {"end": "20 d", "step": "6 h", "output_every": "5 d"}}
-    ds = bedflux.simulate(bedflux.Scenario.from_dict(d))
+    ds = bedflux.section.simulate(bedflux.Scenario.from_dict(d))
     last = ds.isel(time=-1)
     assert np.all(last["ponding"].values > 0.9 * (50e-3 - 2e-3) / 86400)
     assert np.max(np.abs(ds["step_closure"].values)) < 1e-8

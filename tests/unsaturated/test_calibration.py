@@ -16,13 +16,13 @@ import pandas as pd
 import pytest
 
 import bedflux
-from bedflux.sensitivity import Forward, free_parameters
+from bedflux.forward.sensitivity import Forward, free_parameters
 
 TRUE = {"alpha": 3.6, "n": 1.56, "kh": 1e-5}
 BASE = {
     "grid": {"x": [0.0, 8.0], "bottom": -2.0, "dx": 0.5, "dz": 0.1},
     "ground": {"profile": [[0.0, 0.0], [2.0, 0.0], [3.0, 1.0], [8.0, 1.0]]},
-    "zone": [{"name": "aquifer", "kh": TRUE["kh"], "kv": 4e-6, "ss": 1e-4,
+    "zone": [{"name": "aquifer", "kh": TRUE["kh"], "kv": 4e-6, "specific_storage": 1e-4,
               "retention": {"model": "van-genuchten", "alpha": TRUE["alpha"], "n": TRUE["n"],
                             "residual": 0.078, "saturated": 0.43}}],
     "stream": {"stage": 0.3, "channel": [0.0, 2.0]},
@@ -80,6 +80,6 @@ def test_fit_recovers_retention_and_conductivity():
         m_true = np.array([np.log10(TRUE["alpha"]), TRUE["n"], np.log10(TRUE["kh"])])
         obs = OBS.copy()
         obs["value"] = truth.predict(m_true)
-        result = bedflux.fit(bedflux.Scenario.from_dict(copy.deepcopy(BASE)), obs, FREE)
+        result = bedflux.calibration(bedflux.Scenario.from_dict(copy.deepcopy(BASE)), obs, FREE)
     for key, path in (("alpha", "aquifer.retention.alpha"), ("n", "aquifer.retention.n"), ("kh", "aquifer.kh")):
         assert result.best[path] == pytest.approx(TRUE[key], rel=1e-3), result.best

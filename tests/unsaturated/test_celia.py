@@ -14,7 +14,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from bedflux.solve.richards_steps import run_steps
+from bedflux.section.richards_steps import run_steps
 
 from .columns import box, pressure_terms, stepper
 
@@ -35,7 +35,7 @@ def mass_balance(form: str, step: float, dz: float = 0.01) -> tuple[float, np.nd
     def on_step(out, forcing, storage, t0, t1):
         u = system.head_u(out.psi)
         for term, kr in zip(forcing.terms, out.evaluation.term_kr):
-            net_in[0] += (t1 - t0) * float((kr * (term.r - term.g * u[term.cells])).sum())
+            net_in[0] += (t1 - t0) * float((kr * (term.r - term.conductance * u[term.cells])).sum())
         return 0.0
 
     def on_stop(out, forcing, t):

@@ -12,10 +12,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from bedflux.scenario import Scenario
-from bedflux.solve.richards import RichardsSystem
-from bedflux.solve.richards_steps import SectionBoundaries, Stepper, run_steps, soil_water
-from bedflux.solve.section import discretise
+from bedflux.scenario.spec import Scenario
+from bedflux.section.richards import RichardsSystem
+from bedflux.section.richards_steps import SectionBoundaries, Stepper, run_steps, soil_water
+from bedflux.section.discretisation import discretise
 
 from .analytic import LayeredInfiltration
 
@@ -26,10 +26,10 @@ TIMES = np.array([0.1, 0.5, 2.0]) * DAY
 
 def column(dz, recharge, layers):
     lower, upper = layers
-    zones = [{"name": "lower", "kh": lower[0], "ss": 0.0,
+    zones = [{"name": "lower", "kh": lower[0], "specific_storage": 0.0,
               "retention": {"model": "exponential", "alpha": ALPHA, "residual": 0.06, "saturated": 0.06 + lower[1]}}]
     if upper is not None:
-        zones.append({"name": "upper", "kh": upper[0], "ss": 0.0, "depth": upper[2],
+        zones.append({"name": "upper", "kh": upper[0], "specific_storage": 0.0, "depth": upper[2],
                       "retention": {"model": "exponential", "alpha": ALPHA, "residual": 0.10,
                                     "saturated": 0.10 + upper[1]}})
     return discretise(Scenario.from_dict({
@@ -48,8 +48,8 @@ def model_errors(dz, step, layers, exact):
     errs, closures = [], []
 
     def on_step(out, forcing, storage, t0, t1):
-        from bedflux.fluxes import BUDGET_LINES
-        from bedflux.solve.richards_steps import step_budget
+        from bedflux.section.fluxes import BUDGET_LINES
+        from bedflux.section.richards_steps import step_budget
         closures.append(step_budget(system, out.evaluation, forcing, storage, BUDGET_LINES).closure)
         return closures[-1]
 

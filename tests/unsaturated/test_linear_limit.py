@@ -17,7 +17,7 @@ RETENTION = {"model": "van-genuchten", "alpha": "3.6 1/m", "n": 1.56, "residual"
 BASE = {
     "grid": {"x": [0.0, 20.0], "bottom": -5.0, "dx": 0.5, "dz": 0.1, "growth": 1.1, "dz_max": 0.5},
     "ground": {"profile": [[0.0, 0.3], [8.0, 0.0], [12.0, 0.0], [20.0, 0.4]]},
-    "zone": [{"name": "aquifer", "kh": "10 m/d", "kv": "3 m/d", "ss": "2e-4 1/m"},
+    "zone": [{"name": "aquifer", "kh": "10 m/d", "kv": "3 m/d", "specific_storage": "2e-4 1/m"},
              {"name": "bed", "kh": "2 m/d", "kv": "0.5 m/d", "depth": 0.3, "x": [6.0, 14.0]}],
     "stream": {"wave": {"mean": "1.0 m", "amplitude": "0.4 m", "period": "1 d"}},
     "sides": {"left": {"head": 1.6}, "right": "no-flow", "bottom": {"flux": "1 cm/d"}},
@@ -28,10 +28,10 @@ def pair(transient: bool):
     d = copy.deepcopy(BASE)
     if transient:
         d["time"] = {"end": "1 d", "step": "1 h", "output_every": "3 h"}
-    linear = bedflux.simulate(bedflux.Scenario.from_dict(d))
+    linear = bedflux.section.simulate(bedflux.Scenario.from_dict(d))
     for z in d["zone"]:
         z["retention"] = RETENTION
-    return linear, bedflux.simulate(bedflux.Scenario.from_dict(d))
+    return linear, bedflux.section.simulate(bedflux.Scenario.from_dict(d))
 
 
 def test_steady_saturated_section_matches_linear_model():

@@ -5,7 +5,7 @@ import numpy as np
 
 import bedflux
 from bedflux.report.findings import exchange_finding
-from bedflux.summary import summarise, summary_text
+from bedflux.outputs.summary import run_summary, run_summary_text
 
 
 def column(head: float):
@@ -17,18 +17,18 @@ def column(head: float):
 
 
 def test_cells_above_the_water_table_are_counted_and_reported():
-    ds = bedflux.simulate(column(0.05))
+    ds = bedflux.section.simulate(column(0.05))
     bottoms = np.linspace(-2.0, 0.9, 30)
     expected = int(np.sum(bottoms > 0.05))  # cells whose bottom lies above h = 0.05 m: 9
     assert int((ds["saturated"].values == 0).sum()) == expected == 9
     assert ds.attrs["water_table_warning"].startswith("the water table lies below 9 cells, up to 0.95 m below")
-    s = summarise(ds)
-    assert "consider a variably saturated run" in summary_text(s)
+    s = run_summary(ds)
+    assert "consider a variably saturated run" in run_summary_text(s)
     assert any("consider a variably saturated run" in x for x in exchange_finding(s).sentences)
 
 
 def test_no_warning_when_saturated_to_the_ground():
-    ds = bedflux.simulate(column(1.5))
+    ds = bedflux.section.simulate(column(1.5))
     assert np.all(ds["saturated"].values == 1)
     assert "water_table_warning" not in ds.attrs
-    assert "warning" not in summary_text(summarise(ds))
+    assert "warning" not in run_summary_text(run_summary(ds))

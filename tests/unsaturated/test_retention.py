@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
-from bedflux.retention import (SoilWater, exponential, exponential_parameter_derivatives, van_genuchten,
+from bedflux.section.retention import (SoilWater, exponential, exponential_parameter_derivatives, van_genuchten,
                                van_genuchten_parameter_derivatives)
 
 # A loam (Carsel & Parrish 1988, table of class means, from memory): alpha 3.6 1/m, n 1.56,

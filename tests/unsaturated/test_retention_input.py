@@ -57,9 +57,9 @@ def test_valid_retention_is_read_in_si():
     (lambda d: d["zone"][0]["retention"].update(alpha="3.6 m"), ["alpha", "1/length"]),
     (lambda d: d["zone"][0]["retention"].update(alpha=0.0), ["alpha", "> 0"]),
     (lambda d: d["zone"][0].update(retention=3), ["inline table"]),
-    (lambda d: d.update(riparian=[{"x": [1, 5], "rate": "5 mm/d", "extinction_depth": 2,
+    (lambda d: d.update(riparian=[{"x": [1, 5], "max_rate": "5 mm/d", "extinction_depth": 2,
                                    "uptake_heads": [-0.1, -0.25, -0.2, -80]}]), ["h1 > h2 > h3 > h4"]),
-    (lambda d: d.update(riparian=[{"x": [1, 5], "rate": "5 mm/d", "extinction_depth": 2,
+    (lambda d: d.update(riparian=[{"x": [1, 5], "max_rate": "5 mm/d", "extinction_depth": 2,
                                    "uptake_heads": [-0.1, -0.25]}]), ["four pressure heads"]),
 ], ids=["missing", "model", "no-n", "n-1", "n-exponential", "contents", "unit", "alpha-0", "type", "heads-order",
         "heads-count"])
@@ -72,9 +72,9 @@ def test_bad_retention_is_named(change, words):
 
 def test_specific_yield_is_reported_unused():
     d = copy.deepcopy(BASE)
-    d["zone"][0]["sy"] = 0.2
+    d["zone"][0]["specific_yield"] = 0.2
     with pytest.warns(UserWarning, match="specific yield"):
-        ds = bedflux.simulate(bedflux.Scenario.from_dict(d))
+        ds = bedflux.section.simulate(bedflux.Scenario.from_dict(d))
     assert "specific yield" in ds.attrs["notes"]
 
 

@@ -16,7 +16,7 @@ import numpy as np
 import pytest
 
 import bedflux
-from bedflux.elliott_brooks import dynamic_head_amplitude
+from bedflux.scenario.bedform import dynamic_head_amplitude
 
 STAGE = 0.5  # m above the bed surface z = 0; the bedform head rides on it
 

@@ -41,7 +41,7 @@ def max_error(dx, h0, hl):
     assert r["head"].shape[0] == 1, "expected a single-layer section"
     h = r["head"].values[0]
     assert np.all(h < GROUND), "head reached the ground: the case would have a seepage face"
-    assert float(r.budget_in.sel(term="recharge")) == pytest.approx(R * L, rel=1e-12)  # all of it enters
+    assert float(r.inflow.sel(term="recharge")) == pytest.approx(R * L, rel=1e-12)  # all of it enters
     return float(np.max(np.abs(h - parabola(r.x.values, h0, hl))))
 
 
@@ -60,7 +60,7 @@ def test_parabola_second_order(h0, hl):
 def test_equal_heads_budget_splits_recharge_evenly():
     # symmetry of the parabola: R L / 2 leaves through each side (Freeze & Cherry 1979, ch. 5)
     r = bedflux.simulate(section(2.0, 5.0, 5.0))
-    out_left = float(r.budget_out.sel(term="left"))
-    out_right = float(r.budget_out.sel(term="right"))
+    out_left = float(r.outflow.sel(term="left"))
+    out_right = float(r.outflow.sel(term="right"))
     assert out_left == pytest.approx(R * L / 2.0, rel=1e-9)
     assert out_right == pytest.approx(R * L / 2.0, rel=1e-9)

@@ -9,7 +9,7 @@ import numpy as np
 import pandas as pd
 from numpy.typing import ArrayLike
 
-from .flags import Flags
+from bedflux.field.flags import Flags
 
 
 def darcy_flux(conductivity: ArrayLike, gradient: ArrayLike) -> np.ndarray:

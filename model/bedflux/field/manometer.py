@@ -12,16 +12,21 @@ import numpy as np
 import pandas as pd
 from numpy.typing import ArrayLike
 
-from ..errors import InputError
-from .flags import Flags
-from .kinds import WATER_DENSITY
-from .sheets import Rejected, Sheet, reject_duplicates, reject_where
-from .sites import Sites
-from .stats import summarise
+from bedflux.errors import InputError
+from bedflux.field.flags import Flags
+from bedflux.field.sheet_specs import WATER_DENSITY
+from bedflux.field.sheets import Rejected, Sheet, reject_duplicates, reject_where
+from bedflux.field.sites import Sites
+from bedflux.field.stats import repeat_statistics
 
 #: Standard uncertainty of a reading with resolution d: d / sqrt(12) (uniform over +/- d/2;
 #: JCGM 100:2008, the GUM, F.2.2.1).
 _UNIFORM = 1.0 / np.sqrt(12.0)
+#: Standard uncertainty of the depth of a driven mini-piezometer's opening below the bed: about
+#: a centimetre, the unevenness of a sand bed around the pipe (common practice). It is the
+#: between-piezometer term: two piezometers driven to the same nominal depth sample heads a
+#: centimetre or so apart along the gradient.
+DEPTH_SIGMA = 0.01
 
 
 def amplification(fluid_density: ArrayLike, water_density: ArrayLike = WATER_DENSITY) -> np.ndarray:
@@ -115,7 +120,7 @@ def reduce_manometer(sheet: Sheet, sites: Sites, rejected: Rejected, flags: Flag
     n = sheet.numbers
     heavy = ~(n["fluid_density"] < n["water_density"])
     sheet = reject_where(sheet, heavy, "fluid_density",
-                         "the fluid in an inverted U-tube must be lighter than the water", rejected)
+                         "the fluid in an inverted U-tube must be lighter than the water", rejected, "below_limit")
     n = sheet.numbers
     dh = manometer_head_difference(n["reading"], n["fluid_density"], n["water_density"])
     vhg = vertical_gradient(dh, n["depth"])
@@ -136,19 +141,22 @@ def reduce_manometer(sheet: Sheet, sites: Sites, rejected: Rejected, flags: Flag
     )
     rows = []
     for (site_id, depth), g in readings.groupby(["site", "depth [m]"], sort=True):
-        s_v = summarise(g["vhg [1]"].to_numpy())
-        s_h = summarise(g["head [m]"].to_numpy())
+        s_v = repeat_statistics(g["vhg [1]"].to_numpy())
+        s_h = repeat_statistics(g["head [m]"].to_numpy())
         res_v = float(g["vhg_sigma [1]"].max())
         res_h = float(g["head_sigma [m]"].max())
-        sig_v = np.hypot(s_v.stderr, res_v) if s_v.n >= 2 else res_v
-        sig_h = np.hypot(s_h.stderr, res_h) if s_h.n >= 2 else res_h
+        within_v = np.hypot(s_v.stderr, res_v) if s_v.n >= 2 else res_v
+        within_h = np.hypot(s_h.stderr, res_h) if s_h.n >= 2 else res_h
+        between_h = abs(s_v.mean) * DEPTH_SIGMA
+        sig_v = np.hypot(within_v, between_h / depth)
+        sig_h = np.hypot(within_h, between_h)
         dh_mean = float(g["head_difference [m]"].mean())
         item = f"{site_id} at {depth:g} m"
         flag = []
-        if abs(s_v.mean) < 2 * sig_v:
+        if abs(s_v.mean) < 2 * within_v:
             flag.append("within_resolution")
             flags.add("piezometers", item, "within_resolution",
-                      f"|vhg| {abs(s_v.mean):.3g} < 2 sigma ({2 * sig_v:.3g}); the sign is not resolved")
+                      f"|vhg| {abs(s_v.mean):.3g} < 2 sigma ({2 * within_v:.3g}); the sign is not resolved")
         vh = velocity_head.get(site_id)
         if vh is not None and abs(dh_mean) < vh:
             flag.append("velocity_head")
@@ -168,8 +176,12 @@ def reduce_manometer(sheet: Sheet, sites: Sites, rejected: Rejected, flags: Flag
                 "head_difference [m]": dh_mean,
                 "vhg [1]": s_v.mean,
                 "vhg_std [1]": s_v.std,
+                "vhg_within_sigma [1]": within_v,
+                "vhg_between_sigma [1]": between_h / depth,
                 "vhg_sigma [1]": sig_v,
                 "head [m]": s_h.mean,
+                "head_within_sigma [m]": within_h,
+                "head_between_sigma [m]": between_h,
                 "head_sigma [m]": sig_h,
                 "flags": " ".join(flag),
             }

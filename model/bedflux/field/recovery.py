@@ -4,11 +4,42 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from ..errors import InputError
-from .flags import Flags
-from .sheets import Rejected, Sheet, reject_duplicates, reject_where
-from .slug import (bouwer_rice_k_from_lag, falling_head_fit, fit_recovery, hvorslev_k_from_lag,
-                   permeameter_kv_from_lag)
+from bedflux.errors import InputError
+from bedflux.field.flags import Flags
+from bedflux.field.sheets import Rejected, Sheet, reject_duplicates, reject_where
+from bedflux.field.slug import (HALF_SLOPE_SPREAD, RecoveryFit, bouwer_rice_k_from_lag, falling_head_fit, fit_recovery,
+                                hvorslev_k_from_lag, permeameter_kv_from_lag)
+from bedflux.field.stats import BetweenTerm
+
+#: Standard deviation of ln K between test locations used when a campaign has too few tests
+#: of a kind to estimate its own: sqrt(1.88), the smallest run variance of ln Kv that Genereux
+#: et al. (2008) report for permeameter tests in a sandy streambed.
+DEFAULT_BETWEEN_LN_K = float(np.sqrt(1.88))
+#: Tests (of one kind, unflagged) needed to estimate the between-test spread of ln K.
+MIN_TESTS = 5
+
+
+def add_ln_k_sigma(tests: pd.DataFrame, k_column: str) -> BetweenTerm:
+    """Give each test a standard deviation of ln K: fit error and between-test term in quadrature.
+
+    The fit error is the slope's relative standard error (K is proportional to the slope). The
+    between-test term is the spread of ln K over the campaign's unflagged tests of this kind,
+    less the mean fit variance (method of moments), when there are at least
+    :data:`MIN_TESTS`; otherwise :data:`DEFAULT_BETWEEN_LN_K`. Adds the columns
+    ``ln_k_fit_sigma [1]``, ``ln_k_between_sigma [1]`` and ``ln_k_sigma [1]``.
+    """
+    fit = (tests["slope_se [1/s]"].astype(float) * tests["time_lag [s]"].astype(float)).fillna(0.0)
+    use = (tests["flags"] == "") & (tests[k_column].astype(float) > 0)
+    n = int(use.sum())
+    if n >= MIN_TESTS:
+        spread = float(np.var(np.log(tests.loc[use, k_column].astype(float)), ddof=1) - np.mean(fit[use] ** 2))
+        between = BetweenTerm(float(np.sqrt(max(spread, 0.0))), "estimated", n - 1)
+    else:
+        between = BetweenTerm(DEFAULT_BETWEEN_LN_K, "default", max(n - 1, 0))
+    tests["ln_k_fit_sigma [1]"] = fit
+    tests["ln_k_between_sigma [1]"] = between.value
+    tests["ln_k_sigma [1]"] = np.hypot(fit, between.value)
+    return between
 
 
 def _test_constants(sheet: Sheet, names: tuple[str, ...], optional: tuple[str, ...],
@@ -41,12 +72,28 @@ def _test_constants(sheet: Sheet, names: tuple[str, ...], optional: tuple[str, .
         else:
             out[test] = values
     row_reasons = [reasons[t] for t in tests[bad]]
-    return reject_where(sheet, bad, "test", row_reasons, rejected), out
+    return reject_where(sheet, bad, "test", row_reasons, rejected, "test"), out
 
 
 def _reject_test(sheet: Sheet, test: str, reason: str, rejected: Rejected) -> None:
     for line in sheet.line[sheet.texts["test"] == test]:
-        rejected.add(sheet.source, line, "test", reason)
+        rejected.add(sheet.source, line, "test", reason, "test", test)
+
+
+#: The columns every test's row starts with (:func:`_fit_columns`).
+_FIT_COLUMNS = ["test", "site", "n", "time_lag [s]", "r2 [1]", "slope_se [1/s]"]
+
+
+def _fit_columns(sheet: Sheet, test: str, fit: RecoveryFit) -> dict:
+    """Test, site and the straight-line fit of one test, as the first columns of its row."""
+    site = sheet.texts["site"][sheet.texts["test"] == test][0]
+    return dict(zip(_FIT_COLUMNS, [test, site, fit.n, fit.time_lag, fit.r2, fit.slope_se]))
+
+
+def _not_log_linear(what: str, fit: RecoveryFit) -> str:
+    """Why a test's recovery is flagged as not log-linear."""
+    return (f"{what} is not log-linear (R^2 = {fit.r2:.3f}, or early and late slopes differ "
+            f"by more than {HALF_SLOPE_SPREAD * 100:.0f} %)")
 
 
 def reduce_slug(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.DataFrame:
@@ -78,21 +125,10 @@ def reduce_slug(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.DataFrame:
                 test_flags.append("bouwer_rice_refused")
         if not fit.log_linear:
             test_flags.append("not_log_linear")
-            flags.add("slug_tests", test, "not_log_linear",
-                      f"recovery is not log-linear (R^2 = {fit.r2:.3f}, or early and late slopes differ "
-                      "by more than 25 %)")
-        rows.append({
-            "test": test,
-            "site": sheet.texts["site"][rows_of][0],
-            "n": fit.n,
-            "time_lag [s]": fit.time_lag,
-            "r2 [1]": fit.r2,
-            "k_hvorslev [m/s]": k_h,
-            "k_bouwer_rice [m/s]": k_br,
-            "flags": ";".join(test_flags),
-        })
-    return pd.DataFrame(rows, columns=["test", "site", "n", "time_lag [s]", "r2 [1]", "k_hvorslev [m/s]",
-                                       "k_bouwer_rice [m/s]", "flags"])
+            flags.add("slug_tests", test, "not_log_linear", _not_log_linear("recovery", fit))
+        rows.append({**_fit_columns(sheet, test, fit), "k_hvorslev [m/s]": k_h, "k_bouwer_rice [m/s]": k_br,
+                     "flags": ";".join(test_flags)})
+    return pd.DataFrame(rows, columns=_FIT_COLUMNS + ["k_hvorslev [m/s]", "k_bouwer_rice [m/s]", "flags"])
 
 
 def reduce_permeameter(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.DataFrame:
@@ -108,20 +144,10 @@ def reduce_permeameter(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.Dat
         except InputError as err:
             _reject_test(sheet, test, err.message, rejected)
             continue
-        lag, r2, ok = fit.time_lag, fit.r2, fit.log_linear
         m = geo["anisotropy"] if np.isfinite(geo["anisotropy"]) else 1.0
-        kv = permeameter_kv_from_lag(lag, geo["diameter"], geo["sediment_length"], m)
-        if not ok:
-            flags.add("permeameter_tests", test, "not_log_linear",
-                      f"head decline is not log-linear (R^2 = {r2:.3f}, or early and late slopes differ "
-                      "by more than 25 %)")
-        rows.append({
-            "test": test,
-            "site": sheet.texts["site"][rows_of][0],
-            "n": fit.n,
-            "time_lag [s]": lag,
-            "r2 [1]": r2,
-            "kv [m/s]": kv,
-            "flags": "" if ok else "not_log_linear",
-        })
-    return pd.DataFrame(rows, columns=["test", "site", "n", "time_lag [s]", "r2 [1]", "kv [m/s]", "flags"])
+        kv = permeameter_kv_from_lag(fit.time_lag, geo["diameter"], geo["sediment_length"], m)
+        if not fit.log_linear:
+            flags.add("permeameter_tests", test, "not_log_linear", _not_log_linear("head decline", fit))
+        rows.append({**_fit_columns(sheet, test, fit), "kv [m/s]": kv,
+                     "flags": "" if fit.log_linear else "not_log_linear"})
+    return pd.DataFrame(rows, columns=_FIT_COLUMNS + ["kv [m/s]", "flags"])

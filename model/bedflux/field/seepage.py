@@ -11,12 +11,12 @@ import numpy as np
 import pandas as pd
 from numpy.typing import ArrayLike
 
-from ..errors import InputError
-from .flags import Flags
-from .kinds import WATER_DENSITY
-from .sheets import Rejected, Sheet, reject_duplicates, reject_where
-from .sites import Sites
-from .stats import robust_outliers, summarise
+from bedflux.errors import InputError
+from bedflux.field.flags import Flags
+from bedflux.field.sheet_specs import WATER_DENSITY
+from bedflux.field.sheets import Rejected, Sheet, reject_duplicates, reject_where
+from bedflux.field.sites import Sites
+from bedflux.field.stats import BetweenTerm, robust_outliers, repeat_statistics
 
 #: Net bag change below which a reading sits near the detection floor (Cable et al. 1997), m^3.
 DETECTION_VOLUME = 150e-6
@@ -27,6 +27,15 @@ CV_LIMIT = 0.30
 #: Relative error given to a meter read once: replicate meters agree within about 20 %
 #: relative RMS error (Belanger & Montgomery 1992).
 SINGLE_READING_RELATIVE_ERROR = 0.20
+#: Between-meter scatter (relative) used when a campaign cannot estimate its own: about 30 %
+#: (common practice; the figure of CV_LIMIT).
+DEFAULT_BETWEEN_METER = 0.30
+#: Degrees of freedom (meters minus transects) needed to estimate the between-meter scatter
+#: from the campaign itself.
+MIN_BETWEEN_DOF = 4
+#: Meter flags that keep a meter out of the between-meter estimate and, by default, out of the
+#: observations: its value does not stand for the bed flux the section model can represent.
+EXCLUDING_FLAGS = ("robust_outlier", "repeat_scatter")
 
 
 def _positive(name: str, value: np.ndarray) -> None:
@@ -85,13 +94,55 @@ def detection_flux(duration: ArrayLike, area: ArrayLike, efficiency: ArrayLike =
     return seepage_flux(DETECTION_VOLUME, duration, area, efficiency)
 
 
+def between_meter_scatter(means: ArrayLike, within_sigma: ArrayLike, transect: ArrayLike,
+                          minimum_dof: int = MIN_BETWEEN_DOF,
+                          default: float = DEFAULT_BETWEEN_METER) -> BetweenTerm:
+    """Estimate the relative between-meter scatter from the meters of each transect.
+
+    Meters of one transect stand at one distance along the reach, where a section model has one
+    bed flux; their means scatter by their own (within-meter) error and by the between-meter
+    term. The method-of-moments estimate of a one-way random-effects model (as DerSimonian &
+    Laird 1986) gives tau^2 = sum((q - qbar)/qbar)^2 / (n - T) - mean((s/qbar)^2), clipped at 0,
+    summed over the transects with at least two meters of one sign.
+
+    Parameters
+    ----------
+    means, within_sigma
+        Meter means and their within-meter standard errors, m/s.
+    transect
+        Transect label of each meter ("" for none; such meters are not used).
+    minimum_dof, default
+        With fewer degrees of freedom than ``minimum_dof`` the ``default`` is returned.
+    """
+    q = np.asarray(means, dtype=float)
+    s = np.asarray(within_sigma, dtype=float)
+    label = np.asarray(transect).astype(str)
+    squares, rel_var, dof = 0.0, [], 0
+    for t in np.unique(label[label != ""]):
+        g = (label == t) & np.isfinite(q) & np.isfinite(s)
+        if g.sum() < 2:
+            continue
+        qbar = q[g].mean()
+        if not (np.all(q[g] > 0) or np.all(q[g] < 0)):
+            continue  # a transect of mixed sign has no relative scatter
+        squares += float(np.sum(((q[g] - qbar) / qbar) ** 2))
+        rel_var += list((s[g] / qbar) ** 2)
+        dof += int(g.sum()) - 1
+    if dof < minimum_dof:
+        return BetweenTerm(default, "default", dof)
+    tau2 = max(squares / dof - float(np.mean(rel_var)), 0.0)
+    return BetweenTerm(float(np.sqrt(tau2)), "estimated", dof)
+
+
 @dataclass
 class SeepageResult:
-    """Reduced seepage sheet: per reading, per meter and per transect tables (SI)."""
+    """Reduced seepage sheet: per reading, per meter and per transect tables (SI), and the
+    between-meter term used in every meter's sigma."""
 
     readings: pd.DataFrame
     meters: pd.DataFrame
     transects: pd.DataFrame
+    between: BetweenTerm
 
 
 def _volumes(sheet: Sheet, rejected: Rejected) -> tuple[Sheet, np.ndarray, np.ndarray]:
@@ -106,7 +157,7 @@ def _volumes(sheet: Sheet, rejected: Rejected) -> tuple[Sheet, np.ndarray, np.nd
         )
     for c in pair:
         empty = ~np.isfinite(sheet.numbers[c])
-        sheet = reject_where(sheet, empty, c, f"empty cell; '{c}' is required", rejected)
+        sheet = reject_where(sheet, empty, c, f"empty cell; '{c}' is required", rejected, "empty")
     start, end = (sheet.numbers[c] for c in pair)
     if mass:
         rho = sheet.numbers["water_density"]
@@ -131,12 +182,12 @@ def reduce_seepage(sheet: Sheet, sites: Sites, rejected: Rejected, flags: Flags)
     pan = "pan_diameter" if sheet.has("pan_diameter") else "pan_area"
     empty = ~np.isfinite(sheet.numbers[pan])
     keep = ~empty
-    sheet = reject_where(sheet, empty, pan, f"empty cell; '{pan}' is required", rejected)
+    sheet = reject_where(sheet, empty, pan, f"empty cell; '{pan}' is required", rejected, "empty")
     v_start, v_end = v_start[keep], v_end[keep]
     over = np.asarray(sheet.numbers["efficiency"], dtype=float) > 1.0
     if over.any():
         sheet = reject_where(sheet, over, "efficiency", "efficiency is the fraction of the true flux the meter "
-                             "captures (0 to 1): write 0.77, not 77", rejected)
+                             "captures (0 to 1): write 0.77, not 77", rejected, "percent")
         v_start, v_end = v_start[~over], v_end[~over]
     n = sheet.numbers
     area = pan_area(n[pan]) if pan == "pan_diameter" else n[pan]
@@ -172,18 +223,45 @@ def reduce_seepage(sheet: Sheet, sites: Sites, rejected: Rejected, flags: Flags)
     readings["flags"] = np.where(low, "near_detection_floor", "")
     readings.loc[bad_fill, "flags"] = (readings.loc[bad_fill, "flags"] + " bag_fill").str.strip()
     meters = _meters(readings, sites, flags)
-    return SeepageResult(readings, meters, _transects(meters, flags))
+    transects = _transects(meters, flags)
+    return SeepageResult(readings, meters, transects, _add_between(meters))
+
+
+def flagged_meters(meters: pd.DataFrame) -> np.ndarray:
+    """Which meters carry a flag of :data:`EXCLUDING_FLAGS`."""
+    if meters.empty:
+        return np.zeros(0, dtype=bool)
+    return meters["flags"].str.split().map(lambda f: any(x in EXCLUDING_FLAGS for x in f)).to_numpy(bool)
+
+
+def _add_between(meters: pd.DataFrame) -> BetweenTerm:
+    """Estimate the between-meter term from the unflagged meters and fold it into every sigma.
+
+    The term is relative, with a floor at the meter's detection flux (Cable et al. 1997): a
+    meter cannot tell fluxes apart below it.
+    """
+    if meters.empty:
+        return BetweenTerm(DEFAULT_BETWEEN_METER, "default", 0)
+    clean = ~flagged_meters(meters)
+    between = between_meter_scatter(meters.loc[clean, "mean [m/s]"], meters.loc[clean, "within_sigma [m/s]"],
+                                    meters.loc[clean, "transect"])
+    scale = np.maximum(meters["mean [m/s]"].abs(), meters["detection_flux [m/s]"])
+    meters["between_sigma [m/s]"] = between.value * scale
+    meters["sigma [m/s]"] = np.hypot(meters["within_sigma [m/s]"], meters["between_sigma [m/s]"])
+    return between
 
 
 def _meters(readings: pd.DataFrame, sites: Sites, flags: Flags) -> pd.DataFrame:
     rows = []
     for site_id, g in readings.groupby("site", sort=True):
-        s = summarise(g["flux [m/s]"].to_numpy())
+        s = repeat_statistics(g["flux [m/s]"].to_numpy())
         res2 = float(np.mean(g["resolution_sigma [m/s]"].to_numpy() ** 2))
         if s.n >= 2:
-            sigma = np.sqrt(s.stderr**2 + res2 / s.n)
+            within = np.sqrt(s.stderr**2 + res2 / s.n)
         else:
-            sigma = np.sqrt((SINGLE_READING_RELATIVE_ERROR * s.mean) ** 2 + res2)
+            within = np.sqrt((SINGLE_READING_RELATIVE_ERROR * s.mean) ** 2 + res2)
+        floor = float(np.mean(detection_flux(g["duration [s]"].to_numpy(), g["pan_area [m^2]"].to_numpy(),
+                                             g["efficiency [1]"].to_numpy())))
         mid = float(np.mean(g["time [s]"] + g["duration [s]"] / 2))
         flag = ""
         if s.n >= 2 and not (s.cv <= CV_LIMIT):
@@ -200,14 +278,11 @@ def _meters(readings: pd.DataFrame, sites: Sites, flags: Flags) -> pd.DataFrame:
                 "transect": sites.transect[i],
                 "station": sites.station[i],
                 "time [s]": mid,
-                "n": s.n,
-                "mean [m/s]": s.mean,
-                "std [m/s]": s.std,
-                "cv [1]": s.cv,
-                "stderr [m/s]": s.stderr,
-                "ci95_low [m/s]": s.low,
-                "ci95_high [m/s]": s.high,
-                "sigma [m/s]": sigma,
+                **s.columns("m/s"),
+                "within_sigma [m/s]": within,
+                "detection_flux [m/s]": floor,
+                "between_sigma [m/s]": np.nan,
+                "sigma [m/s]": within,
                 "flags": flag,
             }
         )
@@ -227,19 +302,13 @@ def _transects(meters: pd.DataFrame, flags: Flags) -> pd.DataFrame:
         for site_id in g["site"].to_numpy()[out]:
             flags.add("seepage_meters", site_id, "robust_outlier",
                       f"|modified z| > 3.5 among the meters of transect {label} (Iglewicz & Hoaglin 1993)")
-        s = summarise(g["mean [m/s]"].to_numpy()[~out])
+        s = repeat_statistics(g["mean [m/s]"].to_numpy()[~out])
         rows.append(
             {
                 "transect": label,
                 "meters": len(g),
                 "outliers": int(out.sum()),
-                "n": s.n,
-                "mean [m/s]": s.mean,
-                "std [m/s]": s.std,
-                "cv [1]": s.cv,
-                "stderr [m/s]": s.stderr,
-                "ci95_low [m/s]": s.low,
-                "ci95_high [m/s]": s.high,
+                **s.columns("m/s"),
                 "x [m]": float(g["x [m]"].mean()),
             }
         )

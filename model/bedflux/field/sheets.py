@@ -2,8 +2,10 @@
 
 A header cell is ``name [unit]`` for a number column (``volume_start [mL]``) and a bare
 ``name`` for a text column (``site``). A wrong or missing unit is an :class:`InputError`
-naming the file and the column: a unit slip would spoil every number of that column. A bad
-cell only spoils its row: the row is kept out of the result and listed in :class:`Rejected`.
+naming the file and the column: a unit slip would spoil every number of that column. A value
+outside its column's plausible range is an :class:`InputError` too (naming file, line, column
+and the range): it is a slip of unit or column, not a reading. A bad cell only spoils its row:
+the row is kept out of the result and listed in :class:`Rejected` with its cause.
 """
 from __future__ import annotations
 
@@ -14,10 +16,11 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import InputError
-from ..units import DIMENSIONS, unit_factor
+from bedflux.errors import InputError
+from bedflux.scenario.units import DIMENSIONS, split_header, unit_factor
 
-_HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*(?:\[(.*)\])?\s*$")
+#: A column name of a sheet.
+_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
 
 
 @dataclass(frozen=True)
@@ -29,7 +32,7 @@ class Column:
     name
         The header name without its unit.
     dimension
-        A dimension word of :data:`bedflux.units.DIMENSIONS`, or ``None`` for a text column.
+        A dimension word of :data:`bedflux.scenario.units.DIMENSIONS`, or ``None`` for a text column.
     required
         Whether the header must be present.
     default
@@ -39,6 +42,9 @@ class Column:
         Smallest allowed SI value (a cell below it rejects the row).
     meaning
         One line for messages.
+    plausible
+        The SI range a reading of this quantity can take at all; a value outside it stops the
+        run with an :class:`InputError` naming file, line, column and range.
     """
 
     name: str
@@ -48,6 +54,7 @@ class Column:
     low: float | None = None
     low_inclusive: bool = True
     meaning: str = ""
+    plausible: tuple[float, float] | None = None
 
 
 @dataclass(frozen=True)
@@ -61,13 +68,22 @@ class SheetSpec:
 
 @dataclass
 class Rejected:
-    """Rows kept out of the result, each with file, line, column and reason."""
+    """Rows kept out of the result, each with file, line, column and reason.
+
+    ``causes`` runs parallel to ``rows``: a short cause word (``not_a_number``, ``empty``,
+    ``below_limit``, ``cells``, ``separator``, ``unknown_site``, ``duplicate``, ``percent``,
+    ``test`` or ``other``) and the offending cell, from which a sheet that loses most of its
+    rows is given a systematic cause (:mod:`bedflux.field.diagnosis`).
+    """
 
     rows: list[tuple[str, int, str, str]] = field(default_factory=list)
+    causes: list[tuple[str, str]] = field(default_factory=list)
 
-    def add(self, source: str, line: int, column: str, reason: str) -> None:
+    def add(self, source: str, line: int, column: str, reason: str, cause: str = "other",
+            cell: str = "") -> None:
         """Record one rejected row (``line`` counts the header as line 1)."""
         self.rows.append((source, int(line), column, reason))
+        self.causes.append((cause, str(cell)))
 
     def count(self, source: str) -> int:
         """How many rows of ``source`` were rejected."""
@@ -111,12 +127,12 @@ def _parse_header(cells: list[str], spec: SheetSpec, source: str) -> list[tuple[
     out: list[tuple[Column, float]] = []
     seen: set[str] = set()
     for number, cell in enumerate(cells, start=1):
-        m = _HEADER.match(cell)
-        if not m:
+        parsed = split_header(cell)
+        if parsed is None or not _NAME.fullmatch(parsed[0]):
             raise InputError(
                 f"header cell '{cell}' is not 'name' or 'name [unit]'", source, f"column {number}"
             )
-        name, unit = m.group(1), m.group(2)
+        name, unit = parsed
         if name not in known:
             raise InputError(
                 f"unknown column '{name}'; a {spec.kind} sheet allows: {', '.join(known)}",
@@ -161,6 +177,78 @@ def _parse_header(cells: list[str], spec: SheetSpec, source: str) -> list[tuple[
     return out
 
 
+#: Separators a spreadsheet may have used instead of the comma.
+_OTHER_SEPARATORS = {";": "';'", "\t": "tabs", "|": "'|'"}
+
+
+def _foreign_separator(cells: list[str]) -> str | None:
+    """The separator word when a line came out as one cell holding another separator."""
+    if len(cells) != 1:
+        return None
+    for sep, word in _OTHER_SEPARATORS.items():
+        if sep in cells[0]:
+            return word
+    return None
+
+
+def _implausible(source: str, line: int, col: Column, cell: str, factor: float, unit: str,
+                 written: np.ndarray) -> InputError:
+    """The error for a value outside the column's plausible range, with a unit that would fit."""
+    lo, hi = col.plausible
+    shown = unit or DIMENSIONS[col.dimension][1]
+    si = DIMENSIONS[col.dimension][1]
+    rng = f"{lo / factor:.6g} to {hi / factor:.6g} {shown}".rstrip()
+    if shown != si:
+        rng += f" ({lo:.6g} to {hi:.6g} {si})"
+    message = (f"{cell} {shown} is outside the plausible range {rng} for {col.meaning or col.name}; "
+               "a value this far out is a slip (a wrong unit or a shifted column), not a reading")
+    fits = _units_that_fit(written, col.dimension, col.plausible, unit)
+    if fits:
+        message += (f". Every value of the column would be plausible in {' or '.join(f'[{u}]' for u in fits)}: "
+                    f"is the header '{col.name} [{unit}]' right?")
+    return InputError(message, source, f"line {line}, column '{col.name}'")
+
+
+#: Units tried when a column's values are implausible in the header's unit.
+_COMMON_UNITS = {
+    "length": ("mm", "cm", "m", "km", "in", "ft"),
+    "time": ("s", "min", "h", "day"),
+    "volume": ("mL", "L", "m^3"),
+    "mass": ("g", "kg"),
+    "density": ("kg/m^3", "g/cm^3"),
+    "area": ("cm^2", "m^2"),
+}
+
+
+def _units_that_fit(written: np.ndarray, dimension: str, plausible: tuple[float, float],
+                    header_unit: str) -> list[str]:
+    """The common units of ``dimension`` in which every written value would be plausible.
+
+    Parameters
+    ----------
+    written
+        The values as written in the sheet (before any unit conversion).
+    dimension
+        The column's dimension word.
+    plausible
+        The SI range.
+    header_unit
+        The unit in the header (never suggested).
+    """
+    v = np.asarray(written, dtype=float)
+    v = v[np.isfinite(v)]
+    if v.size == 0:
+        return []
+    lo, hi = plausible
+    current = unit_factor(header_unit, dimension) if header_unit else 1.0
+    fits = []
+    for unit in _COMMON_UNITS.get(dimension, ()):
+        f = unit_factor(unit, dimension)
+        if not np.isclose(f, current, rtol=1e-12) and np.all((v * f >= lo) & (v * f <= hi)):
+            fits.append(unit)
+    return fits
+
+
 def read_sheet(path: str | Path, spec: SheetSpec, rejected: Rejected) -> Sheet:
     """Read one sheet into SI columns; bad rows go to ``rejected``.
 
@@ -183,8 +271,9 @@ def read_sheet(path: str | Path, spec: SheetSpec, rejected: Rejected) -> Sheet:
     Raises
     ------
     InputError
-        For an unreadable file, a bad header (unknown column, missing or wrong unit) or a sheet
-        with no data rows.
+        For an unreadable file, a header separated by something other than commas, a bad header
+        (unknown column, missing or wrong unit), a sheet with no data rows, or a value outside
+        its column's plausible range.
     """
     path = Path(path)
     source = str(path)
@@ -197,6 +286,11 @@ def read_sheet(path: str | Path, spec: SheetSpec, rejected: Rejected) -> Sheet:
     if not numbered:
         raise InputError("the sheet is empty; it needs a header line and data rows", source)
     header_line, header = numbered[0]
+    sep = _foreign_separator(header)
+    if sep:
+        raise InputError(f"the header line is separated by {sep}, not by commas; save the sheet as CSV "
+                         "with commas between the cells (and decimal points in numbers)", source,
+                         f"line {header_line}")
     columns = _parse_header([c.strip() for c in header], spec, source)
     body = numbered[1:]
     if not body:
@@ -207,25 +301,35 @@ def read_sheet(path: str | Path, spec: SheetSpec, rejected: Rejected) -> Sheet:
     line = np.array([i for i, _ in body], dtype=int)
     ok = np.ones(n, dtype=bool)
     for k, (i, cells) in enumerate(body):
+        sep = _foreign_separator(cells) if ncol > 1 else None
+        if sep:
+            rejected.add(source, i, "", f"the row is one cell separated by {sep}, but the header by commas",
+                         "separator", cells[0])
+            ok[k] = False
+            continue
         if len(cells) > ncol and any(c.strip() for c in cells[ncol:]):
-            rejected.add(source, i, "", f"{len(cells)} cells but the header has {ncol} columns")
+            rejected.add(source, i, "", f"{len(cells)} cells but the header has {ncol} columns", "cells",
+                         ",".join(cells))
             ok[k] = False
             continue
         cells = [c.strip() for c in cells[:ncol]] + [""] * max(0, ncol - len(cells))
         raw[k, :] = cells
     numbers: dict[str, np.ndarray] = {}
     texts: dict[str, np.ndarray] = {}
+    written: dict[str, np.ndarray] = {}
     for j, (col, factor) in enumerate(columns):
         cells = raw[:, j]
         empty = cells == ""
         if col.dimension is None:
             missing = empty & ok & col.required
             for k in np.flatnonzero(missing):
-                rejected.add(source, line[k], col.name, f"empty cell; '{col.name}' is required ({col.meaning})")
+                rejected.add(source, line[k], col.name, f"empty cell; '{col.name}' is required ({col.meaning})",
+                             "empty")
             ok &= ~missing
             texts[col.name] = cells.astype(str)
             continue
         values = np.full(n, np.nan)
+        as_written = np.full(n, np.nan)
         for k in np.flatnonzero(~empty & ok):
             try:
                 v = float(cells[k])
@@ -235,13 +339,16 @@ def read_sheet(path: str | Path, spec: SheetSpec, rejected: Rejected) -> Sheet:
                 rejected.add(
                     source, line[k], col.name,
                     f"'{cells[k]}' is not a number; '{col.name}' must be {DIMENSIONS[col.dimension][2]}",
+                    "not_a_number", cells[k],
                 )
                 ok[k] = False
                 continue
+            as_written[k] = v
             values[k] = v * factor
         if col.required:
             for k in np.flatnonzero(empty & ok):
-                rejected.add(source, line[k], col.name, f"empty cell; '{col.name}' is required ({col.meaning})")
+                rejected.add(source, line[k], col.name, f"empty cell; '{col.name}' is required ({col.meaning})",
+                             "empty")
             ok &= ~empty
         elif col.default is not None:
             values[empty] = col.default
@@ -253,9 +360,22 @@ def read_sheet(path: str | Path, spec: SheetSpec, rejected: Rejected) -> Sheet:
                     source, line[k], col.name,
                     f"'{cells[k]}' is not allowed; '{col.name}' must be {rel} {col.low:g} "
                     f"{DIMENSIONS[col.dimension][1] or ''}".rstrip(),
+                    "below_limit", cells[k],
                 )
             ok &= ~below
         numbers[col.name] = values
+        written[col.name] = as_written
+    for j, (col, factor) in enumerate(columns):
+        if col.plausible is None or col.name not in numbers:
+            continue
+        lo, hi = col.plausible
+        v = numbers[col.name]
+        out = ok & np.isfinite(v) & ((v < lo) | (v > hi))
+        if out.any():
+            k = int(np.flatnonzero(out)[0])
+            unit = split_header(header[j])[1] or ""
+            raise _implausible(source, int(line[k]), col, raw[k, j], factor, unit,
+                               written[col.name][ok])
     for col in spec.columns:
         if col.name in numbers or col.name in texts:
             continue
@@ -267,13 +387,20 @@ def read_sheet(path: str | Path, spec: SheetSpec, rejected: Rejected) -> Sheet:
     return Sheet(source, spec.kind, numbers, texts, line, n, present).take(ok)
 
 
-def reject_where(sheet: Sheet, bad: np.ndarray, column: str, reasons: list[str] | str, rejected: Rejected) -> Sheet:
-    """Move the rows where ``bad`` is true to ``rejected`` with their reasons; return the rest."""
+def reject_where(sheet: Sheet, bad: np.ndarray, column: str, reasons: list[str] | str, rejected: Rejected,
+                 cause: str = "other") -> Sheet:
+    """Move the rows where ``bad`` is true to ``rejected`` with their reasons; return the rest.
+
+    The offending cell recorded with each row is the row's value in ``column`` when the sheet
+    has such a column.
+    """
     bad = np.asarray(bad, dtype=bool)
     idx = np.flatnonzero(bad)
+    values = sheet.texts.get(column, sheet.numbers.get(column))
     for j, k in enumerate(idx):
         reason = reasons if isinstance(reasons, str) else reasons[j]
-        rejected.add(sheet.source, sheet.line[k], column, reason)
+        cell = "" if values is None else str(values[k])
+        rejected.add(sheet.source, sheet.line[k], column, reason, cause, cell)
     return sheet.take(~bad)
 
 
@@ -282,7 +409,7 @@ def reject_unknown_sites(sheet: Sheet, site_ids: set[str], rejected: Rejected) -
     sites = sheet.texts["site"]
     bad = np.array([s not in site_ids for s in sites], dtype=bool)
     reasons = [f"site '{s}' is not in the sites sheet" for s in sites[bad]]
-    return reject_where(sheet, bad, "site", reasons, rejected)
+    return reject_where(sheet, bad, "site", reasons, rejected, "unknown_site")
 
 
 def reject_duplicates(sheet: Sheet, keys: tuple[str, ...], rejected: Rejected) -> Sheet:
@@ -299,4 +426,4 @@ def reject_duplicates(sheet: Sheet, keys: tuple[str, ...], rejected: Rejected) -
             reasons.append(f"duplicates line {first[key]} (same {', '.join(keys)})")
         else:
             first[key] = int(sheet.line[k])
-    return reject_where(sheet, bad, ",".join(keys), reasons, rejected)
+    return reject_where(sheet, bad, ",".join(keys), reasons, rejected, "duplicate")

@@ -6,9 +6,9 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import InputError
-from .kinds import SITES
-from .sheets import Rejected, read_sheet
+from bedflux.errors import InputError
+from bedflux.field.sheet_specs import SITES
+from bedflux.field.sheets import Rejected, read_sheet
 
 
 @dataclass(frozen=True)

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike
 
-from ..errors import InputError
+from bedflux.errors import InputError
 
 #: Points whose normalised head is below this are left out of the fit (near the static level
 #: the reading error dominates the displacement).
@@ -44,6 +44,10 @@ class RecoveryFit:
         Points used.
     log_linear
         Whether the recovery passes the R^2 and half-slope checks.
+    slope_se
+        Standard error of the slope (least squares, n - 2 degrees of freedom); NaN for fewer
+        than three points. K is proportional to the slope, so slope_se / |slope| is the
+        relative standard error of K from the fit.
     """
 
     slope: float
@@ -51,6 +55,7 @@ class RecoveryFit:
     r2: float
     n: int
     log_linear: bool
+    slope_se: float = float("nan")
 
 
 def fit_recovery(time: ArrayLike, head: ArrayLike, floor: float = FIT_FLOOR) -> RecoveryFit:
@@ -87,13 +92,14 @@ def fit_recovery(time: ArrayLike, head: ArrayLike, floor: float = FIT_FLOOR) -> 
     resid = yu - (a + b * tu)
     ss = np.sum((yu - yu.mean()) ** 2)
     r2 = float(1.0 - np.sum(resid**2) / ss) if ss > 0 else 1.0
+    se = float(np.sqrt(np.sum(resid**2) / (tu.size - 2) / np.sum((tu - tu.mean()) ** 2)))
     ok = r2 >= LOG_LINEAR_R2
     if tu.size >= 6:
         half = tu.size // 2
         b1 = np.polyfit(tu[: half + 1], yu[: half + 1], 1)[0]
         b2 = np.polyfit(tu[half:], yu[half:], 1)[0]
         ok = ok and abs(b1 - b2) <= HALF_SLOPE_SPREAD * abs(b)
-    return RecoveryFit(float(b), float(-1.0 / b), r2, int(tu.size), bool(ok))
+    return RecoveryFit(float(b), float(-1.0 / b), r2, int(tu.size), bool(ok), se)
 
 
 def _check_geometry(**values: float) -> None:

@@ -33,8 +33,32 @@ class Summary:
         """Upper end of the 95 % interval of the mean."""
         return self.mean + self.half_width
 
+    def columns(self, unit: str) -> dict[str, float]:
+        """The statistics as table columns whose headers carry ``unit`` (``mean [m/s]`` ...)."""
+        return {"n": self.n, f"mean [{unit}]": self.mean, f"std [{unit}]": self.std, "cv [1]": self.cv,
+                f"stderr [{unit}]": self.stderr, f"ci95_low [{unit}]": self.low, f"ci95_high [{unit}]": self.high}
 
-def summarise(values: np.ndarray, level: float = 0.95) -> Summary:
+
+@dataclass(frozen=True)
+class BetweenTerm:
+    """A between-instrument term: the scatter of one instrument's value about its neighbours'.
+
+    Attributes
+    ----------
+    value
+        The standard deviation (relative, or of ln K, as its user documents).
+    source
+        ``"estimated"`` from the campaign's own instruments, or ``"default"``.
+    dof
+        Degrees of freedom the campaign offered for the estimate.
+    """
+
+    value: float
+    source: str
+    dof: int
+
+
+def repeat_statistics(values: np.ndarray, level: float = 0.95) -> Summary:
     """n, mean, sample standard deviation, coefficient of variation, standard error, t interval.
 
     Parameters

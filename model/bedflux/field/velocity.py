@@ -5,8 +5,8 @@ import numpy as np
 import pandas as pd
 from numpy.typing import ArrayLike
 
-from ..errors import InputError
-from .sheets import Rejected, Sheet, reject_duplicates
+from bedflux.errors import InputError
+from bedflux.field.sheets import Rejected, Sheet, reject_duplicates
 
 #: Standard gravity, m/s^2.
 G = 9.80665

@@ -10,18 +10,26 @@ plan       ``plan_summary.json`` or ``plan_table.csv``
 =========  ===========================================================
 
 The folder is searched recursively; hidden folders (staging folders of a run in progress) are
-skipped. Nothing here interprets the numbers: that is :mod:`bedflux.report.findings`.
+skipped. Each output is read only through the manifest its command wrote last
+(``run_manifest.json``, ...; see :mod:`bedflux.outputs.manifest`): one consistent output per folder, and
+only files the manifest names, that are regular files inside the project folder and whose
+SHA-256 still matches. Anything else found there (an unfinished or older output, a file changed
+since, a symbolic link leaving the folder) is listed in :attr:`Project.skipped`, never read.
+Nothing here interprets the numbers: that is :mod:`bedflux.report.findings`.
 """
 from __future__ import annotations
 
 import json
+import os
+import stat
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 import pandas as pd
 
-from ..errors import InputError
+from bedflux.outputs import manifest
+from bedflux.errors import InputError
 
 #: Figures of each kind of output, in the order the report shows them.
 RUN_FIGURES = ("section.png", "bed_flux_map.png", "exchange.png", "animation.gif")
@@ -30,7 +38,7 @@ FIT_FIGURES = ("observed_vs_simulated.png", "residuals.png", "parameter_interval
 PLAN_FIGURES = ("plan_map.png", "detectability.png")
 #: Field tables shown in the report (others are listed by name).
 FIELD_TABLES = ("seepage_meters.csv", "piezometers.csv", "slug_tests.csv", "permeameter_tests.csv",
-                "consistency.csv", "flags.csv", "rejected.csv")
+                "consistency.csv", "flags.csv", "flagged_observations.csv", "rejected.csv", "not_read.csv")
 #: Input files reproduced as text (larger ones are listed with their hash only).
 TEXT_SUFFIXES = (".toml", ".csv", ".txt")
 MAX_REPRODUCED_BYTES = 60_000
@@ -57,6 +65,8 @@ class Output:
         Input files copied by the command (``inputs/``), and for a fit the calibrated scenario.
     tables
         Tables present (name -> path).
+    files
+        Other files read (the marker, the manifest, provenance).
     """
 
     kind: str
@@ -66,6 +76,7 @@ class Output:
     figures: list[Path] = field(default_factory=list)
     inputs: list[Path] = field(default_factory=list)
     tables: dict[str, Path] = field(default_factory=dict)
+    files: list[Path] = field(default_factory=list)
 
     @property
     def anchor(self) -> str:
@@ -80,6 +91,7 @@ class Project:
 
     folder: Path
     outputs: list[Output]
+    skipped: list[tuple[Path, str]] = field(default_factory=list)
 
     def of_kind(self, kind: str) -> list[Output]:
         """The outputs of one kind, in folder order."""
@@ -90,12 +102,7 @@ class Project:
         """Every file the report reads, for the provenance table."""
         files: list[Path] = []
         for o in self.outputs:
-            for name in ("summary.json", "provenance.json", "events.csv", "field_summary.json",
-                         "fit_results.json", "residuals.csv", "plan_summary.json", "plan_table.csv"):
-                p = o.folder / name
-                if p.is_file() and p not in files:
-                    files.append(p)
-            files += [p for p in o.figures + o.inputs + list(o.tables.values()) if p not in files]
+            files += [p for p in o.files + o.figures + o.inputs + list(o.tables.values()) if p not in files]
         return files
 
 
@@ -108,6 +115,9 @@ def read_json(path: Path) -> dict:
     except json.JSONDecodeError as err:
         raise InputError(f"not valid JSON (line {err.lineno}, column {err.colno}); re-run the "
                          "command that wrote it", str(path)) from None
+    except RecursionError:
+        raise InputError("nested too deeply to be an output of bedflux; re-run the command that wrote it",
+                         str(path)) from None
     if not isinstance(data, dict):
         raise InputError("expected a JSON object (a table of keys); re-run the command that wrote it",
                          str(path))
@@ -134,62 +144,131 @@ def _label(folder: Path, root: Path) -> str:
     return "." if rel == Path(".") else rel.as_posix()
 
 
-def _present(folder: Path, names: tuple[str, ...]) -> list[Path]:
-    return [folder / n for n in names if (folder / n).is_file()]
+class _Trusted:
+    """The files of one output that its manifest vouches for; the rest go to ``skipped``."""
+
+    def __init__(self, folder: Path, kind: str, root: Path, skipped: list[tuple[Path, str]]):
+        self.folder, self.root, self.skipped = folder, root, skipped
+        self.manifest = manifest.read(folder, kind)
+        self.others = {f for v in manifest.VERBS if v != kind for f in manifest.listed(folder, v)}
+
+    def __call__(self, rel: str) -> bool:
+        """True when ``folder/rel`` may be read; a present file that may not is listed."""
+        path = self.folder / rel
+        if not os.path.lexists(path):
+            return False
+        reason = manifest.untrusted_reason(self.folder, rel, self.manifest, self.root)
+        if reason:
+            self.skipped.append((path, reason))
+        return reason is None
+
+    def present(self, names: tuple[str, ...]) -> list[Path]:
+        return [self.folder / n for n in names if self(n)]
+
+    def inputs(self) -> list[Path]:
+        """Files of ``inputs/`` the manifest names; every other entry there is listed, not read."""
+        named = sorted(r for r in self.manifest["files"] if r.startswith("inputs/"))
+        out = [self.folder / r for r in named if self(r)]
+        inp = self.folder / "inputs"
+        if inp.is_dir() and not inp.is_symlink():
+            for dirpath, dirs, names in os.walk(inp):
+                for n in dirs + names:
+                    p = Path(dirpath) / n
+                    rel = p.relative_to(self.folder).as_posix()
+                    known = rel in self.manifest["files"] or rel in self.others
+                    if known or (p.is_dir() and not p.is_symlink()):
+                        continue
+                    if stat.S_ISLNK(p.lstat().st_mode):
+                        target = Path(os.path.realpath(p))
+                        where = "inside" if target.is_relative_to(self.root) else "outside"
+                        why = f"a symbolic link to {target} ({where} the project folder); not followed"
+                    else:
+                        why = "not named by the manifest of the command that wrote this folder"
+                    self.skipped.append((p, why))
+        return out
 
 
-def _inputs(folder: Path) -> list[Path]:
-    inp = folder / "inputs"
-    return sorted(p for p in inp.rglob("*") if p.is_file()) if inp.is_dir() else []
-
-
-def _run(folder: Path, root: Path) -> Output | None:
+def _run(folder: Path, root: Path, trust: _Trusted) -> Output | None:
     summary = read_json(folder / "summary.json")
     if "exchange_m2_per_s" not in summary:
         return None
-    prov = read_json(folder / "provenance.json") if (folder / "provenance.json").is_file() else {}
+    prov = read_json(folder / "provenance.json") if trust("provenance.json") else {}
     out = Output("run", folder, _label(folder, root), {"summary": summary, "provenance": prov},
-                 _present(folder, RUN_FIGURES), _inputs(folder))
-    if (folder / "events.csv").is_file():
+                 trust.present(RUN_FIGURES), trust.inputs())
+    out.files = [folder / "summary.json"] + ([folder / "provenance.json"] if prov else [])
+    if trust("events.csv"):
         out.tables["events.csv"] = folder / "events.csv"
-    if (folder / "animation.mp4").is_file():
+    if trust("animation.mp4"):
         out.data["movie"] = folder / "animation.mp4"
     return out
 
 
-def _field(folder: Path, root: Path) -> Output:
+def _field(folder: Path, root: Path, trust: _Trusted) -> Output:
     out = Output("field", folder, _label(folder, root),
                  {"field_summary": read_json(folder / "field_summary.json")},
-                 _present(folder, FIELD_FIGURES), _inputs(folder))
+                 trust.present(FIELD_FIGURES), trust.inputs(), files=[folder / "field_summary.json"])
     for name in FIELD_TABLES:
-        if (folder / name).is_file():
+        if trust(name):
             out.tables[name] = folder / name
     return out
 
 
-def _fit(folder: Path, root: Path) -> Output:
+def _fit(folder: Path, root: Path, trust: _Trusted) -> Output:
     results = read_json(folder / "fit_results.json")
     for key in ("best", "ci95"):
         if not isinstance(results.get(key), dict):
             raise InputError(f"the key '{key}' is missing or not a table; re-run bedflux fit",
                              str(folder / "fit_results.json"))
-    inputs = _inputs(folder)
-    if (folder / "calibrated.toml").is_file():
+    inputs = trust.inputs()
+    if trust("calibrated.toml"):
         inputs.append(folder / "calibrated.toml")
     out = Output("fit", folder, _label(folder, root), {"fit_results": results},
-                 _present(folder, FIT_FIGURES), inputs)
-    if (folder / "residuals.csv").is_file():
+                 trust.present(FIT_FIGURES), inputs, files=[folder / "fit_results.json"])
+    if trust("residuals.csv"):
         out.tables["residuals.csv"] = folder / "residuals.csv"
     return out
 
 
-def _plan(folder: Path, root: Path) -> Output:
-    summary = read_json(folder / "plan_summary.json") if (folder / "plan_summary.json").is_file() else None
-    table = read_table(folder / "plan_table.csv") if (folder / "plan_table.csv").is_file() else None
+def _plan(folder: Path, root: Path, trust: _Trusted) -> Output:
+    summary = read_json(folder / "plan_summary.json") if trust("plan_summary.json") else None
+    table = read_table(folder / "plan_table.csv") if trust("plan_table.csv") else None
     out = Output("plan", folder, _label(folder, root), {"plan_summary": summary, "plan_table": table},
-                 _present(folder, PLAN_FIGURES), _inputs(folder))
+                 trust.present(PLAN_FIGURES), trust.inputs(),
+                 files=[folder / "plan_summary.json"] if summary is not None else [])
     if table is not None:
         out.tables["plan_table.csv"] = folder / "plan_table.csv"
+    return out
+
+
+def _read_output(marker: Path, kind: str, reader, root: Path, skipped: list[tuple[Path, str]]) -> Output | None:
+    """One output through its manifest, or None (with the reason in ``skipped``)."""
+    folder = marker.parent
+    name = manifest.manifest_name(kind)
+    if not stat.S_ISREG(marker.lstat().st_mode):
+        trust = None
+    else:
+        try:
+            trust = _Trusted(folder, kind, root, skipped)
+        except InputError as err:
+            skipped.append((folder / name, err.message))
+            return None
+    if trust is None or trust.manifest is None:
+        why = ("a symbolic link or not a regular file; not followed" if trust is None else
+               f"no {name} beside it: not a complete output of bedflux {kind} (an unfinished command, or "
+               "one of an earlier bedflux); run the command again")
+        skipped.append((marker, why))
+        return None
+    if marker.name not in trust.manifest["files"]:
+        skipped.append((marker, f"not named by {name}"))
+        return None
+    out = reader(folder, root, trust)
+    if out is None:
+        return None
+    reason = manifest.untrusted_reason(folder, marker.name, trust.manifest, root)
+    if reason:
+        skipped.append((marker, reason + "; the whole output is left out"))
+        return None
+    out.files.insert(1, folder / name)
     return out
 
 
@@ -220,6 +299,7 @@ def collect(folder: str | Path) -> Project:
                          "into", str(root))
     root = root.resolve()
     found: dict[tuple[str, Path], Output] = {}
+    skipped: list[tuple[Path, str]] = []
     markers = {
         "summary.json": ("run", _run),
         "field_summary.json": ("field", _field),
@@ -227,21 +307,25 @@ def collect(folder: str | Path) -> Project:
         "plan_summary.json": ("plan", _plan),
         "plan_table.csv": ("plan", _plan),
     }
+    tried: set[tuple[str, Path]] = set()
     for name, (kind, reader) in markers.items():
         for marker in sorted(root.rglob(name)):
-            if not marker.is_file() or not _visible(marker, root):
+            if not os.path.lexists(marker) or marker.is_dir() or not _visible(marker, root):
                 continue
             key = (kind, marker.parent)
-            if key in found:
+            if key in tried:
                 continue
-            out = reader(marker.parent, root)
+            tried.add(key)
+            out = _read_output(marker, kind, reader, root, skipped)
             if out is not None:
                 found[key] = out
     if not found:
+        why = "".join(f"; {p.relative_to(root).as_posix()}: {r}" for p, r in skipped[:5])
         raise InputError("no bedflux outputs found here (looked for summary.json of bedflux run, "
                          "field_summary.json of bedflux field, fit_results.json of bedflux fit and "
-                         "plan_summary.json or plan_table.csv of bedflux plan, in this folder and "
-                         "below); run those commands with -o inside this folder first", str(root))
+                         "plan_summary.json or plan_table.csv of bedflux plan, each with the manifest "
+                         "its command writes, in this folder and below); run those commands with -o "
+                         f"inside this folder first{why}", str(root))
     order = {"run": 0, "field": 1, "fit": 2, "plan": 3}
     outputs = sorted(found.values(), key=lambda o: (order[o.kind], o.label))
-    return Project(root, outputs)
+    return Project(root, outputs, sorted(set(skipped)))

@@ -14,13 +14,13 @@ from typing import Any, Iterable
 
 import pandas as pd
 
-from ..plots import flux_factor
-
-DAY = 86400.0
+from bedflux.scenario.units import SECONDS_PER_DAY as DAY
+from bedflux.scenario.units import flux_factor
 HOUR = 3600.0
 
 #: Section of the findings each topic belongs to, in display order.
 TOPICS = {
+    "warnings": "What should not be believed as it stands",
     "exchange": "Is the reach gaining or losing?",
     "pulse": "Does the flood pulse reverse the exchange?",
     "field": "What the field measurements say",
@@ -32,7 +32,7 @@ _KIND_WORDS = {"seepage": "seepage meter", "vhg": "mini-piezometer (vertical gra
                "head": "piezometer (head)", "piezometer": "mini-piezometer",
                "manometer": "mini-piezometer"}
 _PROPERTY_WORDS = {"kh": "horizontal conductivity", "kv": "vertical conductivity", "k": "conductivity",
-                   "ss": "specific storage", "sy": "specific yield", "head": "head"}
+                   "specific_storage": "specific storage", "specific_yield": "specific yield", "head": "head"}
 
 
 @dataclass
@@ -84,9 +84,9 @@ def per_metre(m2_per_s: float, of: str = "channel") -> str:
     return f"{number(abs(m2_per_s) * DAY)} m³/d per metre of {of}"
 
 
-def signed_per_metre(m2_per_s: float) -> str:
-    """A net exchange with its sign, in m³/d per metre (positive = gaining)."""
-    return f"{number(m2_per_s * DAY)} m³/d per metre"
+def signed_per_metre(m2_per_s: float, of: str = "") -> str:
+    """A net exchange with its sign, in m³/d per metre (of ``of`` when given; positive = gaining)."""
+    return f"{number(m2_per_s * DAY)} m³/d per metre" + (f" of {of}" if of else "")
 
 
 def length(m: float) -> str:
@@ -119,11 +119,11 @@ def parameter_value(path: str, value: float) -> str:
     prop = path.rsplit(".", 1)[-1]
     if prop in ("kh", "kv", "k"):
         return conductivity(value)
-    if prop == "ss":
+    if prop == "specific_storage":
         return f"{number(value)} 1/m"
     if prop in ("head", "stage") or path.endswith(".stage"):
         return f"{number(value, 5)} m"
-    if prop == "rate":
+    if prop in ("rate", "max_rate"):
         return f"{number(float(value) * 1000 * DAY)} mm/d"
     return number(value)
 
@@ -164,11 +164,13 @@ def exchange_finding(summary: dict, source: str = ".", unit: str = "m/d") -> Fin
         Display unit of the bed flux.
     """
     ex = float(summary["exchange_m2_per_s"])
-    scale = sum(abs(float(v)) for v in (summary.get("budget_in_m2_per_s") or {}).values()) or abs(ex)
+    scale = sum(abs(float(v)) for v in (summary.get("inflow_m2_per_s") or {}).values()) or abs(ex)
     way = _direction(ex, scale)
     transient = summary.get("run") == "transient"
     when = f"At the end of the run ({hours(summary['end_time_s'])}) the" if transient and \
         finite(summary.get("end_time_s")) else "The"
+    if summary.get("partial") and finite(summary.get("end_time_s")):
+        when = f"At the last output of the interrupted run ({hours(summary['end_time_s'])}) the"
     f = Finding("exchange", source, title=summary.get("title", ""))
     of = summary.get("per_metre_of", "channel")
     over = (f" over the {length(float(summary['section_length_m']))} of the section"
@@ -192,10 +194,14 @@ def exchange_finding(summary: dict, source: str = ".", unit: str = "m/d") -> Fin
         else:
             f.sentences.append(f"Of {length(sub)} of submerged bed, {length(gain)} is gaining and "
                                f"{length(lose)} losing.")
-        lo, hi = summary.get("max_losing_flux_m_per_s"), summary.get("max_gaining_flux_m_per_s")
+        lo = summary.get("bed_flux_min_m_per_s", summary.get("max_losing_flux_m_per_s"))
+        hi = summary.get("bed_flux_max_m_per_s", summary.get("max_gaining_flux_m_per_s"))
         if finite(lo) and finite(hi):
+            none = ("; no losing reach" if float(lo) >= 0 else "; no gaining reach" if float(hi) <= 0 else "")
             f.sentences.append(f"The bed flux ranges from {flux(lo, unit)} to {flux(hi, unit)} "
-                               "(positive upward, into the stream).")
+                               f"(positive upward, into the stream{none}).")
+        if not transient:
+            f.sentences += bed_sentences(summary.get("bed"), unit)
     else:
         f.sentences.append("No part of the bed is under water; the exchange is through the channel "
                            "sides only.")
@@ -204,10 +210,80 @@ def exchange_finding(summary: dict, source: str = ".", unit: str = "m/d") -> Fin
         e0 = float(events["initial_exchange"])
         way0 = _direction(e0, scale)
         word = {"gaining": "gained", "losing": "lost", "neutral": "exchanged"}[way0]
-        f.sentences.append(f"At the start it {word} {per_metre(e0)}.")
+        f.sentences.append(f"At the start it {word} {per_metre(e0, of)}.")
     if summary.get("water_table_warning"):
         f.sentences.append(f"Caution: {summary['water_table_warning']}.")
     return f
+
+
+_PARTS = {"channel": "the channel bed", "floodplain": "the floodplain (under water only at high stage)"}
+
+
+def _at(place: dict) -> str:
+    text = f"at x = {length(place.get('x_m'))}"
+    return text + (f", t = {hours(place['time_s'])}" if finite(place.get("time_s")) else "")
+
+
+def bed_sentences(bed: dict | None, unit: str = "m/d") -> list[str]:
+    """Where the bed flux is strongest, for the channel bed and the floodplain apart: each extreme
+    with its x (and time) beside the 5th/95th percentile over the wetted part (``bed`` block of
+    summary.json)."""
+    out = []
+    for name, part in (bed or {}).items():
+        if not isinstance(part, dict):
+            continue
+        where = " and ".join(f"{number(a)} to {number(b)}" for a, b in part.get("stretches_m") or [])
+        head = f"On {_PARTS.get(name, name)} (x = {where} m)"
+        g, lo, pen = part.get("gaining"), part.get("losing"), part.get("penetration")
+        parts = []
+        bulk = "95 % of the wetted bed" + (" and of the run" if finite((g or lo or {}).get("time_s")) else "")
+        if isinstance(g, dict):
+            parts.append(f"the strongest upward flux is {flux(g.get('peak_m_per_s'), unit)} {_at(g)}, while over "
+                         f"{bulk} it stays below {flux(g.get('p95_m_per_s'), unit)}")
+        else:
+            parts.append("no part gains (no gaining reach)")
+        if isinstance(lo, dict):
+            parts.append(f"the strongest downward flux is {flux(lo.get('peak_m_per_s'), unit)} {_at(lo)}, while "
+                         f"over {bulk} it stays above {flux(lo.get('p05_m_per_s'), unit)}")
+        else:
+            parts.append("no part loses (no losing reach)")
+        text = f"{head} {'; '.join(parts)}."
+        if isinstance(pen, dict):
+            text += (f" Stream water reaches {length(pen.get('depth_m'))} below the bed {_at(pen)}; over 95 % of "
+                     f"this part it stays within {length(pen.get('p95_m'))}.")
+        out.append(text)
+    return out
+
+
+def interruption(summary: dict) -> str | None:
+    """``interrupted at t = 2.5 h, of 4.0 h`` (with the last output) for a partial run, else None."""
+    reason = summary.get("partial")
+    if not reason:
+        return None
+    p = summary.get("partial_run") or {}
+    word = "interrupted" if str(reason).startswith("interrupted") else "stopped"
+    at = p.get("stopped_at_s", summary.get("end_time_s"))
+    text = f"{word} at t = {hours(at)}" if finite(at) else word
+    if finite(p.get("planned_end_s")):
+        text += f", of {hours(p['planned_end_s'])}"
+    last = p.get("last_output_s", summary.get("end_time_s"))
+    if finite(last):
+        text += f"; its last output is at t = {hours(last)}"
+    return text
+
+
+def warnings_finding(summary: dict, source: str = ".") -> Finding | None:
+    """An interrupted run and the warnings of a run's summary (impossible heads, a stream that may
+    be disconnected), or None when there is nothing to say."""
+    f = Finding("warnings", source, title=summary.get("title", ""))
+    stop = interruption(summary)
+    if stop:
+        f.sentences.append(f"This run was {stop}: its numbers, and every figure of the end of the run, show "
+                           "that last output, not the planned end.")
+    for w in summary.get("warnings") or []:
+        text = str(w).strip()
+        f.sentences.append(text[:1].upper() + text[1:] + ("" if text.endswith(".") else "."))
+    return f if f.sentences else None
 
 
 def pulse_finding(summary: dict, events_table: pd.DataFrame | None = None, source: str = ".",
@@ -220,6 +296,7 @@ def pulse_finding(summary: dict, events_table: pd.DataFrame | None = None, sourc
     if not ev:
         return None
     f = Finding("pulse", source, title=summary.get("title", ""))
+    of = summary.get("per_metre_of", "channel")
     e0 = float(ev.get("initial_exchange", summary.get("exchange_m2_per_s", 0.0)))
     start_word = "gaining" if e0 > 0 else "losing"
     other_word = "losing" if e0 > 0 else "gaining"
@@ -233,7 +310,7 @@ def pulse_finding(summary: dict, events_table: pd.DataFrame | None = None, sourc
                            f"{'; '.join(parts)} ({hours(ev.get('reversed_duration', float('nan')))} in all).")
         peak = ev.get("peak_losing_exchange")
         if e0 > 0 and finite(peak) and float(peak) < 0:
-            f.sentences.append(f"At the peak the stream loses {per_metre(float(peak))} into its bed and banks.")
+            f.sentences.append(f"At the peak the stream loses {per_metre(float(peak), of)} into its bed and banks.")
     else:
         lo, hi = summary.get("exchange_min_m2_per_s"), summary.get("exchange_max_m2_per_s")
         f.sentences.append(f"No: the net exchange stays {start_word} throughout the run"
@@ -253,15 +330,19 @@ def pulse_finding(summary: dict, events_table: pd.DataFrame | None = None, sourc
     bank = ev.get("bank_storage_volume")
     if finite(bank) and float(bank) > 0:
         back = ev.get("returned_volume")
-        text = f"Bank storage takes in {number(bank)} m³ per metre of channel"
+        text = f"Bank storage takes in {number(bank)} m³ per metre of {of}"
         if finite(back):
             end = summary.get("end_time_s")
             text += (f"; {number(back)} m³ ({percent(ev.get('returned_fraction'))}) has come back by the "
                      f"end of the run{f' ({hours(end)})' if finite(end) else ''}")
         f.sentences.append(text + ".")
-    depth = ev.get("max_penetration_depth")
-    if finite(depth) and float(depth) > 0:
-        f.sentences.append(f"Stream water reaches {length(depth)} below the bed at most.")
+    bed = summary.get("bed")
+    if isinstance(bed, dict) and bed:
+        f.sentences += bed_sentences(bed, unit)
+    else:
+        depth = ev.get("max_penetration_depth")
+        if finite(depth) and float(depth) > 0:
+            f.sentences.append(f"Stream water reaches {length(depth)} below the bed at most.")
     return f
 
 
@@ -290,12 +371,52 @@ def field_finding(field_summary: dict, source: str = ".", unit: str = "m/d") -> 
         f.sentences.append(f"The slug tests give a median conductivity of {conductivity(k_slug)}.")
     if finite(k_perm):
         f.sentences.append(f"The permeameter cores give a median vertical conductivity of {conductivity(k_perm)}.")
+    left = (fs.get("flagged_observations") or {})
+    sites = sorted({str(r.get("site")) for r in left.get("rows") or []})
+    if sites:
+        how = "are kept in" if left.get("kept") else "are left out of"
+        f.sentences.append(f"The observations of flagged instruments ({', '.join(sites)}) {how} the calibration "
+                           "(listed in flagged_observations.csv).")
+        other = fs.get("reach_with_flagged_meters" if not left.get("kept") else "reach_without_flagged_meters") or {}
+        alt = other.get("per_metre_of_channel [m^2/s]")
+        if finite(alt) and finite(per_m):
+            which = "with" if not left.get("kept") else "without"
+            f.sentences.append(f"{which.capitalize()} the flagged meters the reach would give {per_metre(alt)} "
+                               f"instead of {per_metre(per_m)}.")
     rejected = fs.get("rejected_rows", 0) or 0
     flagged = sum(int(v) for v in (fs.get("flags") or {}).values() if finite(v))
     if rejected or flagged:
         f.sentences.append(f"{int(rejected)} rows of the sheets were rejected and {flagged} flags raised "
                            "(listed in the field section).")
     return f
+
+
+def same_length_sentence(field_summary: dict, run_summary: dict, run_label: str) -> str | None:
+    """The field's and a model run's exchange quoted per the same length, saying which.
+
+    A section across the channel gives flow per metre of channel length, as the meters' reach
+    total per metre of channel does. A section along the channel gives flow per metre of channel
+    width over the section's length; the meters' mean flux over that same length gives the field
+    figure on that basis.
+    """
+    reach = field_summary.get("reach") or {}
+    mean, per_m = reach.get("mean_flux [m/s]"), reach.get("per_metre_of_channel [m^2/s]")
+    ex = run_summary.get("exchange_m2_per_s")
+    if not finite(ex):
+        return None
+    if run_summary.get("per_metre_of") == "channel width":
+        span = run_summary.get("section_length_m")
+        if not (finite(mean) and finite(span)):
+            return None
+        return (f"On the basis of the model run in {run_label}, drawn along the channel (per metre of channel "
+                f"width, over the same {length(span)} of channel; + = gaining), the meters give "
+                f"{number(float(mean) * float(span) * DAY)} m³/d and the model "
+                f"{number(float(ex) * DAY)} m³/d.")
+    if not finite(per_m):
+        return None
+    return (f"Per metre of channel length, as the model run in {run_label} (drawn across the channel) is "
+            f"quoted (+ = gaining): the meters give {number(float(per_m) * DAY)} m³/d and the model "
+            f"{number(float(ex) * DAY)} m³/d.")
 
 
 def _is_conductivity(path: str) -> bool:
@@ -325,6 +446,9 @@ def conductivity_finding(fit_results: dict, source: str = ".") -> Finding:
                 text += f", within a factor of {number(max(hi / b, b / lo))} of the best value"
         verdict = verdicts.get(p)
         f.sentences.append(text + (f": {verdict}." if verdict else "."))
+    for p, note in (fit_results.get("at_bound") or {}).items():
+        if p not in chosen:  # a conductivity's verdict already says it
+            f.sentences.append(f"{note}.")
     st = fit_results.get("statistics") or {}
     rchi = st.get("reduced_chi_square")
     if finite(rchi):
@@ -399,6 +523,7 @@ def next_finding(plans: Iterable[tuple[str, dict | None, pd.DataFrame | None]],
         elif finite(shown[0].get("expected_sd")):
             f.sentences.append(f"After the first pick the expected standard deviation of {target} is "
                                f"{spread(target, shown[0]['expected_sd'])}.")
+        f.sentences += [f"Warning: {w}." for w in (summary or {}).get("warnings") or [] if isinstance(w, str)]
     if plans:
         return f
     hints = []
@@ -422,18 +547,27 @@ def next_finding(plans: Iterable[tuple[str, dict | None, pd.DataFrame | None]],
 
 def findings(project, unit: str = "m/d") -> list[Finding]:
     """Every finding of a project (a :class:`bedflux.report.collect.Project`), grouped by topic."""
-    from .collect import read_table
+    from bedflux.report.collect import read_table
 
     out: list[Finding] = []
     for o in project.of_kind("run"):
         s = o.data["summary"]
+        w = warnings_finding(s, o.label)
+        if w is not None:
+            out.append(w)
         out.append(exchange_finding(s, o.label, unit))
         events = read_table(o.tables["events.csv"]) if "events.csv" in o.tables else None
         p = pulse_finding(s, events, o.label, unit)
         if p is not None:
             out.append(p)
+    runs = [(o.label, o.data["summary"]) for o in project.of_kind("run")]
     for o in project.of_kind("field"):
-        out.append(field_finding(o.data["field_summary"], o.label, unit))
+        f = field_finding(o.data["field_summary"], o.label, unit)
+        for label, s in runs:
+            same = same_length_sentence(o.data["field_summary"], s, label)
+            if same:
+                f.sentences.append(same)
+        out.append(f)
     fits = [(o.label, o.data["fit_results"]) for o in project.of_kind("fit")]
     for label, res in fits:
         out.append(conductivity_finding(res, label))

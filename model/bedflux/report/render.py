@@ -14,11 +14,12 @@ from typing import Any, Iterable
 
 import pandas as pd
 
-from .. import __version__
-from . import findings as fd
-from ..io import sha256
-from .collect import MAX_REPRODUCED_BYTES, TEXT_SUFFIXES, Output, Project, read_table
-from .style import STYLESHEET
+from bedflux.version import __version__
+from bedflux.report import findings
+from bedflux.outputs.summary import closure_phrase
+from bedflux.outputs.files import sha256
+from bedflux.report.collect import MAX_REPRODUCED_BYTES, TEXT_SUFFIXES, Output, Project, read_table
+from bedflux.report.style import STYLESHEET
 
 MIME = {".png": "image/png", ".gif": "image/gif", ".jpg": "image/jpeg", ".jpeg": "image/jpeg",
         ".svg": "image/svg+xml"}
@@ -71,9 +72,10 @@ def data_uri(path: Path) -> str:
     return f"data:{mime};base64," + base64.b64encode(path.read_bytes()).decode("ascii")
 
 
-def figure(path: Path, kind: str, alt: str) -> str:
-    """An embedded figure with its caption."""
-    cap = CAPTIONS.get((kind, path.name), "")
+def figure(path: Path, kind: str, alt: str, note: str = "", per_metre_of: str = "channel") -> str:
+    """An embedded figure with its caption (``note`` first, e.g. that the run was interrupted)."""
+    cap = CAPTIONS.get((kind, path.name), "").replace("per metre of channel", f"per metre of {per_metre_of}")
+    cap = f"{note} {cap}".strip()
     return (f'<figure><img src="{data_uri(path)}" alt="{esc(alt)}">'
             f"<figcaption><b>{esc(path.name)}</b>. {esc(cap)}</figcaption></figure>")
 
@@ -89,7 +91,7 @@ def cell(v: Any) -> str:
             return ""
         if v.is_integer() and abs(v) < 1e6:
             return str(int(v))
-        return fd.number(v, 4)
+        return findings.number(v, 4)
     return str(v)
 
 
@@ -138,9 +140,23 @@ def reproduce(path: Path, label: str) -> str:
 
 # --------------------------------------------------------------------------- sections
 
-def _findings_section(found: list[fd.Finding]) -> str:
+def _opening(o: Output, title: str) -> list[str]:
+    """The start of an output's section: its title and folder."""
+    return [f'<section id="{o.anchor}"><h2>{esc(title)}</h2>', f'<p class="meta">folder {esc(o.label)}</p>']
+
+
+def _closing(o: Output, heading: str) -> list[str]:
+    """The end of an output's section: its input files reproduced under ``heading``."""
+    parts = []
+    if o.inputs:
+        parts.append(f"<h3>{esc(heading)}</h3>")
+        parts += [reproduce(p, p.relative_to(o.folder).as_posix()) for p in o.inputs]
+    return parts + ["</section>"]
+
+
+def _findings_section(found: list[findings.Finding]) -> str:
     parts = ['<section class="findings" id="findings"><h2>Findings</h2>']
-    for topic, heading in fd.TOPICS.items():
+    for topic, heading in findings.TOPICS.items():
         items = [f for f in found if f.topic == topic]
         if not items:
             continue
@@ -161,41 +177,52 @@ def _cautions_section() -> str:
 
 def _run_section(o: Output, unit: str) -> str:
     s = o.data["summary"]
-    day = fd.DAY
+    day = findings.DAY
+    of = s.get("per_metre_of", "channel")
+    lo = s.get("bed_flux_min_m_per_s", s.get("max_losing_flux_m_per_s"))
+    hi = s.get("bed_flux_max_m_per_s", s.get("max_gaining_flux_m_per_s"))
     rows = [("run", s.get("run", "")), ("cells, solver", f"{s.get('cells', '')}, {s.get('solver', '')}"),
-            ("net exchange (+ = gaining)", fd.signed_per_metre(s["exchange_m2_per_s"])),
-            ("submerged bed", fd.length(s.get("submerged_length_m"))),
-            ("gaining length", fd.length(s.get("gaining_length_m"))),
-            ("losing length", fd.length(s.get("losing_length_m"))),
-            ("bed flux range (+ = upward)", f"{fd.flux(s.get('max_losing_flux_m_per_s'), unit)} to "
-                                            f"{fd.flux(s.get('max_gaining_flux_m_per_s'), unit)}"),
-            ("water budget closure", f"{float(s.get('budget_closure', float('nan'))):.1e} of the inflow")]
+            ("net exchange (+ = gaining)", findings.signed_per_metre(s["exchange_m2_per_s"], of)),
+            ("submerged bed", findings.length(s.get("submerged_length_m"))),
+            ("gaining length", findings.length(s.get("gaining_length_m"))),
+            ("losing length", findings.length(s.get("losing_length_m"))),
+            ("bed flux range (+ = upward)", f"{findings.flux(lo, unit)} to {findings.flux(hi, unit)}"
+             if findings.finite(lo) else "no bed under water"),
+            ("water budget closure", closure_phrase(s.get("budget_closure"), s.get("budget_closure_note", "")))]
+    stop = findings.interruption(s)
+    if stop:
+        rows.insert(0, ("PARTIAL RESULT", stop))
     if "exchange_min_m2_per_s" in s:
-        rows.insert(3, ("net exchange over the run", f"{fd.signed_per_metre(s['exchange_min_m2_per_s'])} to "
-                                                     f"{fd.signed_per_metre(s['exchange_max_m2_per_s'])}"))
-        rows.insert(1, ("end of run", fd.hours(s.get("end_time_s"))))
+        rows.insert(3, ("net exchange over the run", f"{findings.signed_per_metre(s['exchange_min_m2_per_s'])} to "
+                                                     f"{findings.signed_per_metre(s['exchange_max_m2_per_s'], of)}"))
+        rows.insert(1, ("end of run", findings.hours(s.get("end_time_s"))))
     ev = s.get("events") or {}
     if ev:
         rev = ev.get("reversals") or []
         rows += [("net exchange reversals", "; ".join(
-                     f"{fd.hours(a)} to {'end' if b is None else fd.hours(b)}" for a, b in rev) or "none"),
-                 ("reversed for", fd.hours(ev.get("reversed_duration"))),
-                 ("bank storage taken in", f"{fd.number(ev.get('bank_storage_volume'))} m³ per metre"),
-                 ("returned by the end", f"{fd.number(ev.get('returned_volume'))} m³ per metre "
-                                         f"({fd.percent(ev.get('returned_fraction'))})"),
-                 ("deepest stream water below the bed", fd.length(ev.get("max_penetration_depth")))]
-    parts = [f'<section id="{o.anchor}"><h2>Model run: {esc(s.get("title", o.label))}</h2>',
-             f'<p class="meta">folder {esc(o.label)}</p>', keys_table(rows, "Key numbers (SI files; shown in "
-                                                                          f"m³/d per metre and {unit})")]
-    bin_ = s.get("budget_in_m2_per_s") or {}
-    bout = s.get("budget_out_m2_per_s") or {}
-    terms = [t for t in bin_ if abs(bin_.get(t, 0.0)) > 0 or abs(bout.get(t, 0.0)) > 0]
+                     f"{findings.hours(a)} to {'end' if b is None else findings.hours(b)}" for a, b in rev) or "none"),
+                 ("reversed for", findings.hours(ev.get("reversed_duration"))),
+                 ("bank storage taken in", f"{findings.number(ev.get('bank_storage_volume'))} m³ per metre of {of}"),
+                 ("returned by the end", f"{findings.number(ev.get('returned_volume'))} m³ per metre of {of} "
+                                         f"({findings.percent(ev.get('returned_fraction'))})"),
+                 ("deepest stream water below the bed", findings.length(ev.get("max_penetration_depth")))]
+    for w in s.get("warnings") or []:
+        rows.append(("WARNING", str(w)))
+    parts = _opening(o, f"Model run: {s.get('title', o.label)}") + [
+        keys_table(rows, f"Key numbers (SI files; shown in m³/d per metre and {unit})")]
+    inflow = s.get("inflow_m2_per_s") or {}
+    outflow = s.get("outflow_m2_per_s") or {}
+    terms = [t for t in inflow if abs(inflow.get(t, 0.0)) > 0 or abs(outflow.get(t, 0.0)) > 0]
     if terms:
-        bud = pd.DataFrame({"term": terms, "in (m³/d per m)": [bin_[t] * day for t in terms],
-                            "out (m³/d per m)": [bout.get(t, 0.0) * day for t in terms]})
+        bud = pd.DataFrame({"term": terms, "inflow (m³/d per m)": [inflow[t] * day for t in terms],
+                            "outflow (m³/d per m)": [outflow.get(t, 0.0) * day for t in terms]})
         parts.append(table(bud, "Water budget" + (" at the last output time" if ev else "")))
+    extremes = _extremes_table(s.get("bed"), unit)
+    if extremes:
+        parts.append(extremes)
+    note = f"PARTIAL RESULT, {stop}." if stop else ""
     for fig in o.figures:
-        parts.append(figure(fig, "run", f"{fig.stem} of {s.get('title', o.label)}"))
+        parts.append(figure(fig, "run", f"{fig.stem} of {s.get('title', o.label)}", note, of))
     if "movie" in o.data:
         parts.append(f'<p class="note">A video of the same animation is beside the outputs: '
                      f"{esc(Path(o.data['movie']).name)}.</p>")
@@ -203,10 +230,11 @@ def _run_section(o: Output, unit: str) -> str:
         event_table = read_table(o.tables["events.csv"])
         if not event_table.empty:
             shown = event_table.copy()
-            fac = fd.flux_factor(unit)
-            for c in ("submerged_duration", "first_reversal_start", "last_reversal_end", "reversed_duration"):
+            fac = findings.flux_factor(unit)
+            for c in ("submerged_duration", "first_reversal_start", "last_reversal_end", "reversed_duration",
+                      "penetration_time"):
                 if c in shown:
-                    shown[c] = shown[c] / fd.HOUR
+                    shown[c] = shown[c] / findings.HOUR
             for c in ("initial_flux", "peak_losing_flux"):
                 if c in shown:
                     shown[c] = shown[c] * fac
@@ -215,13 +243,40 @@ def _run_section(o: Output, unit: str) -> str:
                 "first_reversal_start": "first reversal (h)", "last_reversal_end": "last reversal end (h)",
                 "reversed_duration": "reversed (h)", "peak_losing_flux": f"peak losing flux ({unit})",
                 "volume_into_bed": "into bed (m³/m²)", "volume_returned": "returned (m³/m²)",
-                "penetration_depth": "depth reached (m)"})
+                "penetration_depth": "depth reached (m)", "penetration_time": "deepest at (h)"})
             parts.append(table(shown, "Exchange events by column", source=f"{o.label}/events.csv"))
-    if o.inputs:
-        parts.append("<h3>Scenario files</h3>")
-        parts += [reproduce(p, p.relative_to(o.folder).as_posix()) for p in o.inputs]
-    parts.append("</section>")
+    parts += _closing(o, "Scenario files")
     return "".join(parts)
+
+
+def _extremes_table(bed: dict | None, unit: str) -> str:
+    """Where the bed flux is strongest, per part of the bed, beside the robust percentile."""
+    rows = []
+    words = {"channel": "channel bed", "floodplain": "floodplain"}
+    for name, part in (bed or {}).items():
+        if not isinstance(part, dict):
+            continue
+        for key, label, robust, rlabel in (("gaining", "strongest upward flux", "p95_m_per_s", "95th percentile"),
+                                          ("losing", "strongest downward flux", "p05_m_per_s", "5th percentile")):
+            e = part.get(key)
+            rows.append({"part of the bed": words.get(name, name), "extreme": label,
+                         "value": findings.flux(e.get("peak_m_per_s"), unit) if isinstance(e, dict)
+                         else f"none (no {key} reach)",
+                         "x (m)": e.get("x_m") if isinstance(e, dict) else float("nan"),
+                         "t (h)": e["time_s"] / findings.HOUR
+                         if isinstance(e, dict) and findings.finite(e.get("time_s")) else float("nan"),
+                         "robust figure": f"{rlabel} {findings.flux(e.get(robust), unit)}"
+                         if isinstance(e, dict) else ""})
+        pen = part.get("penetration")
+        if isinstance(pen, dict):
+            rows.append({"part of the bed": words.get(name, name), "extreme": "deepest stream water below the bed",
+                         "value": findings.length(pen.get("depth_m")), "x (m)": pen.get("x_m"),
+                         "t (h)": pen["time_s"] / findings.HOUR if findings.finite(pen.get("time_s")) else float("nan"),
+                         "robust figure": f"95th percentile {findings.length(pen.get('p95_m'))}"})
+    if not rows:
+        return ""
+    return table(pd.DataFrame(rows), "Where the bed flux is strongest: each extreme with its place, beside a "
+                                     "percentile over the wetted part of the bed (length- and time-weighted)")
 
 
 def _field_section(o: Output, unit: str) -> str:
@@ -241,20 +296,18 @@ def _field_section(o: Output, unit: str) -> str:
         rows.append(("seepage meter efficiency used", f"{eff.get('value')} ({eff.get('source', '')})"))
     reach = fs.get("reach") or {}
     if reach:
-        rows += [("reach mean bed flux", fd.flux(reach.get("mean_flux [m/s]"), unit)),
-                 ("per metre of channel", fd.signed_per_metre(reach.get("per_metre_of_channel [m^2/s]", float("nan")))),
-                 ("area and length", f"{fd.number(reach.get('area [m^2]'))} m², {fd.length(reach.get('length [m]'))}"),
+        rows += [("reach mean bed flux", findings.flux(reach.get("mean_flux [m/s]"), unit)),
+                 ("per metre of channel",
+                  findings.signed_per_metre(reach.get("per_metre_of_channel [m^2/s]", float("nan")))),
+                 ("area and length",
+                  f"{findings.number(reach.get('area [m^2]'))} m², {findings.length(reach.get('length [m]'))}"),
                  ("method", reach.get("method", ""))]
-    parts = [f'<section id="{o.anchor}"><h2>Field measurements</h2>', f'<p class="meta">folder {esc(o.label)}</p>',
-             keys_table(rows, "Summary of the field sheets")]
+    parts = _opening(o, "Field measurements") + [keys_table(rows, "Summary of the field sheets")]
     for fig in o.figures:
         parts.append(figure(fig, "field", f"{fig.stem} of the field campaign"))
     for name, path in o.tables.items():
         parts.append(table(read_table(path), name, source=f"{o.label}/{name}"))
-    if o.inputs:
-        parts.append("<h3>Input files</h3>")
-        parts += [reproduce(p, p.relative_to(o.folder).as_posix()) for p in o.inputs]
-    parts.append("</section>")
+    parts += _closing(o, "Input files")
     return "".join(parts)
 
 
@@ -265,14 +318,13 @@ def _fit_section(o: Output) -> str:
     rows = []
     for p in paths:
         lo, hi = r["ci95"].get(p, [float("nan"), float("nan")])
-        rows.append({"parameter": p, "meaning": fd.describe_parameter(p),
-                     "best": fd.parameter_value(p, r["best"][p]),
-                     "95 % low": fd.parameter_value(p, lo), "95 % high": fd.parameter_value(p, hi),
+        rows.append({"parameter": p, "meaning": findings.describe_parameter(p),
+                     "best": findings.parameter_value(p, r["best"][p]),
+                     "95 % low": findings.parameter_value(p, lo), "95 % high": findings.parameter_value(p, hi),
                      "scaled sensitivity": css.get(p, float("nan")),
                      "verdict": (r.get("verdicts") or {}).get(p, "")})
     st = r.get("statistics") or {}
-    parts = [f'<section id="{o.anchor}"><h2>Calibration</h2>', f'<p class="meta">folder {esc(o.label)}</p>',
-             table(pd.DataFrame(rows), "Calibrated parameters (SI in the files)")]
+    parts = _opening(o, "Calibration") + [table(pd.DataFrame(rows), "Calibrated parameters (SI in the files)")]
     if st:
         parts.append(keys_table([(k.replace("_", " "), cell(v) if isinstance(v, float) else str(v))
                                  for k, v in st.items()], "Fit statistics"))
@@ -288,26 +340,22 @@ def _fit_section(o: Output) -> str:
             worst = res.reindex(res["weighted_residual"].abs().sort_values(ascending=False).index).head(10)
             parts.append(table(worst, f"The 10 largest weighted residuals of {len(res)}",
                                source=f"{o.label}/residuals.csv"))
-    if o.inputs:
-        parts.append("<h3>Fit file and calibrated scenario</h3>")
-        parts += [reproduce(p, p.relative_to(o.folder).as_posix()) for p in o.inputs]
-    parts.append("</section>")
+    parts += _closing(o, "Fit file and calibrated scenario")
     return "".join(parts)
 
 
 def _plan_section(o: Output) -> str:
     s = o.data.get("plan_summary") or {}
     t = o.data.get("plan_table")
-    parts = [f'<section id="{o.anchor}"><h2>Plan for the next measurements</h2>',
-             f'<p class="meta">folder {esc(o.label)}</p>']
+    parts = _opening(o, "Plan for the next measurements")
     rows = []
     for k, v in s.items():
         if k == "picks" or isinstance(v, list):
             continue
         if isinstance(v, dict):
             v = "; ".join(f"{a}: {b}" for a, b in v.items())
-        elif k.endswith("_sd") and fd.finite(v):
-            v = f"{cell(float(v))} ({fd.spread(str(s.get('target', '')), v)})"
+        elif k.endswith("_sd") and findings.finite(v):
+            v = f"{cell(float(v))} ({findings.spread(str(s.get('target', '')), v)})"
         elif isinstance(v, float):
             v = cell(v)
         rows.append((k.replace("_", " "), str(v)))
@@ -319,10 +367,7 @@ def _plan_section(o: Output) -> str:
         parts.append(table(pd.DataFrame([p for p in s["picks"] if isinstance(p, dict)]), "Ranked picks"))
     for fig in o.figures:
         parts.append(figure(fig, "plan", f"{fig.stem} of the plan"))
-    if o.inputs:
-        parts.append("<h3>Plan files</h3>")
-        parts += [reproduce(p, p.relative_to(o.folder).as_posix()) for p in o.inputs]
-    parts.append("</section>")
+    parts += _closing(o, "Plan files")
     return "".join(parts)
 
 
@@ -344,6 +389,10 @@ def _provenance_section(project: Project, created: str) -> str:
     files = [{"file": p.relative_to(project.folder).as_posix(), "bytes": p.stat().st_size, "SHA-256": sha256(p)}
              for p in project.files_read]
     parts.append(table(pd.DataFrame(files), "Every file this report read", max_rows=1000))
+    if project.skipped:
+        left = [{"file": p.relative_to(project.folder).as_posix(), "why it was not read": why}
+                for p, why in project.skipped]
+        parts.append(table(pd.DataFrame(left), "Files found but not read", max_rows=1000))
     parts.append("</section>")
     return "".join(parts)
 
@@ -368,9 +417,9 @@ def render(project: Project, unit: str = "m/d") -> str:
     unit
         Display unit of bed fluxes (``m/d``, ``mm/d``, ``cm/d``, ``cm/s``, ``m/s``).
     """
-    fd.flux_factor(unit)
+    findings.flux_factor(unit)
     created = created_stamp()
-    found = fd.findings(project, unit)
+    found = findings.findings(project, unit)
     sections = [_findings_section(found), _cautions_section()]
     toc = [("findings", "Findings"), ("cautions", "Cautions")]
     for o in project.outputs:

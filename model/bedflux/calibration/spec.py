@@ -1,0 +1,135 @@
+"""Fit files (TOML): the scenario, the observation table and the free parameters.
+
+```
+scenario = "reach.toml"            # relative to the fit file
+observations = "field"             # an observations CSV, or a folder of field sheets
+pan_diameter = "57 cm"             # seepage-meter footprint (default 0.57 m)
+starts = 3                         # starting points (default 1)
+seed = 1
+sample = 0                         # posterior samples per walker with emcee (0: none)
+
+[[free]]
+path = "bed.kv"                    # a scenario parameter path
+low = "0.01 m/d"
+high = "50 m/d"
+start = "1 m/d"                    # default: the scenario's value
+log = true                         # default: true for kh, kv, specific_storage, leakance
+prior = "2 m/d"                    # optional Gaussian prior and its spread (both or neither)
+prior_sd = "1 m/d"
+```
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import pandas as pd
+
+from bedflux.scenario import checks, inputfile
+from bedflux.errors import InputError
+from bedflux.forward.observe import DEFAULT_PAN_DIAMETER, check_observations, read_observations
+from bedflux.scenario.spec import Scenario, load
+from bedflux.forward.sensitivity import FreeParameter, free_parameters
+from bedflux.calibration.display import dimension_of
+
+_KEYS = ["scenario", "observations", "pan_diameter", "starts", "seed", "sample", "free"]
+_FREE_KEYS = ["path", "low", "high", "start", "log", "prior", "prior_sd"]
+
+
+@dataclass
+class FitSpec:
+    """A validated fit file."""
+
+    source: str
+    scenario_path: Path
+    scenario: Scenario
+    observations: pd.DataFrame
+    observations_source: str
+    free: list[FreeParameter]
+    pan_diameter: float
+    starts: int
+    seed: int
+    sample: int
+
+
+def observations_from(path: Path, source: str) -> pd.DataFrame:
+    """An observation table from a CSV file, or reduced from a folder of field sheets."""
+    if path.is_dir():
+        from bedflux.field import reduce_field
+
+        return check_observations(reduce_field(path).observations, f"{path} (field sheets)")
+    if not path.exists():
+        raise InputError(f"observations '{path}' not found (a CSV table or a folder of field sheets)",
+                         source=source, where="observations")
+    return read_observations(path)
+
+
+def read_toml(path: Path, what: str) -> dict:
+    """A TOML file as a dict, or an InputError naming the file."""
+    return inputfile.read_toml(path, what)
+
+
+def free_tables(d: dict, source: str, scenario: Scenario | None = None) -> list[dict]:
+    """The ``[[free]]`` tables of a fit or plan file as SI dicts (units parsed by parameter).
+
+    With ``scenario``, each path is checked first, so an unknown path is reported as such.
+    """
+    raw = d.get("free")
+    if not isinstance(raw, list) or not raw:
+        raise InputError("at least one [[free]] parameter is required", source=source, where="top level")
+    out = []
+    for i, f in enumerate(raw):
+        if not isinstance(f, dict) or "path" not in f:
+            raise InputError("each [[free]] needs a path", source=source, where=f"free parameter {i + 1}")
+        if not isinstance(f["path"], str):
+            raise InputError(f"path must be text such as \"bed.kv\"; got {f['path']!r}", source=source,
+                             where=f"free parameter {i + 1}")
+        where = f"free parameter '{f['path']}'"
+        if scenario is not None:
+            try:
+                scenario.value_at(f["path"])
+            except InputError as err:
+                raise InputError(err.message, source=source, where=where) from None
+        try:
+            checks.reject_unknown(f, _FREE_KEYS, where=where)
+            item = {"path": str(f["path"])}
+            for key in ("low", "high", "start", "prior", "prior_sd"):
+                if key in f:
+                    item[key] = checks.quantity(f, key, dimension_of(item["path"]), where)
+            if "log" in f:
+                item["log"] = checks.flag(f, "log", where)
+        except InputError as err:
+            raise err.located(source=source) from None
+        out.append(item)
+    return out
+
+
+def load_fit(path: str | Path) -> FitSpec:
+    """Read and check a fit file.
+
+    Raises
+    ------
+    InputError
+        Naming the fit file and key: unknown keys, missing scenario or observations, unknown
+        parameter paths, bounds that exclude the start.
+    """
+    path = Path(path)
+    source = str(path)
+    d = read_toml(path, "fit file")
+    try:
+        checks.reject_unknown(d, _KEYS, where="top level")
+        scen_name = checks.text(d, "scenario", "top level")
+        obs_name = checks.text(d, "observations", "top level")
+        pan = checks.quantity(d, "pan_diameter", "length", "top level", default=DEFAULT_PAN_DIAMETER,
+                              low=0.0, low_inclusive=False, high=5.0)
+        starts = checks.integer(d, "starts", "top level", default=1, low=1, high=100)
+        seed = checks.integer(d, "seed", "top level", default=0, low=0)
+        sample = checks.integer(d, "sample", "top level", default=0, low=0, high=1000000)
+    except InputError as err:
+        raise err.located(source=source) from None
+    scenario = load(path.parent / scen_name)
+    observations = observations_from(path.parent / obs_name, source)
+    free_si = free_tables(d, source, scenario)
+    free = free_parameters(scenario, free_si, source)
+    return FitSpec(source, path.parent / scen_name, scenario, check_observations(observations, obs_name, scenario.transient),
+                   str(path.parent / obs_name), free, pan, starts, seed, sample)

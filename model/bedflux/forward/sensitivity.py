@@ -1,0 +1,573 @@
+"""The forward model as calibration and planning see it: parameters in, predicted data and the
+Jacobian out.
+
+``Forward`` is the one narrow interface: ``n_params``, ``n_data``, ``predict(m)``,
+``jacobian(m)`` (and ``predict_and_jacobian``), with ``m`` the vector of (transformed)
+parameters. Nothing else of the model crosses it.
+
+Sensitivities are computed with the forward factorization reused:
+
+- steady: ``dh/dp = A^-1 dR/dp`` where ``R`` is the sum of inflows at fixed heads (the residual)
+  and ``A`` its negative Jacobian in h; by the direct method (one back-substitution per parameter)
+  or the adjoint (one per observation), whichever needs fewer;
+- transient: the direct method carried along the time steps with the same factors as the
+  forward run (``(S/dt + theta A1) s1 = ...``, see :func:`_step_sensitivity`).
+
+The active set (submerged, seeping, ET branch) is held at the one the forward run chose, so the
+derivative is that of the branch the solution lies on. Parameters without an analytic derivative
+(for example a layer depth or the stage) fall back to central differences, and so do all
+parameters of a variably saturated run (zone conductivities and ``ZONE.retention.alpha`` / ``.n``).
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from bedflux.errors import InputError
+from bedflux.forward.observe import (DEFAULT_PAN_DIAMETER, build_operators, check_observations, linear_parts, predict)
+from bedflux.scenario.spec import Scenario
+from bedflux.section.discretisation import ET_LINEAR, Section, Term, discretise
+from bedflux.section.operator import half_cell_resistance
+from bedflux.section.steady import solve_steady
+
+LN10 = math.log(10.0)
+#: Derivative rules of storage parameters (no effect in a steady run).
+_STORAGE_RULES = ("zone-specific_storage", "zone-specific_yield")
+
+
+@dataclass(frozen=True)
+class FreeParameter:
+    """A free parameter: a scenario path, bounds and start (SI), transform and optional prior.
+
+    ``log`` parameters are estimated as log10 of the value.
+    """
+
+    path: str
+    low: float
+    high: float
+    start: float
+    log: bool = False
+    prior: float | None = None
+    prior_sd: float | None = None
+    note: str = ""
+
+    def internal(self, value: float) -> float:
+        """The value in the estimation space."""
+        return math.log10(value) if self.log else value
+
+    def natural(self, m: float) -> float:
+        """The SI value of an estimation-space value."""
+        return 10.0**m if self.log else m
+
+    def dnatural(self, m: float) -> float:
+        """d(natural)/d(internal)."""
+        return LN10 * 10.0**m if self.log else 1.0
+
+    def prior_spread(self) -> float | None:
+        """The prior's standard deviation in the estimation space (None without a prior).
+
+        ``prior_sd`` is given in SI; for a log parameter it is converted to decades at the
+        prior, to first order ``prior_sd / (prior ln 10)``.
+        """
+        if self.prior_sd is None:
+            return None
+        return self.prior_sd / (self.prior * LN10) if self.log else self.prior_sd
+
+
+def free_parameters(scenario: Scenario, free: list[dict], source: str = "fit") -> list[FreeParameter]:
+    """Check a list of ``{"path", "low", "high", "start", "log", "prior", "prior_sd"}`` (SI).
+
+    Conductivities, storage and leakance are log-transformed unless ``log`` says otherwise.
+
+    Raises
+    ------
+    InputError
+        Naming the parameter for an unknown path, bounds that exclude the start, a non-positive
+        bound of a log parameter, a non-positive prior spread, or a duplicate.
+    """
+    out = []
+    seen = set()
+    for i, f in enumerate(free):
+        where = f"free parameter {i + 1}"
+        if not isinstance(f, dict) or "path" not in f:
+            raise InputError("each free parameter needs a path, e.g. {path = \"bed.kv\", low = ..., high = ...}",
+                             source=source, where=where)
+        path = str(f["path"])
+        where = f"free parameter '{path}'"
+        unknown = set(f) - {"path", "low", "high", "start", "log", "prior", "prior_sd"}
+        if unknown:
+            raise InputError(f"unknown key '{sorted(unknown)[0]}'; allowed: path, low, high, start, log, prior, "
+                             "prior_sd", source=source, where=where)
+        if path in seen:
+            raise InputError("listed twice", source=source, where=where)
+        seen.add(path)
+        try:
+            current = scenario.value_at(path)
+        except InputError as err:
+            raise InputError(err.message, source=source, where=where) from None
+        prop = path.rsplit(".", 1)[-1]
+        default_log = prop in ("kh", "kv", "specific_storage", "leakance")
+        log = bool(f.get("log", default_log))
+        try:
+            low, high = float(f["low"]), float(f["high"])
+        except (KeyError, TypeError, ValueError):
+            raise InputError("needs numeric low and high bounds (SI)", source=source, where=where) from None
+        start = float(f.get("start", current))
+        if not low < high:
+            raise InputError(f"low = {low:g} must be below high = {high:g}", source=source, where=where)
+        if not low <= start <= high:
+            raise InputError(f"the start {start:g} lies outside the bounds [{low:g}, {high:g}]",
+                             source=source, where=where)
+        if log and low <= 0:
+            raise InputError(f"a log-transformed parameter needs low > 0; got {low:g}", source=source, where=where)
+        prior = f.get("prior")
+        prior_sd = f.get("prior_sd")
+        if (prior is None) != (prior_sd is None):
+            raise InputError("give both prior and prior_sd, or neither", source=source, where=where)
+        if prior_sd is not None and float(prior_sd) <= 0:
+            raise InputError("prior_sd must be > 0", source=source, where=where)
+        if prior is not None and log and float(prior) <= 0:
+            raise InputError("the prior of a log parameter must be > 0", source=source, where=where)
+        if prior is not None and not low <= float(prior) <= high:
+            raise InputError(f"the prior {float(prior):g} lies outside the bounds [{low:g}, {high:g}]",
+                             source=source, where=where)
+        try:
+            scenario.with_values({path: start})
+        except InputError as err:
+            raise InputError(f"start = {start:g} (SI) is not a value the scenario allows: {err.message}",
+                             source=source, where=where) from None
+        note = ""
+        for name in ("low", "high"):
+            bound = low if name == "low" else high
+            allowed = _allowed_bound(scenario, path, start, bound, log)
+            if allowed != bound:
+                note += f"{name} bound narrowed from {bound:g} to {allowed:g}, the scenario's limit; "
+                low, high = (allowed, high) if name == "low" else (low, allowed)
+        out.append(FreeParameter(path, low, high, start, log,
+                                 None if prior is None else float(prior),
+                                 None if prior_sd is None else float(prior_sd), note.rstrip("; ")))
+    if not out:
+        raise InputError("no free parameters", source=source)
+    return out
+
+
+def _allowed_bound(scenario: Scenario, path: str, start: float, bound: float, log: bool) -> float:
+    """``bound`` if the scenario accepts it, else the value closest to it that it accepts (by
+    bisection between the start, which it accepts, and the bound)."""
+    def ok(v: float) -> bool:
+        try:
+            scenario.with_values({path: v})
+            return True
+        except InputError:
+            return False
+
+    if ok(bound):
+        return bound
+    a, b = (math.log10(start), math.log10(bound)) if log else (start, bound)
+    for _ in range(60):
+        mid = 0.5 * (a + b)
+        if ok(10.0**mid if log else mid):
+            a = mid
+        else:
+            b = mid
+    return 10.0**a if log else a
+
+
+# ------------------------------------------------------------------------------------------
+# derivatives of the residual at fixed heads
+
+@dataclass
+class DerivativeRule:
+    """How one parameter enters the discrete equations, and so which analytic derivative applies."""
+
+    # zone-kh, zone-kv, zone-specific_storage, zone-specific_yield, recharge, riparian, side-head,
+    # leakance, numeric (central differences)
+    name: str
+    zone: int = -1
+    side: str = ""
+
+
+def derivative_rule(scenario: Scenario, path: str) -> DerivativeRule:
+    """Which analytic derivative applies to a parameter path (``numeric``: central differences)."""
+    parts = path.split(".")
+    names = scenario.zone_names()
+    if len(parts) == 2 and parts[0] in names and parts[1] in ("kh", "kv", "specific_storage", "specific_yield"):
+        return DerivativeRule(f"zone-{parts[1]}", zone=names.index(parts[0]))
+    if path == "recharge.rate":
+        return DerivativeRule("recharge")
+    if len(parts) == 3 and parts[0] == "riparian" and parts[2] == "max_rate":
+        return DerivativeRule("riparian", zone=int(parts[1]))
+    if len(parts) == 3 and parts[0] == "sides" and parts[2] == "head":
+        return DerivativeRule("side-head", side=parts[1])
+    if path == "stream.leakance":
+        return DerivativeRule("leakance")
+    return DerivativeRule("numeric")
+
+
+def _share(section: Section, prop: str, zone: int, value: float) -> np.ndarray:
+    """``(dK/dp) (p/K)`` of every cell (flat): 1 inside the zone, 0 outside, and the share the
+    zone has in the averaged conductivity of a cell that straddles its boundary."""
+    m = section.materials
+    return (m.derivative(prop, zone) * value / getattr(m, prop)).ravel()
+
+
+def _top_position(section: Section, cols: np.ndarray) -> np.ndarray:
+    """Flat (row-major) position of the top cell of each column in ``cols``."""
+    return section.grid.top_row[cols] * section.grid.nx + cols
+
+
+def residual_derivative(section: Section, terms: list[Term], u: np.ndarray, rule: DerivativeRule, value: float
+                        ) -> tuple[np.ndarray, np.ndarray | None]:
+    """``dR/dp`` at fixed heads (per unknown) and ``d(conductance)/dp`` of the stream-top entries
+    (or None).
+
+    ``R`` is the sum of inflows into each cell; ``value`` is the parameter's current SI value.
+    """
+    n = section.n
+    dR = np.zeros(n)
+    dconductance_top = None
+    g = section.grid
+    m = section.materials
+    if rule.name in ("zone-kh", "zone-kv"):
+        horizontal = rule.name == "zone-kh"
+        f = section.hfaces if horizontal else section.vfaces
+        if horizontal:
+            res = half_cell_resistance(np.broadcast_to(g.dx[None, :], g.active.shape), m.kh).ravel()
+        else:
+            res = half_cell_resistance(g.thickness, m.kv).ravel()
+        r_lo, r_hi = res[f.lo_pos], res[f.hi_pos]
+        rho = _share(section, "kh" if horizontal else "kv", rule.zone, value)
+        share = r_lo * rho[f.lo_pos] + r_hi * rho[f.hi_pos]
+        dC = f.conductance * share / (r_lo + r_hi) / value
+        dF = dC * (u[f.lo] - u[f.hi])
+        dR -= np.bincount(f.lo, weights=dF, minlength=n)
+        dR += np.bincount(f.hi, weights=dF, minlength=n)
+        for t in terms:
+            if t.face == "cell" or not np.any(t.conductance > 0):
+                continue
+            if horizontal and t.face in ("left", "right"):
+                col = 0 if t.face == "left" else g.nx - 1
+                dconductance = t.conductance * rho[t.column_or_row * g.nx + col] / value
+            elif not horizontal and t.face == "bottom":
+                dconductance = t.conductance * rho[(g.nz - 1) * g.nx + t.column_or_row] / value
+            elif not horizontal and t.face == "top":
+                half = section.top_half_resistance[t.column_or_row]
+                width = g.dx[t.column_or_row] if t.width is None else t.width
+                frac = half * t.conductance / width  # half / (half + 1/leakance)
+                dconductance = t.conductance * frac * rho[_top_position(section, t.column_or_row)] / value
+                if t.kind == "stream":
+                    dconductance_top = dconductance
+            else:
+                continue
+            dR += np.bincount(t.cells, weights=dconductance * (t.r / t.conductance - u[t.cells]), minlength=n)
+        return dR, dconductance_top
+    if rule.name == "leakance":
+        for t in terms:
+            if t.kind == "stream" and t.face == "top":
+                inv = 1.0 / value
+                dconductance = t.conductance * (inv / (section.top_half_resistance[t.column_or_row] + inv)) / value
+                dR += np.bincount(t.cells, weights=dconductance * (t.r / t.conductance - u[t.cells]), minlength=n)
+                dconductance_top = dconductance
+        return dR, dconductance_top
+    if rule.name == "recharge":
+        for t in terms:
+            if t.kind == "recharge":
+                dR += np.bincount(t.cells, weights=g.dx[t.column_or_row] if t.width is None else t.width,
+                                  minlength=n)
+        return dR, None
+    if rule.name == "riparian":
+        for t in terms:
+            if t.kind == "evapotranspiration" and value > 0:
+                sel = section.et_zone == rule.zone
+                dR += np.bincount(t.cells[sel], weights=t.inflow(u)[sel] / value, minlength=n)
+        return dR, None
+    if rule.name == "side-head":
+        for t in terms:
+            if t.face == rule.side and t.kind == rule.side:
+                dR += np.bincount(t.cells, weights=t.conductance, minlength=n)
+        return dR, None
+    # storage parameters do not enter the steady residual
+    return dR, None
+
+
+# ------------------------------------------------------------------------------------------
+
+@dataclass
+class _StepEnd:
+    """What the transient Jacobian carries from one step to the next, at the end of the last step:
+    the head sensitivities ``dh/dp`` (per unknown and parameter), the predicted data and their
+    Jacobian (None without analytic parameters)."""
+
+    head_sensitivity: np.ndarray
+    predicted: np.ndarray
+    jacobian: np.ndarray | None
+
+
+@dataclass
+class Forward:
+    """Predicted data and Jacobian of an observation table for free scenario parameters.
+
+    Parameters
+    ----------
+    scenario
+        The base scenario (free values are replaced through ``Scenario.with_values``).
+    observations
+        A table with columns ``kind, x, depth, time, value, sigma`` (SI); ``time`` may be empty
+        in a steady run.
+    free
+        The free parameters.
+    pan_diameter
+        Seepage-meter pan diameter (m) for the footprint average.
+    """
+
+    scenario: Scenario
+    observations: pd.DataFrame
+    free: list[FreeParameter]
+    pan_diameter: float = DEFAULT_PAN_DIAMETER
+    fd_step: float = 1e-4
+    source: str = "observations"
+    n_forward_runs: int = field(default=0, init=False)
+    n_sensitivity_solves: int = field(default=0, init=False)
+
+    def __post_init__(self):
+        self.observations = check_observations(self.observations, self.source, self.scenario.transient)
+        self.rules = [derivative_rule(self.scenario, p.path) for p in self.free]
+        # every observation must lie in the section (checked once, before any fitting)
+        build_operators(discretise(self.scenario_at(self.start())), self.observations, self.pan_diameter, self.source)
+        if self.scenario.transient:
+            t = self.observations["time"]
+            late = t > self.scenario.time.end
+            if late.any() or (t < 0).any():
+                i = int(np.flatnonzero(late | (t < 0))[0])
+                raise InputError(f"time = {t.iloc[i]:g} s is outside the run [0, {self.scenario.time.end:g}] s",
+                                 source=self.source, where=f"row {i + 2}")
+
+    @property
+    def n_params(self) -> int:
+        return len(self.free)
+
+    @property
+    def n_data(self) -> int:
+        return len(self.observations)
+
+    def start(self) -> np.ndarray:
+        """Starting values in the estimation space."""
+        return np.array([p.internal(p.start) for p in self.free])
+
+    def scenario_at(self, m: np.ndarray) -> Scenario:
+        """The scenario with the free parameters set to ``m`` (estimation space)."""
+        return self.scenario.with_values({p.path: p.natural(v) for p, v in zip(self.free, m)})
+
+    def predict(self, m: np.ndarray) -> np.ndarray:
+        """Simulated observations at ``m``."""
+        return self._run(np.asarray(m, dtype=float), analytic=[])[0]
+
+    def jacobian(self, m: np.ndarray) -> np.ndarray:
+        """``d(data)/d(m)`` (n_data x n_params)."""
+        return self.predict_and_jacobian(m)[1]
+
+    def predict_and_jacobian(self, m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Simulated observations and the Jacobian in one pass (analytic where available)."""
+        m = np.asarray(m, dtype=float)
+        # variably saturated runs: every column by central differences
+        analytic = [] if self.scenario.variably_saturated else [
+            j for j, rule in enumerate(self.rules) if rule.name != "numeric"
+            and not (rule.name in _STORAGE_RULES and not self.scenario.transient)]
+        d, J = self._run(m, analytic)
+        for j, rule in enumerate(self.rules):
+            if j in analytic:
+                continue
+            if rule.name in _STORAGE_RULES and not self.scenario.transient:
+                J[:, j] = 0.0  # storage does not act in a steady run
+            else:
+                J[:, j] = self._central_difference(m, j)
+        return d, J
+
+    def jacobian_fd(self, m: np.ndarray, step: float | None = None) -> np.ndarray:
+        """Central-difference Jacobian (a check and a fallback); ``step`` is relative (absolute in
+        the exponent of log parameters)."""
+        m = np.asarray(m, dtype=float)
+        return np.column_stack([self._central_difference(m, j, step) for j in range(self.n_params)])
+
+    def _central_difference(self, m: np.ndarray, j: int, step: float | None = None) -> np.ndarray:
+        rel = step or self.fd_step
+        p = self.free[j]
+        # log10 parameters: an absolute step in the exponent; others: relative to the value
+        h = rel if p.log else rel * (abs(m[j]) if m[j] != 0 else (p.high - p.low))
+        up, dn = m.copy(), m.copy()
+        up[j] += h
+        dn[j] -= h
+        return (self.predict(up) - self.predict(dn)) / (2 * h)
+
+    # ----------------------------------------------------------------------------------
+    def _run(self, m: np.ndarray, analytic: list[int]) -> tuple[np.ndarray, np.ndarray]:
+        scen = self.scenario_at(m)
+        section = discretise(scen)
+        ops = build_operators(section, self.observations, self.pan_diameter, self.source)
+        self.n_forward_runs += 1
+        values = [p.natural(v) for p, v in zip(self.free, m)]
+        chain = np.array([p.dnatural(v) for p, v in zip(self.free, m)])
+        J = np.zeros((self.n_data, self.n_params))
+        if scen.variably_saturated:
+            return self._variably_saturated(section, ops), J
+        if not scen.transient:
+            sol = solve_steady(section, reuse=True)
+            d = predict(section, ops, sol.u, sol.terms, 0.0, self.source)
+            if analytic:
+                Jsub = self._steady_jacobian(section, ops, sol, [self.rules[j] for j in analytic],
+                                             [values[j] for j in analytic])
+                J[:, analytic] = Jsub * chain[analytic][None, :]
+            return d, J
+        d, Jsub = self._transient(section, ops, [self.rules[j] for j in analytic], [values[j] for j in analytic])
+        if analytic:
+            J[:, analytic] = Jsub * chain[analytic][None, :]
+        return d, J
+
+    def _steady_jacobian(self, section: Section, ops, sol, rules: list[DerivativeRule], values: list[float]
+                         ) -> np.ndarray:
+        W, w_top, flux_per_conductance, top = linear_parts(section, ops, sol.u, sol.terms)
+        dR = np.zeros((section.n, len(rules)))
+        E = np.zeros((ops.n, len(rules)))
+        for j, (rule, v) in enumerate(zip(rules, values)):
+            dR[:, j], dconductance = residual_derivative(section, sol.terms, sol.u, rule, v)
+            if dconductance is not None and w_top.shape[1]:
+                E[:, j] = w_top @ (dconductance * flux_per_conductance)
+        if len(rules) <= ops.n:
+            X = sol.factor.solve(dR)
+            self.n_sensitivity_solves += len(rules)
+            return W @ X + E
+        lam = sol.factor.solve(W.T.toarray())
+        self.n_sensitivity_solves += ops.n
+        return lam.T @ dR + E
+
+    def _variably_saturated(self, section: Section, ops) -> np.ndarray:
+        """Predicted data of a variably saturated run (Richards' equation), its steps landing on
+        the observation times."""
+        from bedflux.section.richards_run import states_at
+
+        times = ops.table["time"].to_numpy() if section.scenario.transient else np.zeros(ops.n)
+        wanted = np.unique(times)
+        d = np.empty(ops.n)
+        for t, (u, terms, view) in zip(wanted, states_at(section, wanted)):
+            at = times == t
+            d[at] = predict(view, ops, u, terms, float(t), self.source)[at]
+        return d
+
+    def _transient(self, section: Section, ops, rules: list[DerivativeRule], values: list[float]):
+        from bedflux.section.transient import run_transient
+
+        times = ops.table["time"].to_numpy()
+        P = len(rules)
+        d = np.full(ops.n, np.nan)
+        J = np.zeros((ops.n, P))
+        last = _StepEnd(np.zeros((section.n, P)), np.full(ops.n, np.nan), None)
+
+        def observe(u, s, terms, t):
+            vals = predict(section, ops, u, terms, t)
+            if not P:
+                return vals, None
+            W, w_top, flux_per_conductance, top = linear_parts(section, ops, u, terms)
+            dJ = W @ s
+            for j, (rule, v) in enumerate(zip(rules, values)):
+                if rule.name in ("zone-kv", "leakance") and w_top.shape[1]:
+                    _, dconductance = residual_derivative(section, terms, u, rule, v)
+                    if dconductance is not None:
+                        dJ[:, j] += w_top @ (dconductance * flux_per_conductance)
+            return vals, dJ
+
+        def on_start(u, terms, init):
+            s = np.zeros((section.n, P))
+            if P and init is not None:
+                dR = np.column_stack([residual_derivative(section, init.terms, u, rule, v)[0]
+                                      for rule, v in zip(rules, values)])
+                s = init.factor.solve(dR)
+            vals, dJ = observe(u, s, terms, 0.0)
+            at0 = times <= 0.0
+            if at0.any():
+                d[at0] = vals[at0]
+                if P:
+                    J[at0] = dJ[at0]
+            last.head_sensitivity, last.predicted, last.jacobian = s, vals, dJ
+
+        def on_step(info):
+            s1 = (_step_sensitivity(section, info, last.head_sensitivity, rules, values) if P
+                  else last.head_sensitivity)
+            self.n_sensitivity_solves += P
+            inside = (times > info.t0) & (times <= info.t1 + 1e-9 * max(info.t1, 1.0))
+            v1, j1 = observe(info.u1, s1, info.terms1, info.t1)
+            if inside.any():
+                a = ((times[inside] - info.t0) / info.dt)[:, None]
+                v0, j0 = last.predicted, last.jacobian
+                d[inside] = ((1 - a[:, 0]) * v0[inside] + a[:, 0] * v1[inside])
+                if P:
+                    J[inside] = (1 - a) * j0[inside] + a * j1[inside]
+            last.head_sensitivity, last.predicted, last.jacobian = s1, v1, j1
+
+        run_transient(section, on_start=on_start, on_step=on_step)
+        return d, J
+
+
+def _lag_derivative(section: Section, factor: float, t: float, u_lag: np.ndarray) -> np.ndarray:
+    """``dR/du_lag`` per unknown: ET of a daily cycle (mean ``factor`` over the step) taken at the
+    heads of the step's start."""
+    out = np.zeros(section.n)
+    if not section.et_cells.size or not section.et_cycle.any():
+        return out
+    linear = section.et_cycle & (section.et_branch_at(u_lag) == ET_LINEAR)
+    coef = np.where(linear, -factor * section.et_rate_at(t) / section.et_ext, 0.0)
+    return np.bincount(section.et_cells, weights=coef, minlength=section.n)
+
+
+def _step_sensitivity(section: Section, info, s0: np.ndarray, rules: list[DerivativeRule],
+                      values: list[float]) -> np.ndarray:
+    """Carry the sensitivities over one step with the step's own factorization.
+
+    (S/dt + theta A1) s1 = S_el/dt s0 + S_wt/dt s0_wt - dfill/dh0 s0 + dR/du_lag s0
+                           + theta dR1/dp + (1 - theta) (dR0/dp - A0 s0)
+                           - dS_el/dp (h1 - h0)/dt - dS_wt/dp (h1 - h0_wt)/dt - dfill/dp
+
+    (the ET of a daily cycle is taken at the heads of the step's start in the terms of both ends)
+    """
+    th, dt = info.theta, info.dt
+    g = section.grid
+    clipped = info.u0_wt != info.u0  # water table held at the ground at the start: fixed there
+    s0_wt = np.where(clipped[:, None], 0.0, s0)
+    rhs = (info.elastic / dt)[:, None] * s0 + (info.water_table / dt)[:, None] * s0_wt
+    rhs += _lag_derivative(section, info.et_factor, info.t1, info.u0)[:, None] * s0
+    if info.filled.any():
+        top = section.top_cells[info.filled]
+        specific_yield = section.materials.specific_yield[g.top_row[info.filled], np.nonzero(info.filled)[0]]
+        ground_u = g.ground[info.filled] - section.h_ref
+        below = (ground_u - info.u0[top]) > 0
+        coef = np.zeros(section.n)
+        coef[top] = np.where(below, specific_yield * g.dx[info.filled] / dt, 0.0)
+        rhs += coef[:, None] * s0
+    if th != 1.0:
+        diag0 = np.zeros(section.n)
+        for t in info.terms0:
+            diag0 += np.bincount(t.cells, weights=t.conductance, minlength=section.n)
+        rhs -= (1.0 - th) * (section.L @ s0 + diag0[:, None] * s0)
+    for j, (rule, v) in enumerate(zip(rules, values)):
+        col = th * residual_derivative(section, info.terms1, info.u1, rule, v)[0]
+        if th != 1.0:
+            col += (1.0 - th) * residual_derivative(section, info.terms0, info.u0, rule, v)[0]
+        if rule.name == "zone-specific_storage":
+            dstorage = section.materials.derivative("specific_storage", rule.zone)[g.active]
+            col -= dstorage * section.cell_volume * (info.u1 - info.u0) / dt
+        elif rule.name == "zone-specific_yield":
+            dyield = section.materials.derivative("specific_yield", rule.zone)[g.top_row, np.arange(g.nx)]
+            dS = np.zeros(section.n)
+            wt = info.water_table
+            sel = (dyield > 0) & (wt[section.top_cells] > 0)
+            dS[section.top_cells[sel]] = g.dx[sel] * dyield[sel]
+            col -= dS * (info.u1 - info.u0_wt) / dt
+            if info.filled.any():
+                fz = info.filled & (dyield > 0)
+                if fz.any():
+                    cells = section.top_cells[fz]
+                    col[cells] -= info.fill[cells] * dyield[fz] / section.top_specific_yield[fz]
+        rhs[:, j] += col
+    return info.factor.solve(rhs)

@@ -1,0 +1,257 @@
+"""Per-cell material properties from the scenario's zones, or from arrays a user passes.
+
+The first zone fills the domain; each later zone overrides the part of the domain it covers: a
+layer of a given thickness below the ground (over an x range when given) or a box in x and z.
+A layer's top is the ground of its column (the top face of the column's cut top cell), so a
+layer is exactly its thickness in every column, whatever the ground slope.
+
+Cells that straddle zone boundaries get the volume fractions of the zones they hold, and the
+averages that match how the pieces are arranged. Each column is cut into *strips* at the zone x
+limits that fall inside it; inside a strip the zones lie in horizontal layers, so
+
+    kv of a strip = harmonic mean over its layers (layers in series for vertical flow)
+    kh of a strip = arithmetic mean over its layers (layers side by side for horizontal flow)
+
+and the strips of a column stand side by side, so
+
+    kv of the cell = arithmetic mean over its strips, weighted by width
+    kh of the cell = harmonic mean over its strips, weighted by width
+
+Storage (specific storage and specific yield) and porosity are volume-weighted means. A cell inside one zone keeps that
+zone's values exactly.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Mapping
+
+import numpy as np
+
+from bedflux.errors import InputError
+from bedflux.section.grid import Grid
+from bedflux.scenario.spec import K_MAX, K_MIN, Scenario
+
+PROPERTIES = ("kh", "kv", "specific_storage", "specific_yield", "porosity")
+#: Property field names that were renamed (old -> new).
+RENAMED_FIELDS = {"ss": "specific_storage", "sy": "specific_yield"}
+
+
+@dataclass(frozen=True)
+class ZoneCover:
+    """Where the zones lie: the section cut into strips, and the owner of each height interval.
+
+    Attributes
+    ----------
+    strip_col, strip_edges
+        Column of each strip and the strip edges (m); strips of a column are contiguous.
+    breaks
+        ``(n_strips, K + 1)`` increasing elevations (from -inf to +inf) that split each strip into
+        intervals of one zone.
+    owner
+        ``(n_strips, K)`` index of the zone that owns each interval.
+    """
+
+    strip_col: np.ndarray
+    strip_edges: np.ndarray
+    breaks: np.ndarray
+    owner: np.ndarray
+
+    @property
+    def strip_width(self) -> np.ndarray:
+        return np.diff(self.strip_edges)
+
+    def cell_extent(self, grid: Grid) -> tuple[np.ndarray, np.ndarray]:
+        """``(nz, n_strips)`` bottom and top of each cell in each strip (inactive cells: their row)."""
+        bottom = np.broadcast_to(grid.z_edges[1:, None], (grid.nz, self.strip_col.size))
+        top_all = np.where(grid.active, grid.cell_bottom + grid.thickness, grid.z_edges[:-1, None])
+        return bottom, top_all[:, self.strip_col]
+
+    def overlaps(self, grid: Grid):
+        """Yield ``(j, fraction)``: the ``(nz, n_strips)`` fraction of each cell's height in the
+        strip that lies in interval ``j`` (owned by ``owner[:, j]``)."""
+        bottom, top = self.cell_extent(grid)
+        height = top - bottom
+        for j in range(self.owner.shape[1]):
+            lo, hi = self.breaks[:, j], self.breaks[:, j + 1]
+            ov = np.minimum(top, hi[None, :]) - np.maximum(bottom, lo[None, :])
+            yield j, np.clip(ov, 0.0, None) / height
+
+    def fraction(self, grid: Grid, zone: int) -> np.ndarray:
+        """``(nz, n_strips)`` volume fraction of each cell-strip that lies in ``zone``."""
+        out = np.zeros((grid.nz, self.strip_col.size))
+        for j, f in self.overlaps(grid):
+            out += np.where(self.owner[None, :, j] == zone, f, 0.0)
+        return out
+
+    def to_columns(self, grid: Grid, per_strip: np.ndarray) -> np.ndarray:
+        """Width-weighted sum over the strips of each column: ``(nz, n_strips) -> (nz, nx)``."""
+        w = (self.strip_width / grid.dx[self.strip_col])[None, :]
+        starts = np.flatnonzero(np.r_[True, np.diff(self.strip_col) != 0])
+        return np.add.reduceat(per_strip * w, starts, axis=1)
+
+
+def zone_cover(scenario: Scenario, grid: Grid) -> ZoneCover:
+    """Cut the section into strips at the zone x limits and find the owner of each height interval."""
+    zones = scenario.zones
+    x0, x1 = grid.x_edges[0], grid.x_edges[-1]
+    cuts = [v for z in zones[1:] if z.x is not None for v in z.x if x0 < v < x1]
+    xs = np.unique(np.concatenate([grid.x_edges, np.asarray(cuts, dtype=float)]))
+    mid = 0.5 * (xs[1:] + xs[:-1])
+    col = np.clip(np.searchsorted(grid.x_edges, mid, side="right") - 1, 0, grid.nx - 1)
+    ground = grid.ground[col]
+    ns = col.size
+    # each later zone as a height interval [lo, hi] per strip (empty where it does not apply)
+    lows, highs = [], []
+    for z in zones[1:]:
+        applies = np.ones(ns, dtype=bool) if z.x is None else (mid >= z.x[0]) & (mid <= z.x[1])
+        if z.depth is not None:
+            lo, hi = ground - z.depth, np.full(ns, np.inf)
+        else:
+            lo, hi = np.full(ns, z.z[0]), np.full(ns, z.z[1])
+        lows.append(np.where(applies, lo, np.inf))
+        highs.append(np.where(applies, hi, np.inf))
+    lows_a = np.array(lows).reshape(-1, ns).T
+    highs_a = np.array(highs).reshape(-1, ns).T
+    breaks = np.sort(np.hstack([np.full((ns, 1), -np.inf), lows_a, highs_a, np.full((ns, 1), np.inf)]), axis=1)
+    a, b = breaks[:, :-1], breaks[:, 1:]
+    with np.errstate(invalid="ignore"):
+        probe = np.where(np.isfinite(a) & np.isfinite(b), 0.5 * (a + b),
+                         np.where(np.isfinite(b), b - 1.0, np.where(np.isfinite(a), a + 1.0, 0.0)))
+    owner = np.zeros(probe.shape, dtype=np.int16)
+    for i in range(1, len(zones)):
+        inside = (probe >= lows_a[:, i - 1:i]) & (probe <= highs_a[:, i - 1:i])
+        owner = np.where(inside, i, owner)
+    return ZoneCover(col, xs, breaks, owner)
+
+
+def _require_cover(scenario: Scenario, grid: Grid, covered: np.ndarray) -> None:
+    """Raise if a zone covers no part of any active cell."""
+    for i, zone in enumerate(scenario.zones[1:], start=1):
+        if not covered[i]:
+            raise InputError(f"zone '{zone.name}' covers no cell of the grid, not even in part (check its x, z "
+                             f"or depth against [grid] x = [{grid.x_edges[0]:g}, {grid.x_edges[-1]:g}] and the ground)",
+                             source=scenario.source, where=f"zone '{zone.name}'")
+
+
+@dataclass(frozen=True)
+class Materials:
+    """``(nz, nx)`` arrays of kh, kv (m/s), specific storage (1/m), specific yield and porosity (-) and
+    the zone of each cell.
+
+    ``zone`` is the zone at the cell centre (for figures); the properties are the averages over
+    the zones a cell holds (see the module docstring). ``cover`` and ``table`` keep what is needed
+    for :meth:`derivative`; ``replaced`` names the properties given as user arrays.
+    """
+
+    kh: np.ndarray
+    kv: np.ndarray
+    specific_storage: np.ndarray
+    specific_yield: np.ndarray
+    porosity: np.ndarray
+    zone: np.ndarray
+    zone_names: tuple[str, ...]
+    grid: Grid | None = None
+    cover: ZoneCover | None = None
+    table: Mapping[str, np.ndarray] | None = None
+    replaced: frozenset = frozenset()
+    _memo: dict = field(default_factory=dict, repr=False, compare=False)
+
+    def derivative(self, prop: str, zone: int) -> np.ndarray:
+        """``(nz, nx)`` derivative of each cell's ``prop`` with respect to the value of ``zone``
+        (chain rule through the harmonic and arithmetic means); 0 where a user array replaced it."""
+        if (prop, zone) not in self._memo:
+            self._memo[(prop, zone)] = self._derivative(prop, zone)
+        return self._memo[(prop, zone)]
+
+    def _derivative(self, prop: str, zone: int) -> np.ndarray:
+        g = self.grid
+        if prop in self.replaced:
+            return np.zeros((g.nz, g.nx))
+        f = self.cover.fraction(g, zone)
+        value = self.table[prop][zone]
+        if prop == "kv":
+            strip = _strip_average(self.cover, g, self.table["kv"], harmonic=True)
+            return self.cover.to_columns(g, strip**2 * f) / value**2
+        if prop == "kh":
+            strip = _strip_average(self.cover, g, self.table["kh"], harmonic=False)
+            return self.kh**2 * self.cover.to_columns(g, f / strip**2)
+        return self.cover.to_columns(g, f)
+
+
+def _strip_average(cover: ZoneCover, grid: Grid, values: np.ndarray, harmonic: bool) -> np.ndarray:
+    """``(nz, n_strips)`` harmonic or arithmetic mean of ``values`` (per zone) over each cell-strip."""
+    total = np.zeros((grid.nz, cover.strip_col.size))
+    v = 1.0 / values if harmonic else values
+    for j, f in cover.overlaps(grid):
+        total += f * v[cover.owner[:, j]][None, :]
+    return 1.0 / total if harmonic else total
+
+
+def _centre_zone(cover: ZoneCover, grid: Grid) -> np.ndarray:
+    """Zone at the centre of each cell (in the strip that holds the column centre)."""
+    edges = cover.strip_edges
+    xc = grid.xc[cover.strip_col]
+    holds = (edges[:-1] <= xc) & (xc < edges[1:])
+    centre_strip = np.zeros(grid.nx, dtype=np.int64)
+    centre_strip[cover.strip_col[holds]] = np.flatnonzero(holds)
+    zc = np.where(grid.active, grid.z_centre, 0.5 * (grid.z_edges[1:, None] + grid.z_edges[:-1, None]))
+    br = cover.breaks[centre_strip]  # (nx, K + 1)
+    k = np.sum(zc.T[:, :, None] >= br[:, None, 1:-1], axis=2)  # (nx, nz) interval index
+    return np.take_along_axis(cover.owner[centre_strip], k, axis=1).T.astype(np.int16)
+
+
+def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] | None = None) -> Materials:
+    """Per-cell properties.
+
+    Parameters
+    ----------
+    scenario, grid
+        The scenario and its grid.
+    fields
+        Optional ``(nz, nx)`` arrays (SI) for any of kh, kv, specific_storage, specific_yield and porosity
+        that replace the zone values:
+        a heterogeneous field from the Python API. Values of inactive cells are ignored.
+
+    Raises
+    ------
+    InputError
+        If a zone covers no part of the grid, or an array has the wrong shape or a non-positive or
+        implausible conductivity.
+    """
+    cover = zone_cover(scenario, grid)
+    table = {p: np.array([getattr(z, p) for z in scenario.zones], dtype=float) for p in PROPERTIES}
+    sums = {p: np.zeros((grid.nz, cover.strip_col.size)) for p in PROPERTIES}
+    active = grid.active[:, cover.strip_col]
+    covered = np.zeros(len(scenario.zones), dtype=bool)
+    for j, f in cover.overlaps(grid):
+        own = cover.owner[:, j]
+        covered[np.unique(own[((f > 0) & active).any(axis=0)])] = True
+        for p in PROPERTIES:
+            v = 1.0 / table[p][own] if p == "kv" else table[p][own]
+            sums[p] += f * v[None, :]
+    _require_cover(scenario, grid, covered)
+    arrays = {"kv": cover.to_columns(grid, 1.0 / sums.pop("kv")),
+              "kh": 1.0 / cover.to_columns(grid, 1.0 / sums.pop("kh"))}
+    for p, s in sums.items():
+        arrays[p] = cover.to_columns(grid, s)
+    for name, value in (fields or {}).items():
+        if name in RENAMED_FIELDS:
+            raise InputError(f"field '{name}' was renamed; pass it as '{RENAMED_FIELDS[name]}'", where="fields")
+        if name not in PROPERTIES:
+            raise InputError(f"unknown property field '{name}'; allowed: {', '.join(PROPERTIES)}", where="fields")
+        a = np.asarray(value, dtype=float)
+        if a.shape != (grid.nz, grid.nx):
+            raise InputError(f"field '{name}' has shape {a.shape}; the grid is (nz, nx) = {(grid.nz, grid.nx)}",
+                             where="fields")
+        vals = a[grid.active]
+        if not np.all(np.isfinite(vals)):
+            raise InputError(f"field '{name}' has non-finite values in active cells", where="fields")
+        if name in ("kh", "kv") and (vals.min() < K_MIN or vals.max() > K_MAX):
+            raise InputError(f"field '{name}' must lie in [{K_MIN:g}, {K_MAX:g}] m/s; got "
+                             f"{vals.min():.3g} to {vals.max():.3g}", where="fields")
+        if name in ("specific_storage", "specific_yield", "porosity") and vals.min() < 0:
+            raise InputError(f"field '{name}' must be >= 0", where="fields")
+        arrays[name] = np.where(grid.active, a, arrays[name])
+    return Materials(arrays["kh"], arrays["kv"], arrays["specific_storage"], arrays["specific_yield"],
+                     arrays["porosity"], _centre_zone(cover, grid), tuple(z.name for z in scenario.zones), grid,
+                     cover, table, frozenset(fields or {}))
