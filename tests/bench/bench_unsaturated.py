@@ -83,7 +83,7 @@ def flood():
 
     path = ROOT / "scenarios/flood_pulse_unsaturated.toml"
     lin_t0 = time.perf_counter()
-    bedflux.section.simulate(bedflux.load(ROOT / "scenarios/flood_pulse.toml"))
+    bedflux.simulate(bedflux.load(ROOT / "scenarios/flood_pulse.toml"))
     lin = time.perf_counter() - lin_t0
     ds, secs, err = run(path)
     it = ds["step_iterations"].values

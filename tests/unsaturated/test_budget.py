@@ -25,7 +25,7 @@ FLOOD = {
 
 @pytest.fixture(scope="module")
 def flood():
-    return bedflux.section.simulate(bedflux.Scenario.from_dict(FLOOD))
+    return bedflux.simulate(bedflux.Scenario.from_dict(FLOOD))
 
 
 def test_every_step_closes(flood):
@@ -81,7 +81,7 @@ RIPARIAN = {
 
 def test_root_uptake_budget_and_limits():
     with pytest.warns(UserWarning, match="extinction_depth is not used"):
-        ds = bedflux.section.simulate(bedflux.Scenario.from_dict(RIPARIAN))
+        ds = bedflux.simulate(bedflux.Scenario.from_dict(RIPARIAN))
     assert np.max(np.abs(ds["step_closure"].values)) < 1e-8
     i = list(ds["term"].values).index("evapotranspiration")
     uptake = ds["outflow"].values[1:, i]
@@ -106,7 +106,7 @@ def test_infiltration_excess_ponds():
          "zone": [{"name": "soil", "kh": "2 mm/d", "specific_storage": 0.0, "retention": LOAM}],
          "sides": {"bottom": {"head": -2.5}}, "recharge": {"rate": "50 mm/d"},
          "time": {"end": "20 d", "step": "6 h", "output_every": "5 d"}}
-    ds = bedflux.section.simulate(bedflux.Scenario.from_dict(d))
+    ds = bedflux.simulate(bedflux.Scenario.from_dict(d))
     last = ds.isel(time=-1)
     assert np.all(last["ponding"].values > 0.9 * (50e-3 - 2e-3) / 86400)
     assert np.max(np.abs(ds["step_closure"].values)) < 1e-8

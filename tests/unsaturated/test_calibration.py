@@ -80,6 +80,6 @@ def test_fit_recovers_retention_and_conductivity():
         m_true = np.array([np.log10(TRUE["alpha"]), TRUE["n"], np.log10(TRUE["kh"])])
         obs = OBS.copy()
         obs["value"] = truth.predict(m_true)
-        result = bedflux.calibration(bedflux.Scenario.from_dict(copy.deepcopy(BASE)), obs, FREE)
+        result = bedflux.fit(bedflux.Scenario.from_dict(copy.deepcopy(BASE)), obs, FREE)
     for key, path in (("alpha", "aquifer.retention.alpha"), ("n", "aquifer.retention.n"), ("kh", "aquifer.kh")):
         assert result.best[path] == pytest.approx(TRUE[key], rel=1e-3), result.best

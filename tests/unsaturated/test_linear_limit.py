@@ -28,10 +28,10 @@ def pair(transient: bool):
     d = copy.deepcopy(BASE)
     if transient:
         d["time"] = {"end": "1 d", "step": "1 h", "output_every": "3 h"}
-    linear = bedflux.section.simulate(bedflux.Scenario.from_dict(d))
+    linear = bedflux.simulate(bedflux.Scenario.from_dict(d))
     for z in d["zone"]:
         z["retention"] = RETENTION
-    return linear, bedflux.section.simulate(bedflux.Scenario.from_dict(d))
+    return linear, bedflux.simulate(bedflux.Scenario.from_dict(d))
 
 
 def test_steady_saturated_section_matches_linear_model():

@@ -17,7 +17,7 @@ def column(head: float):
 
 
 def test_cells_above_the_water_table_are_counted_and_reported():
-    ds = bedflux.section.simulate(column(0.05))
+    ds = bedflux.simulate(column(0.05))
     bottoms = np.linspace(-2.0, 0.9, 30)
     expected = int(np.sum(bottoms > 0.05))  # cells whose bottom lies above h = 0.05 m: 9
     assert int((ds["saturated"].values == 0).sum()) == expected == 9
@@ -28,7 +28,7 @@ def test_cells_above_the_water_table_are_counted_and_reported():
 
 
 def test_no_warning_when_saturated_to_the_ground():
-    ds = bedflux.section.simulate(column(1.5))
+    ds = bedflux.simulate(column(1.5))
     assert np.all(ds["saturated"].values == 1)
     assert "water_table_warning" not in ds.attrs
     assert "warning" not in run_summary_text(run_summary(ds))

@@ -74,7 +74,7 @@ def test_specific_yield_is_reported_unused():
     d = copy.deepcopy(BASE)
     d["zone"][0]["specific_yield"] = 0.2
     with pytest.warns(UserWarning, match="specific yield"):
-        ds = bedflux.section.simulate(bedflux.Scenario.from_dict(d))
+        ds = bedflux.simulate(bedflux.Scenario.from_dict(d))
     assert "specific yield" in ds.attrs["notes"]
 
 

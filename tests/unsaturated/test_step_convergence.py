@@ -27,7 +27,7 @@ def answers(step: str, grid: dict | None = None, end: str = "1.5 d") -> dict:
     d["time"].update(end=end, step=step, output_every="1 h")
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        ds = bedflux.section.simulate(bedflux.Scenario.from_dict(d))
+        ds = bedflux.simulate(bedflux.Scenario.from_dict(d))
     table, reach = exchange_events(ds)
     floodplain = table[~table["wet_at_start"] & (table["submerged_duration"] > 0)]
     (start, stop), = reach["reversals"]

@@ -237,7 +237,7 @@ def _notes(scenario) -> list[str]:
     notes = []
     given = [z.get("name") for z in scenario.raw.get("zone", []) if isinstance(z, dict) and "specific_yield" in z]
     if given:
-        notes.append(f"specific_yield of zone(s) {', '.join(map(str, given))} is not used in a variably "
+        notes.append(f"specific yield (specific_yield) of zone(s) {', '.join(map(str, given))} is not used in a variably "
                      "saturated run: the retention curve gives the water released as the water table falls.")
     if scenario.riparian:
         notes.append("riparian extinction_depth is not used in a variably saturated run: uptake follows the "

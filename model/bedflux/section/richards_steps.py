@@ -29,9 +29,9 @@ from typing import Callable
 import numpy as np
 
 from bedflux.errors import SolverError
-from bedflux.scenario.spec.forcing import FloodWave, Pulse, Series
+from bedflux.scenario.forcing import FloodWave, Pulse, Series
 from bedflux.section.retention import VAN_GENUCHTEN, SoilWater
-from bedflux.scenario.spec.spec import Scenario
+from bedflux.scenario.spec import Scenario
 from bedflux.section.richards import Evaluation, RichardsSystem, StepForcing, Storage, Uptake, boundary_pressure
 from bedflux.section.richards_newton import NEWTON, JacobianSolver, Outcome, iterate
 from bedflux.scenario.units import SECONDS_PER_DAY
@@ -84,8 +84,10 @@ def forcing_breakpoints(scenario: Scenario, end: float) -> np.ndarray:
         elif isinstance(s, Series):
             times += list(s.times)
     if any(r.daily_cycle for r in scenario.riparian):
-        days = np.arange(0.0, end / SECONDS_PER_DAY + 1.0)
-        times += list(days * SECONDS_PER_DAY + 6 * 3600.0) + list(days * SECONDS_PER_DAY + 18 * 3600.0)
+        # sunrise and sunset of the daily cycle on the run's clock (clock0: clock time of t = 0)
+        clock0 = scenario.time.clock0 if scenario.time is not None else 0.0
+        days = np.arange(-1.0, end / SECONDS_PER_DAY + 1.0)
+        times += list(days * SECONDS_PER_DAY + 6 * 3600.0 - clock0) + list(days * SECONDS_PER_DAY + 18 * 3600.0 - clock0)
     t = np.unique(np.asarray(times, dtype=float))
     return t[(t > 0.0) & (t < end)]
 
@@ -107,19 +109,6 @@ def flooding_times(section: Section, end: float) -> np.ndarray:
     return times[(times > 0.0) & (times < end)]
 
 
-def _cycle_mean(t0: float, t1: float) -> float:
-    """Mean over [t0, t1] of the daily uptake cycle of :meth:`Section.et_factor` (the step lies
-    within one day-time or one night-time span, as steps land on 06:00 and 18:00)."""
-    if t1 <= t0:
-        return 1.0
-    mid = (0.5 * (t0 + t1) % SECONDS_PER_DAY) / 3600.0
-    if not 6.0 <= mid <= 18.0:
-        return 0.0
-    day0 = np.floor(0.5 * (t0 + t1) / SECONDS_PER_DAY) * SECONDS_PER_DAY
-    a, b = (t0 - day0) / 3600.0, (t1 - day0) / 3600.0
-    return float(12.0 * (np.cos(np.pi * (a - 6.0) / 12.0) - np.cos(np.pi * (b - 6.0) / 12.0)) / (b - a))
-
-
 class SectionBoundaries:
     """The scenario's boundaries and root uptake for Richards' equation on its section."""
 
@@ -139,8 +128,10 @@ class SectionBoundaries:
         uptake = None
         if s.et_cells.size:
             keep = ~s.submerged(t1)[s.et_cols]  # no uptake under the stream
-            factor = np.where(s.et_cycle & (not steady), _cycle_mean(t0, t1), 1.0)
-            uptake = Uptake(s.et_cells[keep], s.et_cols[keep], (s.et_rate * factor)[keep], self.uptake_heads[:, keep])
+            cycle = s.et_factor(t0, t1) if s.et_cycle.any() and not steady and t1 > t0 else 1.0
+            factor = np.where(s.et_cycle & (not steady), cycle, 1.0)
+            rate = s.et_rate_at(t1) * factor  # dry ground only: no uptake under the stream
+            uptake = Uptake(s.et_cells[keep], s.et_cols[keep], rate[keep], self.uptake_heads[:, keep])
         return StepForcing(terms, [boundary_pressure(s, t) for t in terms], uptake)
 
     def update(self, ev: Evaluation, forcing: StepForcing, t: float, state: ActiveSet) -> ActiveSet:
