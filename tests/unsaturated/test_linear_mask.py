@@ -32,3 +32,15 @@ def test_no_warning_when_saturated_to_the_ground():
     assert np.all(ds["saturated"].values == 1)
     assert "water_table_warning" not in ds.attrs
     assert "warning" not in run_summary_text(run_summary(ds))
+
+
+def test_saturated_flow_warnings_stay_off_a_variably_saturated_run():
+    # suction under a flooded floodplain and heads far below the base inside dry soil are physical
+    # in Richards' equation (Celia et al. 1990); the linear model's impossibility and
+    # disconnection warnings must not be printed for it
+    import xarray as xr
+
+    from bedflux.outputs.plausibility import plausibility_warnings
+
+    ds = xr.Dataset({"pressure_head": ("cell", [-80.0])})
+    assert plausibility_warnings(ds) == []
