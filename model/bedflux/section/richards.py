@@ -97,7 +97,7 @@ class Evaluation:
     props: Properties
     residual: np.ndarray
     scale: float  # throughput: absolute boundary flows, uptake and storage changes (m^2/s)
-    floor: float  # residual norm too small to matter (m^2/s): 1e-14 m of head across every face
+    floor: float  # round-off level of the residual norm (m^2/s)
     face_kr: np.ndarray
     face_up_is_lo: np.ndarray
     term_kr: list[np.ndarray]
@@ -111,8 +111,8 @@ class Evaluation:
         return float(np.abs(self.residual).sum())
 
     def converged(self, tolerance: float) -> bool:
-        """Residual below ``tolerance`` of the throughput (or below the floor)."""
-        return self.norm <= tolerance * self.scale + self.floor
+        """Residual below ``tolerance`` of the throughput."""
+        return self.norm <= tolerance * self.scale
 
 
 class RichardsSystem:
@@ -156,16 +156,11 @@ class RichardsSystem:
         sorted_keys = keys[order]
         self.lohi_pos = order[np.searchsorted(sorted_keys, self.lo.astype(np.int64) * self.n + self.hi)]
         self.hilo_pos = order[np.searchsorted(sorted_keys, self.hi.astype(np.int64) * self.n + self.lo)]
-        self.c_floor = 1e-14 * float(self.conductance.sum()) if self.conductance.size else 1e-30
 
     # ------------------------------------------------------------------------------ state
     def head_u(self, psi: np.ndarray) -> np.ndarray:
         """Heads relative to the section's reference head."""
         return psi + self.zr
-
-    def head_roundoff(self, psi: np.ndarray) -> float:
-        """Round-off of the heads ``psi + z`` (m): an update below it changes nothing."""
-        return 100.0 * np.finfo(float).eps * float(np.max(np.abs(psi) + np.abs(self.zr)))
 
     def psi_from_u(self, u: np.ndarray) -> np.ndarray:
         """Pressure heads from relative heads."""
@@ -213,7 +208,11 @@ class RichardsSystem:
             storage_rate = (water + storage.elastic * (psi - storage.psi0)) / storage.dt
             residual = residual + storage_rate
             boundary_abs += float(np.abs(storage_rate).sum())
-        return Evaluation(psi, props, residual, boundary_abs, self.c_floor, fkr, up_lo, term_kr, term_from_face,
+        # heads are psi + z, so a face flow carries the round-off of |psi| + |z| times its
+        # conductance: the level below which the residual cannot be pushed
+        head_size = np.abs(psi) + np.abs(self.zr)
+        floor = 4.0 * np.finfo(float).eps * float((self.conductance * fkr * (head_size[self.lo] + head_size[self.hi])).sum())
+        return Evaluation(psi, props, residual, boundary_abs, floor, fkr, up_lo, term_kr, term_from_face,
                           taken, storage_rate)
 
     def _kr_at(self, psi_face: np.ndarray, cells: np.ndarray) -> np.ndarray:

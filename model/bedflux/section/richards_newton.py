@@ -5,8 +5,9 @@ Each iteration solves ``J d = -F``. Newton moves along ``d`` by the largest of 1
 that lowers ``|F|`` by the Armijo rule (``|F(psi + l d)| <= (1 - 1e-4 l) |F(psi)|``, Dennis &
 Schnabel 1983, sec. 6.3); modified Picard takes the full step. The iteration stops when the
 sum of the absolute cell residuals is below ``tolerance`` times the throughput of the step (the sum of the absolute boundary flows,
-uptake and storage changes), or when the Newton update falls to the round-off of the heads
-(psi + z) with the residual within 100 times that: the water budget then closes to that fraction.
+uptake and storage changes), or when a Newton step leaves 90 % of the residual while it is
+within 100 times that or at the round-off of the heads psi + z (large sections, heads of tens of
+metres, no flow at all): the water budget then closes to that fraction.
 
 Linear solves: the Newton Jacobian is not symmetric (upstream Kr), so the direct solver is
 SuperLU with minimum-degree ordering on A^T + A (the matrix is structurally symmetric) and
@@ -35,6 +36,8 @@ PICARD = "picard"
 MAX_ITERATIONS = 20
 #: Sum of absolute cell residuals allowed, relative to the step's throughput.
 TOLERANCE = 1e-10
+#: A Newton step that leaves more than this fraction of the residual makes no progress.
+STALL = 0.9
 #: Halvings of the step length tried by the line search.
 LINE_SEARCH_HALVINGS = 6
 #: Relative residual accepted from the diagonal-pivot factorization before partial pivoting is used.
@@ -157,10 +160,11 @@ def iterate(system: RichardsSystem, psi: np.ndarray, forcing: StepForcing, stora
                 break
             step *= 0.5
         else:
-            if not trial.converged(100.0 * tolerance):
+            if trial.norm > 1e2 * tolerance * trial.scale + trial.floor:
                 return Outcome(trial, it + 1, False)
-        if np.abs(step * d).max() <= system.head_roundoff(trial.psi) and trial.converged(1e2 * tolerance):
-            # the update is at the round-off of the heads (psi + z): the residual cannot fall further
+        if trial.norm > STALL * ev.norm and trial.norm <= 1e2 * tolerance * trial.scale + trial.floor:
+            # no progress near the tolerance: the residual is at the round-off of the heads
+            # (psi + z, large sections with heads of tens of metres) and cannot fall further
             return Outcome(trial, it + 1, True)
         ev = trial
     return Outcome(ev, max_iterations, False)
