@@ -56,7 +56,7 @@ class GridSpec:
 
 @dataclass(frozen=True)
 class RetentionSpec:
-    """Soil water properties of a zone (see :mod:`bedflux.retention`): ``model`` is
+    """Soil water properties of a zone (see :mod:`bedflux.section.retention`): ``model`` is
     ``"van-genuchten"`` (with ``n``) or ``"exponential"``; ``alpha`` in 1/m."""
 
     model: str
