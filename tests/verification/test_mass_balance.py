@@ -31,6 +31,10 @@ from bedflux.outputs.summary import run_summary, run_summary_text
 
 ROOT = Path(__file__).resolve().parents[2]
 CLOSURE = 1e-10
+#: A variably saturated run closes its budget to the tolerance of its Newton iterations, not to
+#: round-off: per step within 1e-8 of the flow (the criterion set for Richards' equation with
+#: direct solves; docs/numerics.md, variably saturated flow)
+CLOSURE_VARIABLY_SATURATED = 1e-8
 TOML_FOLDERS = (ROOT / "scenarios", ROOT / "model" / "bedflux" / "examples")
 
 
@@ -42,12 +46,14 @@ SCENARIO_FILES = [p for folder in TOML_FOLDERS for p in sorted(folder.glob("*.to
 
 
 def check_closure(result, label):
-    """sum(in) - sum(out) from the budget lines, within 1e-10 of the larger total, at every output."""
+    """sum(in) - sum(out) from the budget lines, within 1e-10 of the larger total (1e-8 for a
+    variably saturated run), at every output."""
     total_in = np.atleast_2d(result["inflow"].values).sum(axis=1)
     total_out = np.atleast_2d(result["outflow"].values).sum(axis=1)
     assert np.all(np.isfinite(total_in)) and np.all(np.isfinite(total_out)), f"{label}: budget not finite"
     imbalance = np.abs(total_in - total_out)
-    tolerance = CLOSURE * np.maximum(total_in, total_out)
+    limit = CLOSURE_VARIABLY_SATURATED if "pressure_head" in result else CLOSURE
+    tolerance = limit * np.maximum(total_in, total_out)
     worst = int(np.argmax(imbalance - tolerance))
     assert np.all(imbalance <= tolerance), (
         f"{label}: output {worst}: in {total_in[worst]:.6g}, out {total_out[worst]:.6g} m2/s, "

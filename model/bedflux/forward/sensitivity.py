@@ -15,7 +15,8 @@ Sensitivities are computed with the forward factorization reused:
 
 The active set (submerged, seeping, ET branch) is held at the one the forward run chose, so the
 derivative is that of the branch the solution lies on. Parameters without an analytic derivative
-(for example a layer depth or the stage) fall back to central differences.
+(for example a layer depth or the stage) fall back to central differences, and so do all
+parameters of a variably saturated run (zone conductivities and ``ZONE.retention.alpha`` / ``.n``).
 """
 from __future__ import annotations
 
@@ -371,8 +372,10 @@ class Forward:
     def predict_and_jacobian(self, m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Simulated observations and the Jacobian in one pass (analytic where available)."""
         m = np.asarray(m, dtype=float)
-        analytic = [j for j, rule in enumerate(self.rules) if rule.name != "numeric"
-                    and not (rule.name in _STORAGE_RULES and not self.scenario.transient)]
+        # variably saturated runs: every column by central differences
+        analytic = [] if self.scenario.variably_saturated else [
+            j for j, rule in enumerate(self.rules) if rule.name != "numeric"
+            and not (rule.name in _STORAGE_RULES and not self.scenario.transient)]
         d, J = self._run(m, analytic)
         for j, rule in enumerate(self.rules):
             if j in analytic:
@@ -408,6 +411,8 @@ class Forward:
         values = [p.natural(v) for p, v in zip(self.free, m)]
         chain = np.array([p.dnatural(v) for p, v in zip(self.free, m)])
         J = np.zeros((self.n_data, self.n_params))
+        if scen.variably_saturated:
+            return self._variably_saturated(section, ops), J
         if not scen.transient:
             sol = solve_steady(section, reuse=True)
             d = predict(section, ops, sol.u, sol.terms, 0.0, self.source)
@@ -437,6 +442,19 @@ class Forward:
         lam = sol.factor.solve(W.T.toarray())
         self.n_sensitivity_solves += ops.n
         return lam.T @ dR + E
+
+    def _variably_saturated(self, section: Section, ops) -> np.ndarray:
+        """Predicted data of a variably saturated run (Richards' equation), its steps landing on
+        the observation times."""
+        from bedflux.section.richards_run import states_at
+
+        times = ops.table["time"].to_numpy() if section.scenario.transient else np.zeros(ops.n)
+        wanted = np.unique(times)
+        d = np.empty(ops.n)
+        for t, (u, terms, view) in zip(wanted, states_at(section, wanted)):
+            at = times == t
+            d[at] = predict(view, ops, u, terms, float(t), self.source)[at]
+        return d
 
     def _transient(self, section: Section, ops, rules: list[DerivativeRule], values: list[float]):
         from bedflux.section.transient import run_transient

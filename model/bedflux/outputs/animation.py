@@ -120,6 +120,9 @@ def render_frames(ds: xr.Dataset, unit: str = "m/d", max_frames: int = MAX_FRAME
     cb.ax.tick_params(labelsize=6)
     ax.plot(x, ground, color="#4d3319", lw=1.2)
     (stage_line,) = ax.plot(x, np.full_like(x, np.nan), color="#2166ac", lw=2.0)
+    water_table = ds["water_table"].values if "water_table" in ds else None
+    if water_table is not None:  # variably saturated run: the water table rising into the banks and draining
+        (table_line,) = ax.plot(x, water_table[0], color="w", lw=1.2, ls="--")
     ax.set_ylabel("elevation (m)", fontsize=8)
     title = ax.set_title("", fontsize=9)
 
@@ -156,6 +159,8 @@ def render_frames(ds: xr.Dataset, unit: str = "m/d", max_frames: int = MAX_FRAME
         q = flux[i]
         wet = np.isfinite(q)
         stage_line.set_ydata(np.where(wet, stage[i], np.nan))
+        if water_table is not None:
+            table_line.set_ydata(water_table[i])
         flux_line.set_ydata(q)
         for artist in shading:
             artist.remove()

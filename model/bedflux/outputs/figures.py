@@ -93,7 +93,9 @@ def _streamlines(ax, ds: xr.Dataset) -> None:
 
 
 def section_figure(ds: xr.Dataset, path: str | Path, unit: str = "m/d", time_index: int | None = None) -> Path:
-    """Head contours and flow paths over the zones, with the bed-flux profile beneath."""
+    """Head contours and flow paths over the zones, with the bed-flux profile beneath; in a variably
+    saturated run the unsaturated soil is shaded by 1 - saturation under the contours, with the
+    water table."""
     apply_style()
     whole = ds
     if "time" in ds.dims:
@@ -107,6 +109,13 @@ def section_figure(ds: xr.Dataset, path: str | Path, unit: str = "m/d", time_ind
     names = ds.attrs.get("zone_names", "").split(",")
     ax.pcolormesh(xe, ze, zone, cmap=ListedColormap(ZONE_GREYS[: max(len(names), 1)]), vmin=-0.5,
                   vmax=len(ZONE_GREYS[: max(len(names), 1)]) - 0.5, shading="flat")
+    if "saturation" in ds:
+        # variably saturated run: the unsaturated soil shaded by how dry it is, and the water table
+        dryness = np.ma.masked_invalid(1.0 - ds["saturation"].values)
+        mesh = ax.pcolormesh(xe, ze, np.ma.masked_less_equal(dryness, 1e-9), cmap="YlOrBr", vmin=0.0, vmax=1.0,
+                             alpha=0.55, shading="flat")
+        fig.colorbar(mesh, ax=ax, fraction=0.03, pad=0.01).set_label("1 - saturation", fontsize=7)
+        ax.plot(ds["x"].values, ds["water_table"].values, color="#08519c", lw=1.2, ls="--", label="water table")
     head = ds["head"].values
     if np.isfinite(head).sum() > 4 and np.nanmax(head) > np.nanmin(head) and min(head.shape) > 1:
         cs = ax.contour(ds["x"].values, ds["z"].values, np.ma.masked_invalid(head), levels=12, cmap=HEAD_MAP,

@@ -37,7 +37,14 @@ EXCURSION_FACTOR = 2.0
 
 
 def plausibility_warnings(ds: xr.Dataset) -> list[str]:
-    """Every warning of this module for one result, impossible heads first."""
+    """Every warning of this module for one result, impossible heads first.
+
+    Both checks judge the linear (saturated) model. A variably saturated run (its result has
+    ``pressure_head``) represents suction and a stream perched above a falling water table
+    physically, so neither applies to it.
+    """
+    if "pressure_head" in ds:
+        return []
     out = impossible_heads(ds)
     out += disconnected_stream(ds)
     return out

@@ -68,6 +68,9 @@ def run_summary(ds: xr.Dataset) -> dict:
         out["partial"] = partial["reason"]
         out["partial_run"] = partial
     out["warnings"] += plausibility_warnings(ds)
+    if ds.attrs.get("water_table_warning"):
+        out["water_table_warning"] = ds.attrs["water_table_warning"]
+        out["warnings"].append(ds.attrs["water_table_warning"])
     return out
 
 

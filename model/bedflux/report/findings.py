@@ -211,6 +211,8 @@ def exchange_finding(summary: dict, source: str = ".", unit: str = "m/d") -> Fin
         way0 = _direction(e0, scale)
         word = {"gaining": "gained", "losing": "lost", "neutral": "exchanged"}[way0]
         f.sentences.append(f"At the start it {word} {per_metre(e0, of)}.")
+    if summary.get("water_table_warning"):
+        f.sentences.append(f"Caution: {summary['water_table_warning']}.")
     return f
 
 

@@ -55,6 +55,18 @@ class GridSpec:
 
 
 @dataclass(frozen=True)
+class RetentionSpec:
+    """Soil water properties of a zone (see :mod:`bedflux.section.retention`): ``model`` is
+    ``"van-genuchten"`` (with ``n``) or ``"exponential"``; ``alpha`` in 1/m."""
+
+    model: str
+    alpha: float
+    residual: float
+    saturated: float
+    n: float | None = None
+
+
+@dataclass(frozen=True)
 class ZoneSpec:
     """One material zone. The first fills the domain; later ones override where they apply.
 
@@ -71,6 +83,7 @@ class ZoneSpec:
     x: tuple[float, float] | None = None
     z: tuple[float, float] | None = None
     porosity: float = 0.3
+    retention: RetentionSpec | None = None
 
 
 @dataclass(frozen=True)
@@ -118,6 +131,7 @@ class RiparianSpec:
     extinction_depth: float
     root_depth: float = 0.0
     daily_cycle: bool = False
+    uptake_heads: tuple[float, float, float, float] = (-0.1, -0.25, -4.0, -80.0)
 
 
 @dataclass(frozen=True)
@@ -177,7 +191,8 @@ class Scenario:
     def with_values(self, values: Mapping[str, float]) -> "Scenario":
         """A copy with values replaced by parameter path (SI), re-validated.
 
-        Paths are ``ZONE.PROPERTY`` (``bed.kv``, ``aquifer.specific_storage``) or a table path
+        Paths are ``ZONE.PROPERTY`` (``bed.kv``, ``aquifer.specific_storage``), ``ZONE.retention.KEY``
+        (``aquifer.retention.alpha``, ``.n``, ``.residual``, ``.saturated``) or a table path
         (``recharge.rate``, ``stream.stage``, ``riparian.0.max_rate``, ``sides.left.head``,
         ``stream.bedform.amplitude``).
         """
@@ -194,6 +209,11 @@ class Scenario:
     def zone_names(self) -> list[str]:
         """Zone names in order."""
         return [z.name for z in self.zones]
+
+    @property
+    def variably_saturated(self) -> bool:
+        """True when the zones carry soil water properties (a Richards run)."""
+        return self.zones[0].retention is not None
 
 
 def load(path: str | Path) -> Scenario:
@@ -327,7 +347,7 @@ def _zones(zs: Any, grid: GridSpec) -> tuple[ZoneSpec, ...]:
         if "." in name or name in _TOP_KEYS or name == "sides" or not name.strip():
             raise InputError(f"name {name!r} is not allowed (no dots, not a table name)", where=where)
         seen.add(name)
-        checks.reject_unknown(z, ["name", *ZONE_PROPERTIES, "x", "z"], where=where, renamed=RENAMED_ZONE_KEYS)
+        checks.reject_unknown(z, ["name", *ZONE_PROPERTIES, "x", "z", "retention"], where=where, renamed=RENAMED_ZONE_KEYS)
         kh = _conductivity(z, "kh", where)
         kv = _conductivity(z, "kv", where, default=kh)
         specific_storage = checks.quantity(z, "specific_storage", "per_length", where, default=1e-5, low=0.0,
@@ -347,8 +367,40 @@ def _zones(zs: Any, grid: GridSpec) -> tuple[ZoneSpec, ...]:
                 raise InputError("give either depth (a layer) or z (a box), not both", where=where)
             if zr is not None and xr is None:
                 raise InputError("a box needs x = [a, b] as well as z", where=where)
-        out.append(ZoneSpec(name, kh, kv, specific_storage, specific_yield, depth, xr, zr, porosity))
+        retention = _retention(z["retention"], f"{where}: retention") if "retention" in z else None
+        out.append(ZoneSpec(name, kh, kv, specific_storage, specific_yield, depth, xr, zr, porosity, retention))
+    given = [z.retention is not None for z in out]
+    if any(given) and not all(given):
+        missing = ", ".join(repr(z.name) for z in out if z.retention is None)
+        raise InputError(f"zone {missing} has no retention: when one zone has retention = {{...}}, every zone "
+                         "needs it (the whole run is variably saturated)", where="[[zone]]")
     return tuple(out)
+
+
+#: Plausibility limit of the van Genuchten / exponential alpha (1/m); clays are near 1 1/m,
+#: coarse sands near 15 1/m (Carsel & Parrish 1988, from memory).
+ALPHA_MAX = 100.0
+
+
+def _retention(r: Any, where: str) -> RetentionSpec:
+    if not isinstance(r, Mapping):
+        raise InputError("retention must be an inline table, e.g. {model = \"van-genuchten\", alpha = \"3.6 1/m\", "
+                         "n = 1.56, residual = 0.078, saturated = 0.43}", where=where)
+    r = dict(r)
+    model = checks.choice(r, "model", ["van-genuchten", "exponential"], where)
+    keys = ["model", "alpha", "residual", "saturated"] + (["n"] if model == "van-genuchten" else [])
+    checks.reject_unknown(r, keys, where=where)
+    alpha = checks.quantity(r, "alpha", "per_length", where, low=0.0, low_inclusive=False, high=ALPHA_MAX,
+                            high_hint="1/cm")
+    n = checks.number(r, "n", where, low=1.0, high=10.0) if model == "van-genuchten" else None
+    if n is not None and n <= 1.0:
+        raise InputError(f"n = {n:g} is not allowed; it must be > 1", where=where)
+    residual = checks.number(r, "residual", where, low=0.0, high=0.6)
+    saturated = checks.number(r, "saturated", where, low=0.01, high=0.8)
+    if saturated <= residual:
+        raise InputError(f"saturated = {saturated:g} must exceed residual = {residual:g} (water contents)",
+                         where=where)
+    return RetentionSpec(model, alpha, residual, saturated, n)
 
 
 class _Clock:
@@ -524,15 +576,29 @@ def _riparian(rs: Any, grid: GridSpec) -> tuple[RiparianSpec, ...]:
         if not isinstance(r, Mapping):
             raise InputError("must be a table", where=where)
         r = dict(r)
-        checks.reject_unknown(r, ["x", "max_rate", "extinction_depth", "root_depth", "daily_cycle"], where=where,
+        checks.reject_unknown(r, ["x", "max_rate", "extinction_depth", "root_depth", "daily_cycle", "uptake_heads"], where=where,
                               renamed=RENAMED_RIPARIAN_KEYS)
         xr = checks.interval(r, "x", where)
         max_rate = checks.quantity(r, "max_rate", "velocity", where, low=0.0, high=ET_MAX, high_hint="mm/d")
         ext = checks.quantity(r, "extinction_depth", "length", where, low=0.0, low_inclusive=False, high=30.0)
         root = checks.quantity(r, "root_depth", "length", where, default=0.0, low=0.0, high=30.0)
         cyc = checks.flag(r, "daily_cycle", where)
-        out.append(RiparianSpec(xr, max_rate, ext, root, cyc))
+        heads = _uptake_heads(r, where) if "uptake_heads" in r else RiparianSpec.uptake_heads
+        out.append(RiparianSpec(xr, max_rate, ext, root, cyc, heads))
     return tuple(out)
+
+
+def _uptake_heads(r: dict, where: str) -> tuple[float, float, float, float]:
+    """Four pressure heads h1 > h2 > h3 > h4 (<= 0) of the Feddes et al. (1978) uptake reduction."""
+    v = r["uptake_heads"]
+    if not isinstance(v, list) or len(v) != 4:
+        raise InputError(f"uptake_heads must be four pressure heads [h1, h2, h3, h4] (wet limit, full uptake "
+                         f"from, full uptake down to, wilting), e.g. [\"-10 cm\", \"-25 cm\", \"-4 m\", \"-80 m\"]; "
+                         f"got {v!r}", where=where)
+    heads = tuple(checks.quantity({"uptake_heads": h}, "uptake_heads", "length", where, high=0.0) for h in v)
+    if not all(a > b for a, b in zip(heads, heads[1:])):
+        raise InputError(f"uptake_heads = {v!r} must fall: h1 > h2 > h3 > h4", where=where)
+    return heads
 
 
 def _time(t: dict) -> TimeSpec | None:
@@ -585,6 +651,13 @@ def _locate(raw: dict, path: str, source: str) -> tuple[Any, Any]:
     new = renamed_path(path)
     if new is not None and (parts[0] in names or parts[0] == "riparian"):
         raise InputError(f"'{path}' was renamed; write {new}", source=source, where=path)
+    if len(parts) == 3 and parts[0] in names and parts[1] == "retention":
+        zone = zones[names.index(parts[0])]
+        if not isinstance(zone.get("retention"), Mapping) or parts[2] not in zone["retention"] \
+                or parts[2] not in ("alpha", "n", "residual", "saturated"):
+            raise InputError(f"'{path}' is not a value of zone '{parts[0]}': its retention table has "
+                             "alpha, n (van Genuchten), residual and saturated", source=source, where=path)
+        return zone["retention"], parts[2]
     if len(parts) == 2 and parts[0] in names:
         if parts[1] not in ZONE_PROPERTIES:
             raise InputError(f"zone property '{parts[1]}' cannot be set; use {', '.join(ZONE_PROPERTIES[:-1])} "
@@ -617,6 +690,8 @@ def _set_path(raw: dict, path: str, value: float, source: str) -> None:
 
 def _resolved_value(s: Scenario, path: str) -> float:
     parts = path.split(".")
+    if len(parts) == 3 and parts[0] in s.zone_names() and parts[1] == "retention":
+        return float(getattr(s.zones[s.zone_names().index(parts[0])].retention, parts[2]))
     if len(parts) == 2 and parts[0] in s.zone_names():
         value = getattr(s.zones[s.zone_names().index(parts[0])], parts[1])
         if value is None:

@@ -32,12 +32,53 @@ VARIABLES: dict[str, tuple[str, str, str]] = {
     "budget_closure": ("1", "section", "budget imbalance (in - out) over the gross flow; NaN when nothing flows"),
     "budget_gross": ("m2 s-1", "section", "gross flow: sum of the magnitudes of the parts every budget flow is "
                                           "the difference of (the scale of the closure)"),
+    # variably saturated runs (zones with retention)
+    "pressure_head": ("m", "cell", "pressure head (head minus elevation; negative above the water table)"),
+    "water_content": ("1", "cell", "volumetric water content"),
+    "saturation": ("1", "cell", "degree of saturation (water content over saturated water content)"),
+    "water_table": ("m", "column", "elevation of the uppermost zero-pressure level (NaN where the column is unsaturated)"),
+    "ponding": ("m s-1", "column", "water left on exposed ground: recharge a seepage face does not take in plus its outflow"),
+    "storage_saturated": ("m2 s-1", "section", "release from specific storage (elastic), per metre of width"),
+    "storage_unsaturated": ("m2 s-1", "section", "release by draining pores (fall of water content), per metre of width"),
+    "step_end": ("s", "step", "end of each accepted time step"),
+    "step_length": ("s", "step", "length of each accepted time step"),
+    "step_iterations": ("1", "step", "nonlinear iterations of each accepted time step"),
+    "step_closure": ("1", "step", "water budget imbalance of each step relative to its total inflow"),
+    # linear runs
+    "saturated": ("1", "cell", "1 where the head is at or above the cell's bottom, 0 where the water table lies "
+                  "below the whole cell (the linear model still conducts through it at full thickness)"),
 }
 
 
 def _attrs(name: str) -> dict:
     units, location, long = VARIABLES[name]
     return {"units": units, "location": location, "long_name": long}
+
+
+def water_table_warning(head: np.ndarray, grid) -> str:
+    """The warning of a linear run whose heads fall below active cells ("" when none do).
+
+    ``head`` is ``(nz, nx)`` or ``(time, nz, nx)``; counted is the largest number of cells below
+    the water table at any output time, and the deepest water table below the ground (head of the
+    top cell) in a column that has such cells.
+    """
+    h = head.reshape((-1,) + head.shape[-2:])
+    dry = grid.active[None] & (h < grid.cell_bottom[None])
+    n = int(dry.sum(axis=(1, 2)).max()) if dry.size else 0
+    if n == 0:
+        return ""
+    cols = np.arange(grid.nx)
+    depth = grid.ground[None, :] - h[:, grid.top_row, cols]
+    deepest = float(np.max(np.where(dry.any(axis=1), depth, 0.0)))
+    return (f"the water table lies below {n} cells, up to {deepest:.2f} m below the ground: consider a "
+            "variably saturated run (retention in every zone)")
+
+
+def add_variables(ds: xr.Dataset, data: dict[str, tuple[tuple[str, ...], np.ndarray]]) -> None:
+    """Add declared variables ``name -> (dims, values)`` to ``ds`` with their attributes."""
+    for name, (dims, values) in data.items():
+        ds[name] = (dims, np.asarray(values))
+        ds[name].attrs.update(_attrs(name))
 
 
 def build_dataset(section: Section, states: Sequence[Fluxes], stages: Sequence[float | None],
@@ -82,9 +123,15 @@ def build_dataset(section: Section, states: Sequence[Fluxes], stages: Sequence[f
     }
     if not steady:
         coords["time"] = ("time", np.asarray(times, dtype=float), {"units": "s", "long_name": "time since start"})
+    if not attrs.get("variably_saturated"):
+        data["saturated"] = (lead + ("z", "x"), (data["head"][1] >= g.cell_bottom).astype(np.int8))
+        warning = water_table_warning(data["head"][1], g)
+        if warning:
+            attrs = {**attrs, "water_table_warning": warning}
     ds = xr.Dataset({k: (dims, np.asarray(v)) for k, (dims, v) in data.items()}, coords=coords)
     for name in VARIABLES:
-        ds[name].attrs.update(_attrs(name))
+        if name in ds:
+            ds[name].attrs.update(_attrs(name))
     ds.attrs.update({
         "title": section.scenario.title,
         "source_file": section.scenario.source,

@@ -17,6 +17,9 @@ def simulate(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = None,
              progress: Callable[[float], None] | None = None) -> xr.Dataset:
     """Run the scenario and return the result Dataset (see :mod:`bedflux.section.results`).
 
+    A scenario whose zones carry ``retention`` runs variably saturated (Richards' equation, see
+    :mod:`bedflux.section.richards_run`); otherwise the linear model runs.
+
     Parameters
     ----------
     scenario
@@ -25,7 +28,8 @@ def simulate(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = None,
         Optional ``(nz, nx)`` property arrays (``kh``, ``kv``, ``specific_storage``, ``specific_yield``,
         ``porosity``) overriding the zones.
     method
-        Linear solver: ``"auto"`` (by size), ``"direct"`` or ``"amg-cg"``.
+        Linear solver: ``"auto"`` (by size), ``"direct"`` or ``"amg-cg"`` (AMG-preconditioned
+        GMRES for the Jacobians of a variably saturated run).
     progress
         Called with the fraction done during transient runs.
 
@@ -36,6 +40,11 @@ def simulate(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = None,
         carries the outputs before the failing step in its ``partial`` attribute).
     """
     section = discretise(scenario, fields)
+    if scenario.variably_saturated:
+        from bedflux.section.richards_run import run_variably_saturated
+
+        solver = {"direct": "direct", "amg-cg": "amg-gmres"}.get(method, "auto")
+        return run_variably_saturated(section, solver=solver, progress=progress)
     if scenario.transient:
         return transient_dataset(section, progress)
     return steady_dataset(section, method)

@@ -1,0 +1,334 @@
+"""Variably saturated runs: the section's boundaries for Richards' equation, the steady solve and
+adaptive backward-Euler stepping.
+
+Boundaries (per step, from the linear model's terms of :mod:`bedflux.section.discretisation`):
+
+- submerged top faces hold the stage (plus bedform head, through the bed leakance);
+- exposed top faces take the recharge as a flux until the top cell's head reaches the ground;
+  then they are a seepage face at zero pressure, released when it would take in more than the
+  recharge (the same complementary rule as the linear model). Recharge that a seepage face does
+  not take in is reported as ``ponding``;
+- sides and base as in the linear model (a head side is hydrostatic);
+- riparian evapotranspiration is root water uptake: the rate spread over the root zone as in the
+  linear model, reduced by each cell's pressure head after Feddes et al. (1978), and none in
+  columns under the stream. With a daily cycle each step takes the cycle's mean over the step.
+
+Time steps (backward Euler) start at ``[time] step``, which is also the longest; a step that
+converges in at most :data:`EASY_ITERATIONS` iterations lets the next grow by
+:data:`GROWTH`, one that needs more than :data:`HARD_ITERATIONS` shrinks it, and a step that fails
+is cut by :data:`CUT` and retried. Steps land exactly on the output times, on the breakpoints
+of the forcing (pulse start and peak, flood-wave start and end, series times, the daily cycle's
+06:00 and 18:00) and on the instants when the stage floods or leaves a column; after those the
+step restarts at :data:`RESTART_STEP`.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Callable
+
+import numpy as np
+
+from bedflux.errors import SolverError
+from bedflux.scenario.forcing import FloodWave, Pulse, Series
+from bedflux.section.retention import VAN_GENUCHTEN, SoilWater
+from bedflux.scenario.spec import Scenario
+from bedflux.section.richards import Evaluation, RichardsSystem, StepForcing, Storage, Uptake, boundary_pressure
+from bedflux.section.richards_newton import NEWTON, JacobianSolver, Outcome, iterate
+from bedflux.scenario.units import SECONDS_PER_DAY
+from bedflux.section.discretisation import ActiveSet, Section
+
+#: Iterations at or below which the next step grows.
+EASY_ITERATIONS = 4
+#: Iterations above which the next step shrinks.
+HARD_ITERATIONS = 10
+GROWTH = 1.5
+SHRINK = 0.7
+CUT = 0.25
+#: Shortest step, as a fraction of ``[time] step``, before the run gives up.
+MIN_STEP_FRACTION = 1e-6
+#: Passes of the seepage-face active set per step.
+STEP_PASSES = 8
+#: Sampling interval of the stage when the flooding instants of the columns are located (s).
+FLOOD_SAMPLE = 30.0
+#: After a column floods or falls dry the next step is at most this long (s): infiltration into
+#: newly flooded soil starts as t^-1/2 (sorptivity), which only short first steps resolve.
+RESTART_STEP = 30.0
+#: First pseudo-time step of the steady solve's continuation (s).
+CONTINUATION_START = 600.0
+#: Steady solve: Newton iterations before pseudo-transient continuation takes over.
+STEADY_ITERATIONS = 40
+
+
+def soil_water(scenario: Scenario, section: Section) -> SoilWater:
+    """Soil water parameters of every unknown from the zones' ``retention`` tables."""
+    specs = [z.retention for z in scenario.zones]
+    owner = section.materials.zone[section.grid.active]
+    vg = np.array([r.model == VAN_GENUCHTEN for r in specs])[owner]
+    alpha = np.array([r.alpha for r in specs])[owner]
+    n = np.array([r.n if r.n is not None else np.nan for r in specs])[owner]
+    tr = np.array([r.residual for r in specs])[owner]
+    ts = np.array([r.saturated for r in specs])[owner]
+    return SoilWater(vg, alpha, n, tr, ts)
+
+
+def forcing_breakpoints(scenario: Scenario, end: float) -> np.ndarray:
+    """Times in (0, end) where a forcing signal or the daily uptake cycle has a kink."""
+    signals = [] if scenario.stream is None else [scenario.stream.stage]
+    signals += [b.signal for b in (scenario.left, scenario.right, scenario.bottom) if b.signal is not None]
+    times: list[float] = []
+    for s in signals:
+        if isinstance(s, Pulse):
+            times += [s.start, s.start + s.rise]
+        elif isinstance(s, FloodWave):
+            times += [s.start, s.start + s.duration]
+        elif isinstance(s, Series):
+            times += list(s.times)
+    if any(r.daily_cycle for r in scenario.riparian):
+        # sunrise and sunset of the daily cycle on the run's clock (clock0: clock time of t = 0)
+        clock0 = scenario.time.clock0 if scenario.time is not None else 0.0
+        days = np.arange(-1.0, end / SECONDS_PER_DAY + 1.0)
+        times += list(days * SECONDS_PER_DAY + 6 * 3600.0 - clock0) + list(days * SECONDS_PER_DAY + 18 * 3600.0 - clock0)
+    t = np.unique(np.asarray(times, dtype=float))
+    return t[(t > 0.0) & (t < end)]
+
+
+def flooding_times(section: Section, end: float) -> np.ndarray:
+    """Times in (0, end) at which the stage crosses the ground of a channel column (a column
+    floods or falls dry), from the stage sampled every :data:`FLOOD_SAMPLE` seconds and
+    interpolated linearly between samples."""
+    sc = section.scenario
+    if sc.stream is None or end <= 0.0:
+        return np.zeros(0)
+    cols = np.flatnonzero(section.channel)
+    t = np.linspace(0.0, end, int(np.ceil(end / FLOOD_SAMPLE)) + 1)
+    above = sc.stream.stage(t)[:, None] + sc.stream.slope * section.grid.xc[None, cols] - section.grid.ground[None, cols]
+    k, j = np.nonzero(np.sign(above[1:]) != np.sign(above[:-1]))
+    a, b = above[k, j], above[k + 1, j]
+    times = t[k] + (t[k + 1] - t[k]) * a / (a - b)
+    times = np.unique(times)
+    return times[(times > 0.0) & (times < end)]
+
+
+class SectionBoundaries:
+    """The scenario's boundaries and root uptake for Richards' equation on its section."""
+
+    def __init__(self, section: Section):
+        self.section = section
+        sc = section.scenario
+        heads = np.array([r.uptake_heads for r in sc.riparian]).reshape(-1, 4)
+        self.uptake_heads = heads[section.et_zone].T if section.et_cells.size else np.zeros((4, 0))
+
+    def initial_state(self) -> ActiveSet:
+        return self.section.initial_active_set()
+
+    def forcing(self, t0: float, t1: float, state: ActiveSet, steady: bool) -> StepForcing:
+        """Terms at the end of the step ``[t0, t1]`` (or of the steady state at ``t1``)."""
+        s = self.section
+        terms = [t for t in s.terms(t1, state, steady=True) if t.kind != "evapotranspiration"]
+        uptake = None
+        if s.et_cells.size:
+            keep = ~s.submerged(t1)[s.et_cols]  # no uptake under the stream
+            cycle = s.et_factor(t0, t1) if s.et_cycle.any() and not steady and t1 > t0 else 1.0
+            factor = np.where(s.et_cycle & (not steady), cycle, 1.0)
+            rate = s.et_rate_at(t1) * factor  # dry ground only: no uptake under the stream
+            uptake = Uptake(s.et_cells[keep], s.et_cols[keep], rate[keep], self.uptake_heads[:, keep])
+        return StepForcing(terms, [boundary_pressure(s, t) for t in terms], uptake)
+
+    def update(self, ev: Evaluation, forcing: StepForcing, t: float, state: ActiveSet) -> ActiveSet:
+        """Seepage faces where the top cell's head reaches the ground; release where a seepage face
+        would take in more than the recharge."""
+        s = self.section
+        g = s.grid
+        new = state.copy()
+        wet = s.submerged(t)
+        zc = g.z_centre[g.active]
+        h_top = ev.psi[s.top_cells] + zc[s.top_cells]
+        new.seepage[~wet & ~state.seepage & (h_top > g.ground)] = True
+        u = ev.psi + zc - s.h_ref
+        for term, kr in zip(forcing.terms, ev.term_kr):
+            if term.kind == "seepage_face":
+                inflow = kr * (term.r - term.conductance * u[term.cells]) / g.dx[term.column_or_row]
+                new.seepage[term.column_or_row[inflow > max(s.scenario.recharge, 0.0) + 1e-15]] = False
+        new.seepage[wet] = False
+        return new
+
+
+@dataclass
+class StepRecord:
+    """One accepted step: its end, length, iterations and budget closure."""
+
+    t1: float
+    dt: float
+    iterations: int
+    closure: float
+
+
+@dataclass
+class Budget:
+    """Flows of one state or step (m^2/s): in and out by line, storage split, closure."""
+
+    inflow: dict[str, float]
+    outflow: dict[str, float]
+    storage_saturated: float = 0.0
+    storage_unsaturated: float = 0.0
+
+    @property
+    def closure(self) -> float:
+        tin, tout = sum(self.inflow.values()), sum(self.outflow.values())
+        scale = max(tin, tout)
+        return 0.0 if scale == 0.0 else (tin - tout) / scale
+
+
+def step_budget(system: RichardsSystem, ev: Evaluation, forcing: StepForcing, storage: Storage | None,
+                lines: tuple[str, ...]) -> Budget:
+    """The water budget of a converged iterate, from the same flows as its residual."""
+    u = system.head_u(ev.psi)
+    bin_ = {k: 0.0 for k in lines}
+    bout = {k: 0.0 for k in lines}
+    for term, kr in zip(forcing.terms, ev.term_kr):
+        q = kr * (term.r - term.conductance * u[term.cells])
+        bin_[term.kind] += float(q[q > 0].sum())
+        bout[term.kind] -= float(q[q < 0].sum())
+    if ev.uptake is not None:
+        bout["evapotranspiration"] += float(ev.uptake.sum())
+    b = Budget(bin_, bout)
+    if storage is not None:
+        release = -ev.storage_rate
+        bin_["storage"] = float(release[release > 0].sum())
+        bout["storage"] = -float(release[release < 0].sum())
+        b.storage_saturated = -float((storage.elastic * (ev.psi - storage.psi0)).sum()) / storage.dt
+        b.storage_unsaturated = -float((system.volume * (ev.props.theta - storage.theta0)).sum()) / storage.dt
+    return b
+
+
+@dataclass
+class Stepper:
+    """Solves steps and steady states of one section with a fixed method and solver."""
+
+    system: RichardsSystem
+    boundaries: SectionBoundaries
+    method: str = NEWTON
+    solver: JacobianSolver = field(default=None)
+    iterations: int = 0
+    failures: int = 0
+
+    def __post_init__(self):
+        if self.solver is None:
+            self.solver = JacobianSolver(self.system.n)
+
+    def solve_step(self, psi0: np.ndarray, t0: float, t1: float, state: ActiveSet
+                   ) -> tuple[Outcome, StepForcing, Storage, ActiveSet]:
+        """One backward-Euler step with its seepage-face passes (``converged`` False on failure)."""
+        storage = self.system.storage(psi0, t1 - t0)
+        psi = psi0
+        total = 0
+        for _ in range(STEP_PASSES):
+            forcing = self.boundaries.forcing(t0, t1, state, steady=False)
+            out = iterate(self.system, psi, forcing, storage, self.solver, self.method)
+            total += out.iterations
+            self.iterations += out.iterations
+            if not out.converged:
+                self.failures += 1
+                return Outcome(out.evaluation, total, False), forcing, storage, state
+            new = self.boundaries.update(out.evaluation, forcing, t1, state)
+            if new.same(state):
+                return Outcome(out.evaluation, total, True), forcing, storage, state
+            state, psi = new, out.psi
+        self.failures += 1
+        return Outcome(out.evaluation, total, False), forcing, storage, state
+
+    def solve_steady(self, psi: np.ndarray, t: float, state: ActiveSet) -> tuple[Outcome, StepForcing, ActiveSet]:
+        """The steady state at time ``t`` from the start ``psi``: Newton, and pseudo-transient
+        continuation (Kelley & Keyes 1998) where Newton alone does not converge."""
+        history: list[ActiveSet] = []
+        for _ in range(STEP_PASSES * 4):
+            forcing = self.boundaries.forcing(t, t, state, steady=True)
+            out = iterate(self.system, psi, forcing, None, self.solver, self.method, max_iterations=STEADY_ITERATIONS)
+            self.iterations += out.iterations
+            if not out.converged:
+                psi = self._continuation(psi, t, state)
+                out = iterate(self.system, psi, forcing, None, self.solver, self.method,
+                              max_iterations=STEADY_ITERATIONS)
+                self.iterations += out.iterations
+                if not out.converged:
+                    raise SolverError(f"the steady variably saturated state at t = {t:g} s did not converge "
+                                      f"(residual {out.evaluation.norm / out.evaluation.scale:.2e} of the throughput)")
+            new = self.boundaries.update(out.evaluation, forcing, t, state)
+            if new.same(state):
+                return out, forcing, state
+            if any(new.same(h) for h in history):
+                break
+            history.append(state)
+            state, psi = new, out.psi
+        raise SolverError("the seepage faces of the steady variably saturated state did not settle; refine the "
+                          "grid near the banks or start from a transient run")
+
+    def _continuation(self, psi: np.ndarray, t: float, state: ActiveSet) -> np.ndarray:
+        """Pseudo-time steps of growing length towards the steady state: the step grows with the
+        fall of the steady residual (switched evolution relaxation) and at least doubles after
+        an easy step."""
+        forcing = self.boundaries.forcing(t, t, state, steady=True)
+        dt = CONTINUATION_START
+        ev = self.system.evaluate(psi, forcing, None)
+        for _ in range(400):
+            storage = self.system.storage(psi, dt)
+            out = iterate(self.system, psi, forcing, storage, self.solver, self.method, tolerance=1e-8)
+            self.iterations += out.iterations
+            if not out.converged:
+                dt *= CUT
+                if dt < 1e-3:
+                    break
+                continue
+            psi = out.psi
+            new = self.system.evaluate(psi, forcing, None)
+            if new.converged(1e-6):
+                return psi
+            relaxation = ev.norm / max(new.norm, 1e-300)
+            easy = 2.0 if out.iterations <= EASY_ITERATIONS else 1.0
+            dt = min(dt * min(max(relaxation, easy), 10.0), 1e12)
+            ev = new
+        return psi
+
+
+def run_steps(stepper: Stepper, psi: np.ndarray, state: ActiveSet, stops: np.ndarray, dt_max: float,
+              on_step: Callable[[Outcome, StepForcing, Storage, float, float], float],
+              on_stop: Callable[[Outcome, StepForcing, float], None],
+              progress: Callable[[float], None] | None = None,
+              restarts: np.ndarray | None = None) -> list[StepRecord]:
+    """Adaptive backward-Euler steps through the ``stops`` (output times and breakpoints, sorted,
+    after t = 0). ``on_step`` sees every accepted step and returns its budget closure;
+    ``on_stop`` sees the state at every stop. At the stops listed in ``restarts`` the next step
+    restarts short (:data:`RESTART_FRACTION`)."""
+    restarts = np.zeros(0) if restarts is None else np.asarray(restarts)
+    records: list[StepRecord] = []
+    t = 0.0
+    dt = dt_max
+    end = float(stops[-1])
+    dt_min = MIN_STEP_FRACTION * dt_max
+    for stop in stops:
+        while t < stop - 1e-9 * max(stop, 1.0):
+            h = min(dt, stop - t)
+            if stop - (t + h) < 0.05 * h:
+                # no sliver before the stop: stretch up to the longest step, else halve the rest
+                h = stop - t if stop - t <= dt_max else 0.5 * (stop - t)
+            out, forcing, storage, new_state = stepper.solve_step(psi, t, t + h, state)
+            if not out.converged:
+                dt = h * CUT
+                if dt < dt_min:
+                    raise SolverError(f"the variably saturated step from t = {t:g} s did not converge even at "
+                                      f"{h:.3g} s; refine the grid or shorten [time] step")
+                continue
+            t1 = stop if h == stop - t else t + h
+            closure = on_step(out, forcing, storage, t, t1)
+            records.append(StepRecord(t1, h, out.iterations, closure))
+            psi, state, t = out.psi, new_state, t1
+            if out.iterations <= EASY_ITERATIONS:
+                dt = min(dt * GROWTH, dt_max) if h >= 0.999 * dt else dt
+            elif out.iterations > HARD_ITERATIONS:
+                dt = h * SHRINK
+            if progress is not None:
+                progress(t / end)
+        on_stop(out, forcing, t)
+        if restarts.size and np.min(np.abs(restarts - t)) <= 1e-9 * max(t, 1.0):
+            dt = min(dt, RESTART_STEP)
+    return records

@@ -1,0 +1,187 @@
+"""Analytic solutions of Richards' equation with the exponential model, derived here.
+
+With ``K = Ks exp(alpha psi)`` and ``theta = theta_r + (theta_s - theta_r) exp(alpha psi)`` the
+relative conductivity ``Kr = exp(alpha psi)`` obeys a *linear* equation (the transformation of
+Srivastava & Yeh 1991 and Tracy 2006; their printed formulas are not copied, the solutions below
+are derived step by step and checked against the equation by finite differences in
+``test_analytic_solutions.py``):
+
+    (theta_s - theta_r) dKr/dt = div(Ks/alpha grad Kr) + d(Ks Kr)/dz     (z up)
+
+1. Tracy (2006), steady, two dimensions, box ``0 <= x <= a``, ``0 <= z <= L``, ``psi = h_r`` on
+   the sides and the base, ``exp(alpha psi) = exp(alpha h_r) + (1 - exp(alpha h_r)) sin(pi x / a)``
+   on the top. With ``Kr = exp(alpha h_r) + f(z) sin(pi x / a)``:
+   ``f'' + alpha f' - (pi/a)^2 f = 0``, ``f(0) = 0``, ``f(L) = 1 - exp(alpha h_r)``, so
+   ``f = (1 - exp(alpha h_r)) exp(alpha (L - z) / 2) sinh(beta z) / sinh(beta L)``,
+   ``beta = sqrt(alpha^2 / 4 + (pi / a)^2)``.
+
+2. Srivastava & Yeh (1991), one dimension, the water table at ``z = 0`` (``Kr = 1``), layers with
+   a common ``alpha`` (so ``Kr`` is continuous where ``psi`` is), infiltration ``q_A`` at the
+   surface ``z = L`` before ``t = 0`` (steady) and ``q_B`` after. In each layer the steady flux
+   ``Ks (Kr'/alpha + Kr) = q`` gives ``Kr = q / Ks + C exp(-alpha z)``. The transient rest
+   ``v = Kr - Kr_B`` is written ``v = exp(-alpha z) w``; then
+   ``c exp(-alpha z) w_t = (Ks / alpha) (exp(-alpha z) w_z)_z`` with ``w(0) = 0``,
+   ``w_z(L) = 0`` and ``w``, ``Ks w_z`` continuous at an interface: a regular Sturm-Liouville
+   problem with weight ``c exp(-alpha z)``. Its eigenfunctions are
+   ``exp(alpha z / 2) (A cos(b z) + B sin(b z))`` with ``b^2 = mu c alpha / Ks - alpha^2 / 4`` in
+   each layer; the eigenvalues ``mu`` are the roots of ``w_z(L; mu) = 0`` and the coefficients
+   are weighted projections of ``w(z, 0)``.
+"""
+from __future__ import annotations
+
+import numpy as np
+from scipy.optimize import brentq
+
+
+def tracy_relative_conductivity(x, z, a: float, L: float, alpha: float, h_r: float) -> np.ndarray:
+    """``Kr = exp(alpha psi)`` of the steady two-dimensional solution (z up from the base)."""
+    beta = np.sqrt(alpha**2 / 4 + (np.pi / a) ** 2)
+    er = np.exp(alpha * h_r)
+    f = (1 - er) * np.exp(alpha * (L - z) / 2) * np.sinh(beta * z) / np.sinh(beta * L)
+    return er + f * np.sin(np.pi * x / a)
+
+
+def tracy_pressure(x, z, a: float, L: float, alpha: float, h_r: float) -> np.ndarray:
+    """Pressure head of the steady two-dimensional solution."""
+    return np.log(tracy_relative_conductivity(x, z, a, L, alpha, h_r)) / alpha
+
+
+def _s(b2: float, z):
+    """sin(b z) / b, continued to b^2 <= 0 (sinh)."""
+    if b2 > 1e-14:
+        b = np.sqrt(b2)
+        return np.sin(b * z) / b
+    if b2 < -1e-14:
+        b = np.sqrt(-b2)
+        return np.sinh(b * z) / b
+    return z + 0 * z
+
+
+def _c(b2: float, z):
+    """cos(b z), continued to b^2 <= 0 (cosh)."""
+    if b2 > 1e-14:
+        return np.cos(np.sqrt(b2) * z)
+    if b2 < -1e-14:
+        return np.cosh(np.sqrt(-b2) * z)
+    return 1 + 0 * z
+
+
+def _ds(b2: float, z):
+    """d/dz of sin(b z) / b."""
+    return _c(b2, z)
+
+
+def _dc(b2: float, z):
+    """d/dz of cos(b z)."""
+    return -b2 * _s(b2, z)
+
+
+class LayeredInfiltration:
+    """Srivastava & Yeh (1991) problem for up to two layers (see the module doc).
+
+    Parameters
+    ----------
+    L
+        Height of the surface above the water table (m).
+    alpha
+        Exponential-model alpha (1/m), common to the layers.
+    ks, width
+        Saturated conductivity and ``theta_s - theta_r`` of the lower and upper layer.
+    interface
+        Height of the layer interface above the water table (``L`` for one layer).
+    q_a, q_b
+        Infiltration rate (positive downward, m/s) before and after ``t = 0``.
+    terms
+        Number of eigenfunctions.
+    """
+
+    def __init__(self, L, alpha, ks, width, interface, q_a, q_b, terms=200):
+        self.L, self.alpha = L, alpha
+        self.ks, self.width = tuple(ks), tuple(width)
+        self.z1 = interface
+        self.q_a, self.q_b = q_a, q_b
+        self.mu = self._eigenvalues(terms)
+        self._coefficients()
+
+    # steady states ------------------------------------------------------------------------
+    def steady(self, z, q):
+        z = np.asarray(z, dtype=float)
+        a, (k1, k2) = self.alpha, self.ks
+        c1 = 1 - q / k1
+        c2 = c1 + (q / k1 - q / k2) * np.exp(a * self.z1)
+        return np.where(z <= self.z1, q / k1 + c1 * np.exp(-a * z), q / k2 + c2 * np.exp(-a * z))
+
+    # eigenfunctions -----------------------------------------------------------------------
+    def _b2(self, mu, layer):
+        return mu * self.width[layer] * self.alpha / self.ks[layer] - self.alpha**2 / 4
+
+    def _layer2(self, mu):
+        """Coefficients (A, B) of the upper layer for the eigenfunction with w = e^{az/2} s(b1, z) below."""
+        a, z1 = self.alpha, self.z1
+        b1 = self._b2(mu, 0)
+        w1 = np.exp(a * z1 / 2) * _s(b1, z1)
+        dw1 = np.exp(a * z1 / 2) * (a / 2 * _s(b1, z1) + _ds(b1, z1))
+        dw2 = self.ks[0] / self.ks[1] * dw1  # Ks w_z continuous
+        A = w1 * np.exp(-a * z1 / 2)
+        B = dw2 * np.exp(-a * z1 / 2) - a / 2 * A  # times d/dz of s(b2, z - z1) at z1, which is 1
+        return A, B
+
+    def eigenfunction(self, mu, z):
+        z = np.asarray(z, dtype=float)
+        a, z1 = self.alpha, self.z1
+        lower = np.exp(a * z / 2) * _s(self._b2(mu, 0), z)
+        if z1 >= self.L:
+            return lower
+        A, B = self._layer2(mu)
+        b2 = self._b2(mu, 1)
+        upper = np.exp(a * z / 2) * (A * _c(b2, z - z1) + B * _s(b2, z - z1))
+        return np.where(z <= z1, lower, upper)
+
+    def _top_slope(self, mu):
+        a, L, z1 = self.alpha, self.L, self.z1
+        if z1 >= L:
+            b1 = self._b2(mu, 0)
+            return np.exp(a * L / 2) * (a / 2 * _s(b1, L) + _ds(b1, L))
+        A, B = self._layer2(mu)
+        b2 = self._b2(mu, 1)
+        d = L - z1
+        return np.exp(a * L / 2) * (a / 2 * (A * _c(b2, d) + B * _s(b2, d)) + A * _dc(b2, d) + B * _ds(b2, d))
+
+    def _eigenvalues(self, terms):
+        # scan mu on a grid fine enough to separate the roots, then refine each sign change
+        scale = max(k / (w * self.alpha) for k, w in zip(self.ks, self.width))
+        top = scale * (self.alpha**2 / 4 + (np.pi * (terms + 2) / self.L) ** 2) * 1.5
+        grid = np.concatenate([[0.0], np.geomspace(top * 1e-9, top, 40 * terms)])
+        f = np.array([self._top_slope(m) for m in grid])
+        roots = [brentq(self._top_slope, grid[i], grid[i + 1], xtol=1e-14 * grid[i + 1], rtol=1e-14)
+                 for i in range(grid.size - 1) if f[i] == 0 or np.sign(f[i]) != np.sign(f[i + 1])]
+        roots = [r for r in roots if r > 0]
+        if len(roots) < terms:
+            raise RuntimeError("eigenvalue scan found too few roots")
+        return np.array(roots[:terms])
+
+    def _coefficients(self):
+        a = self.alpha
+        # Gauss-Legendre quadrature in each layer
+        nodes, weights = np.polynomial.legendre.leggauss(400)
+        parts = [(0.0, min(self.z1, self.L), 0)] + ([(self.z1, self.L, 1)] if self.z1 < self.L else [])
+        zq, wq = [], []
+        for lo, hi, layer in parts:
+            z = 0.5 * (hi - lo) * nodes + 0.5 * (hi + lo)
+            zq.append(z)
+            wq.append(0.5 * (hi - lo) * weights * self.width[layer] * np.exp(-a * z))
+        zq, wq = np.concatenate(zq), np.concatenate(wq)
+        w0 = np.exp(a * zq) * (self.steady(zq, self.q_a) - self.steady(zq, self.q_b))
+        self.coef = np.empty(self.mu.size)
+        for k, mu in enumerate(self.mu):
+            phi = self.eigenfunction(mu, zq)
+            self.coef[k] = np.sum(wq * w0 * phi) / np.sum(wq * phi * phi)
+
+    # solution -----------------------------------------------------------------------------
+    def relative_conductivity(self, z, t: float):
+        z = np.asarray(z, dtype=float)
+        w = sum(c * np.exp(-mu * t) * self.eigenfunction(mu, z) for c, mu in zip(self.coef, self.mu))
+        return self.steady(z, self.q_b) + np.exp(-self.alpha * z) * w
+
+    def pressure(self, z, t: float):
+        return np.log(self.relative_conductivity(z, t)) / self.alpha
