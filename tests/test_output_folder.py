@@ -166,12 +166,16 @@ def test_second_command_into_a_locked_folder_is_refused(tmp_path, capsys):
 
 
 def test_two_runs_started_together_one_is_refused(tmp_path):
-    slow = write(tmp_path / "slow.toml", SLOW.replace('end = "20 d"', 'end = "2 d"'))
+    slow = write(tmp_path / "slow.toml", SLOW.replace('end = "20 d"', 'end = "6 h"'))
     out = tmp_path / "out"
     first = popen("run", str(slow), "-o", str(out), "-q")
     try:
         wait_for(lambda: stage_debris(out))                    # the first is computing
-        second = cli("run", "-o", str(out), "-q", timeout=120)
+        first.send_signal(signal.SIGSTOP)                       # and stays in the middle of it
+        try:
+            second = cli("run", "-o", str(out), "-q", timeout=120)
+        finally:
+            first.send_signal(signal.SIGCONT)
         assert second.returncode == 2, second.stderr
         assert "another bedflux command is writing into this folder" in second.stderr
         assert first.wait(timeout=300) == 0
