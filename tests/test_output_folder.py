@@ -35,7 +35,7 @@ MODEL = ROOT / "model"
 GRID = ('[grid]\nx = [0, 2]\nbottom = -2\ndx = 0.5\ndz = 0.1\n[ground]\nelevation = 0\n'
         '[[zone]]\nname = "a"\nkh = 1e-5\n')
 WAVE = GRID + ('[stream.wave]\nmean = 0.5\namplitude = 0.2\nperiod = "1 h"\n'
-               '[time]\nend = "4 h"\nstep = "10 min"\noutput_every = "30 min"\n')
+               '[time]\nend = "4 h"\nstep = "10 min"\noutput_every = "1 h"\n')
 COLUMN = GRID + "[stream]\nstage = 0.5\n"
 #: Long enough to be stopped part way (about a minute of stepping when left alone).
 SLOW = ('title = "Slow wave (invented)"\n[grid]\nx = [0, 20]\nbottom = -4\ndx = 0.1\ndz = 0.1\n'
