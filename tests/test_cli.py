@@ -21,7 +21,7 @@ def test_builtin_example_writes_outputs(tmp_path, capsys):
     assert main(["run", "-o", str(out), "-q"]) == 0
     for name in ("result.nc", "summary.txt", "summary.json", "section.png", "provenance.json"):
         assert (out / name).is_file(), name
-    with xr.open_dataset(out / "result.nc", engine="scipy") as ds:
+    with xr.open_dataset(out / "result.nc", engine="h5netcdf") as ds:
         for var in ("head", "bed_flux", "qx", "qz", "exchange"):
             assert var in ds
             assert "units" in ds[var].attrs

@@ -19,6 +19,7 @@ import sys
 import time
 from pathlib import Path
 
+import numpy as np
 import pytest
 import xarray as xr
 
@@ -34,7 +35,7 @@ MODEL = ROOT / "model"
 GRID = ('[grid]\nx = [0, 2]\nbottom = -2\ndx = 0.5\ndz = 0.1\n[ground]\nelevation = 0\n'
         '[[zone]]\nname = "a"\nkh = 1e-5\n')
 WAVE = GRID + ('[stream.wave]\nmean = 0.5\namplitude = 0.2\nperiod = "1 h"\n'
-               '[time]\nend = "4 h"\nstep = "10 min"\noutput_every = "30 min"\n')
+               '[time]\nend = "4 h"\nstep = "10 min"\noutput_every = "1 h"\n')
 COLUMN = GRID + "[stream]\nstage = 0.5\n"
 #: Long enough to be stopped part way (about a minute of stepping when left alone).
 SLOW = ('title = "Slow wave (invented)"\n[grid]\nx = [0, 20]\nbottom = -4\ndx = 0.1\ndz = 0.1\n'
@@ -165,18 +166,22 @@ def test_second_command_into_a_locked_folder_is_refused(tmp_path, capsys):
 
 
 def test_two_runs_started_together_one_is_refused(tmp_path):
-    slow = write(tmp_path / "slow.toml", SLOW.replace('end = "20 d"', 'end = "2 d"'))
+    slow = write(tmp_path / "slow.toml", SLOW.replace('end = "20 d"', 'end = "6 h"'))
     out = tmp_path / "out"
     first = popen("run", str(slow), "-o", str(out), "-q")
     try:
         wait_for(lambda: stage_debris(out))                    # the first is computing
-        second = cli("run", "-o", str(out), "-q", timeout=120)
+        first.send_signal(signal.SIGSTOP)                       # and stays in the middle of it
+        try:
+            second = cli("run", "-o", str(out), "-q", timeout=120)
+        finally:
+            first.send_signal(signal.SIGCONT)
         assert second.returncode == 2, second.stderr
         assert "another bedflux command is writing into this folder" in second.stderr
         assert first.wait(timeout=300) == 0
     finally:
         first.kill()
-    with xr.open_dataset(out / "result.nc", engine="scipy") as ds:
+    with xr.open_dataset(out / "result.nc", engine="h5netcdf") as ds:
         assert ds.attrs["title"] == "Slow wave (invented)"
 
 
@@ -416,5 +421,27 @@ def test_two_identical_runs_write_identical_result_files(tmp_path):
     one = (tmp_path / "one" / "result.nc").read_bytes()
     two = (tmp_path / "two" / "result.nc").read_bytes()
     assert one == two
-    with xr.open_dataset(tmp_path / "one" / "result.nc", engine="scipy") as ds:
+    with xr.open_dataset(tmp_path / "one" / "result.nc", engine="h5netcdf") as ds:
         assert "factorization_seconds" not in ds.attrs and ds.attrs["steps"] == 24
+
+
+def test_result_is_compressed_netcdf4_and_reads_back_exactly(tmp_path):
+    # netCDF-4 is HDF5 underneath (Unidata netCDF User Guide, "netCDF-4 format"); an HDF5 file
+    # starts with the superblock signature \x89HDF\r\n\x1a\n (HDF5 File Format Specification,
+    # section II.A). Compression is the deflate filter, which h5py reports as "gzip".
+    import h5py
+
+    import bedflux
+    from bedflux.outputs.files import read_result, write_result
+
+    ds = bedflux.simulate(bedflux.load(write(tmp_path / "wave.toml", WAVE)))
+    path = write_result(ds, tmp_path / "result.nc")
+    assert path.read_bytes()[:8] == b"\x89HDF\r\n\x1a\n"
+    with h5py.File(path, "r") as f:
+        assert f["head"].compression == "gzip" and f["head"].shuffle
+        assert "_NCProperties" in f.attrs                       # written as netCDF-4, not bare HDF5
+    back = read_result(path)
+    for name in ("head", "qx", "qz", "bed_flux", "exchange", "budget_closure", "zone", "kh"):
+        np.testing.assert_array_equal(back[name].values, ds[name].values)
+    assert list(back["term"].values) == list(ds["term"].values)
+    assert "factorization_seconds" not in back.attrs and back.attrs["steps"] == ds.attrs["steps"]

@@ -1,7 +1,20 @@
-"""Helpers that write small field sheets for tests (invented values)."""
+"""Helpers that write small field sheets for tests (invented values), and the demo campaign's
+reduction shared by the field tests."""
 from pathlib import Path
 
 import pytest
+
+DEMO = Path(__file__).resolve().parents[2] / "scenarios" / "field"
+
+
+@pytest.fixture(scope="session")
+def demo(tmp_path_factory):
+    """The reduction of the invented demo campaign (scenarios/field), made once per session:
+    the output folder (read only) and the summary."""
+    from bedflux.field import run_field
+
+    out = tmp_path_factory.mktemp("demo")
+    return out, run_field(DEMO, out, quiet=True)
 
 SITES = """site,x [m],y [m],bed_elevation [m],transect
 A1,10,1,100.0,A

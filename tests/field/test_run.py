@@ -8,14 +8,6 @@ import pytest
 
 from bedflux.field import run_field
 
-DEMO = Path(__file__).resolve().parents[2] / "scenarios" / "field"
-
-
-@pytest.fixture(scope="module")
-def demo(tmp_path_factory):
-    out = tmp_path_factory.mktemp("demo")
-    summary = run_field(DEMO, out, quiet=True)
-    return out, summary
 
 
 def test_demo_writes_everything(demo):

@@ -15,12 +15,6 @@ SCENARIOS = Path(__file__).resolve().parents[2] / "scenarios"
 DEMO = SCENARIOS / "field"
 
 
-@pytest.fixture(scope="module")
-def demo(tmp_path_factory):
-    out = tmp_path_factory.mktemp("demo")
-    return out, run_field(DEMO, out, quiet=True)
-
-
 def test_between_meter_estimate_recovers_a_known_scatter():
     # One-way random-effects model: meter mean = mu_t (1 + tau e1) + s e2 with tau = 0.25 and a
     # within-meter error s = 0.15 mu; the method-of-moments estimate of tau^2 (DerSimonian &
@@ -108,12 +102,13 @@ def test_every_observation_kind_carries_a_between_instrument_term(demo):
         assert (t["ln_k_sigma [1]"] >= t["ln_k_between_sigma [1]"]).all()
 
 
-def test_worked_fit_misfit_is_what_its_errors_explain(tmp_path):
+def test_worked_fit_misfit_is_what_its_errors_explain(worked_example):
     # With sigmas that describe the errors, the weighted sum of squares of a least-squares fit
     # follows a chi-square distribution with n - p degrees of freedom (e.g. Aster, Borchers &
     # Thurber 2013, ch. 2); the worked fit of the README must lie inside its 99 % interval.
-    out = tmp_path / "fit"
-    assert main(["fit", str(SCENARIOS / "reach_fit.toml"), "-o", str(out), "-q"]) == 0
+    # (bedflux fit on scenarios/reach_fit.toml, run once per session: tests/conftest.py)
+    assert worked_example.status["fit"] == 0
+    out = worked_example.root / "fit"
     st = json.loads((out / "fit_results.json").read_text())["statistics"]
     dof = st["degrees_of_freedom"]
     lo, hi = stats.chi2.ppf([0.005, 0.995], dof)

@@ -27,7 +27,6 @@ import bedflux
 from bedflux.cli import main
 
 ROOT = Path(__file__).resolve().parents[2]
-EXAMPLE = ROOT / "scenarios" / "reach_fit.toml"
 PAN = 0.57  # the worked example's pan diameter ("57 cm")
 OUTPUTS = ["fit_results.json", "residuals.csv", "fit_summary.txt", "calibrated.toml",
            "observed_vs_simulated.png", "residuals.png", "parameter_intervals.png",
@@ -35,10 +34,9 @@ OUTPUTS = ["fit_results.json", "residuals.csv", "fit_summary.txt", "calibrated.t
 
 
 @pytest.fixture(scope="module")
-def worked(tmp_path_factory):
-    out = tmp_path_factory.mktemp("fit") / "out"
-    status = main(["fit", str(EXAMPLE), "-o", str(out), "-q"])
-    return status, out
+def worked(worked_example):
+    """``bedflux fit`` on scenarios/reach_fit.toml (the session's worked example: tests/conftest.py)."""
+    return worked_example.status["fit"], worked_example.root / "fit"
 
 
 def test_exit_status_and_every_output(worked):

@@ -2,8 +2,8 @@
 
 The chain of issue 7 is run on the worked example into a temporary project folder: ``bedflux run``
 on scenarios/flood_pulse.toml and scenarios/reach_long.toml, ``bedflux field`` on scenarios/field,
-``bedflux fit`` on scenarios/reach_fit.toml, ``bedflux plan`` when that verb exists, then
-``bedflux report``. Debian's Chromium (``chromium`` and ``chromium-driver``) renders the page
+``bedflux fit`` on scenarios/reach_fit.toml, ``bedflux plan`` when that verb exists (the session
+fixture ``worked_example`` of tests/conftest.py, shared with other tests), then ``bedflux report``. Debian's Chromium (``chromium`` and ``chromium-driver``) renders the page
 through selenium. This test never skips: without a browser it fails and says what to install.
 
 Set ``BEDFLUX_UPDATE_SCREENSHOT=1`` to also refresh docs/report_example.png from the screenshot.
@@ -11,7 +11,6 @@ Set ``BEDFLUX_UPDATE_SCREENSHOT=1`` to also refresh docs/report_example.png from
 from __future__ import annotations
 
 import base64
-import importlib.util
 import io
 import json
 import os
@@ -28,7 +27,6 @@ from bedflux.report import findings
 from bedflux.report.collect import collect
 
 ROOT = Path(__file__).resolve().parents[2]
-SCENARIOS = ROOT / "scenarios"
 INSTALL_HINT = ("install Debian's browser and its driver: apt-get install -y chromium chromium-driver "
                 "(.ci/run does this), and the test extras: pip install '.[test]' (selenium)")
 
@@ -44,20 +42,10 @@ def _find(*names: str) -> str | None:
 
 
 @pytest.fixture(scope="module")
-def project(tmp_path_factory) -> Path:
-    """The worked example's outputs, and the report, in one project folder."""
-    root = tmp_path_factory.mktemp("worked") / "project"
-    steps = [["run", str(SCENARIOS / "flood_pulse.toml"), "-o", str(root / "pulse"), "-q"],
-             ["run", str(SCENARIOS / "reach_long.toml"), "-o", str(root / "reach"), "-q"],
-             ["field", str(SCENARIOS / "field"), "-o", str(root / "field"), "-q"],
-             ["fit", str(SCENARIOS / "reach_fit.toml"), "-o", str(root / "fit"), "-q"]]
-    if importlib.util.find_spec("bedflux.planning.command") is not None:
-        plans = sorted(SCENARIOS.glob("*plan*.toml"))
-        if not plans:
-            pytest.fail("bedflux plan exists but scenarios/ has no *plan*.toml for the worked example")
-        steps.append(["plan", str(plans[0]), "-o", str(root / "plan"), "-q"])
-    for argv in steps:
-        assert main(argv) == 0, f"bedflux {' '.join(argv)} failed"
+def project(worked_example) -> Path:
+    """The worked example's outputs (shared with other tests: tests/conftest.py), and the report."""
+    worked_example.assert_all_succeeded()
+    root = worked_example.root
     if not (root / "pulse" / "animation.gif").exists():
         # until bedflux run writes the animation itself
         from bedflux.outputs.animation import animate

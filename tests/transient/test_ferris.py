@@ -109,9 +109,11 @@ def fit(t, y):
 
 
 CASES = [(k, s) for k in ("column", "bank") for s in ("backward-euler", "crank-nicolson")]
+#: Crank-Nicolson cases are marked slow (16 periods of 360 steps each; CI runs them with -m slow).
+PARAMS = [pytest.param(c, marks=pytest.mark.slow) if c[1] == "crank-nicolson" else c for c in CASES]
 
 
-@pytest.fixture(scope="module", params=CASES, ids=[f"{k}-{s}" for k, s in CASES])
+@pytest.fixture(scope="module", params=PARAMS, ids=[f"{k}-{s}" for k, s in CASES])
 def measured(request):
     kind, scheme = request.param
     ds = run(kind, scheme)

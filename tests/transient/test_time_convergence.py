@@ -12,6 +12,7 @@ reference with a 32x finer step than the finest tested, on the same grid; its ow
 
 Measured order = least-squares slope of log(error) vs log(dt); accepted within 0.15 of the
 expected order. A harness self-test shows the check rejects a first-order sequence as second order.
+The order measurements and the check on the reference run are marked ``slow`` (CI runs them).
 """
 from __future__ import annotations
 
@@ -93,6 +94,7 @@ def sequence(request, reference):
     return scheme, dts, errs
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("what", ["head", "bed_flux", "exchange"])
 def test_temporal_order(sequence, what):
     scheme, dts, errs = sequence
@@ -101,6 +103,7 @@ def test_temporal_order(sequence, what):
     MEASURED[(scheme, what)] = p
 
 
+@pytest.mark.slow
 def test_exchange_is_bed_flux_summed_over_the_channel(reference):
     # with the stream only on top faces, the net exchange per metre of channel is the bed flux
     # summed over the channel columns times their width (design brief: definition of exchange);

@@ -8,8 +8,6 @@ from scipy import stats as _st
 
 #: Modified z-score above which a value is a robust outlier (Iglewicz & Hoaglin 1993).
 MODIFIED_Z_LIMIT = 3.5
-#: 0.6745 = the 0.75 quantile of the standard normal, which scales the MAD to a standard deviation.
-_MAD_SCALE = 0.6745
 
 
 @dataclass(frozen=True)
@@ -90,17 +88,19 @@ def repeat_statistics(values: np.ndarray, level: float = 0.95) -> Summary:
 
 
 def modified_z(values: np.ndarray) -> np.ndarray:
-    """Modified z-scores 0.6745 (x - median) / MAD (Iglewicz & Hoaglin 1993).
+    """Modified z-scores (x - median) / (MAD / 0.6745) (Iglewicz & Hoaglin 1993).
 
-    Returns zeros when the MAD is zero (more than half the values equal), where the score is
-    undefined and no value is called an outlier.
+    The MAD is scaled to a standard deviation of normal data by scipy's
+    ``median_abs_deviation(scale="normal")``, which divides by the exact 0.75 quantile of the
+    standard normal (0.674490; Iglewicz & Hoaglin print it rounded to 0.6745). Returns zeros
+    when the MAD is zero (more than half the values equal), where the score is undefined and no
+    value is called an outlier.
     """
     v = np.asarray(values, dtype=float)
-    med = np.median(v)
-    mad = np.median(np.abs(v - med))
-    if mad == 0:
+    sd = _st.median_abs_deviation(v, scale="normal")
+    if sd == 0:
         return np.zeros_like(v)
-    return _MAD_SCALE * (v - med) / mad
+    return (v - np.median(v)) / sd
 
 
 def robust_outliers(values: np.ndarray, limit: float = MODIFIED_Z_LIMIT) -> np.ndarray:

@@ -28,7 +28,8 @@ def result_size(scenario: Scenario) -> tuple[int, str]:
     """Estimated size of result.nc in bytes, and how it was estimated.
 
     Grid cells x output times x variables x 8 bytes, from the grid alone (the grid's own
-    cell-count check runs first, before any large array exists).
+    cell-count check runs first, before any large array exists): the uncompressed size, which
+    the file's compression only lowers for any run large enough to matter.
     """
     from bedflux.section.grid import build_grid
 

@@ -1,12 +1,13 @@
-"""The report as one self-contained HTML page.
+"""The report as one self-contained HTML page, from the Jinja template ``templates/report.html``.
 
 Figures are embedded as base64 ``data:`` URIs, the stylesheet is inline, and no script or
-external file is referenced: the page can be mailed, archived and printed as it is.
+external file is referenced: the page can be mailed, archived and printed as it is. This module
+turns the collected outputs into plain values (key tables, tables, figures, notes, reproduced
+files, each a *block*); the template lays them out and escapes every value (autoescaping).
 """
 from __future__ import annotations
 
 import base64
-import html
 import math
 from datetime import datetime, timezone
 from pathlib import Path
@@ -20,6 +21,10 @@ from bedflux.outputs.summary import closure_phrase
 from bedflux.outputs.files import sha256
 from bedflux.report.collect import MAX_REPRODUCED_BYTES, TEXT_SUFFIXES, Output, Project, read_table
 from bedflux.report.style import STYLESHEET
+
+#: One piece of a section for the template: a dict with ``kind`` (keys, table, figure, note,
+#: heading, file) and that kind's values.
+Block = dict[str, Any]
 
 MIME = {".png": "image/png", ".gif": "image/gif", ".jpg": "image/jpeg", ".jpeg": "image/jpeg",
         ".svg": "image/svg+xml"}
@@ -61,23 +66,22 @@ CAUTIONS = [
 ]
 
 
-def esc(text: Any) -> str:
-    """HTML-escape any value as text."""
-    return html.escape(str(text), quote=True)
-
-
 def data_uri(path: Path) -> str:
     """A file as a base64 ``data:`` URI."""
     mime = MIME.get(path.suffix.lower(), "application/octet-stream")
     return f"data:{mime};base64," + base64.b64encode(path.read_bytes()).decode("ascii")
 
 
-def figure(path: Path, kind: str, alt: str, note: str = "", per_metre_of: str = "channel") -> str:
+def figure(path: Path, kind: str, alt: str, note: str = "", per_metre_of: str = "channel") -> Block:
     """An embedded figure with its caption (``note`` first, e.g. that the run was interrupted)."""
     cap = CAPTIONS.get((kind, path.name), "").replace("per metre of channel", f"per metre of {per_metre_of}")
-    cap = f"{note} {cap}".strip()
-    return (f'<figure><img src="{data_uri(path)}" alt="{esc(alt)}">'
-            f"<figcaption><b>{esc(path.name)}</b>. {esc(cap)}</figcaption></figure>")
+    return {"kind": "figure", "src": data_uri(path), "alt": alt, "name": path.name,
+            "caption": f"{note} {cap}".strip()}
+
+
+def remark(text: str) -> Block:
+    """A note in small print."""
+    return {"kind": "note", "text": text}
 
 
 def cell(v: Any) -> str:
@@ -95,87 +99,61 @@ def cell(v: Any) -> str:
     return str(v)
 
 
-def table(df: pd.DataFrame, caption: str = "", max_rows: int = MAX_ROWS, source: str = "") -> str:
-    """An HTML table of a frame; long tables are thinned evenly to ``max_rows`` rows."""
+def table(df: pd.DataFrame, caption: str = "", max_rows: int = MAX_ROWS, source: str = "") -> list[Block]:
+    """A table of a frame (none, or a note, when it is empty); long tables are thinned evenly to
+    ``max_rows`` rows."""
     if df is None or df.empty:
-        return f'<p class="note">{esc(caption)}: no rows.</p>' if caption else ""
+        return [remark(f"{caption}: no rows.")] if caption else []
     n = len(df)
-    note = ""
+    thinned = ""
     if n > max_rows:
         step = math.ceil(n / max_rows)
         df = df.iloc[::step]
-        note = f" Every {step}th of {n} rows shown" + (f"; the full table is {source}." if source else ".")
-    text_cols = [c for c in df.columns if not pd.api.types.is_numeric_dtype(df[c])]
-    head = "".join(f'<th class="{"text" if c in text_cols else "num"}" scope="col">{esc(c)}</th>'
-                   for c in df.columns)
-    rows = []
-    for rec in df.itertuples(index=False):
-        tds = "".join(f'<td class="{"text" if c in text_cols else "num"}">{esc(cell(v))}</td>'
-                      for c, v in zip(df.columns, rec))
-        rows.append(f"<tr>{tds}</tr>")
-    cap = f"<caption>{esc(caption + note)}</caption>" if caption or note else ""
-    return (f'<div class="wide"><table>{cap}<thead><tr>{head}</tr></thead><tbody>{"".join(rows)}'
-            "</tbody></table></div>")
+        thinned = f" Every {step}th of {n} rows shown" + (f"; the full table is {source}." if source else ".")
+    classes = ["num" if pd.api.types.is_numeric_dtype(df[c]) else "text" for c in df.columns]
+    rows = [[(cell(v), c) for v, c in zip(rec, classes)] for rec in df.itertuples(index=False)]
+    return [{"kind": "table", "caption": caption + thinned, "columns": list(zip(map(str, df.columns), classes)),
+             "rows": rows}]
 
 
-def keys_table(rows: Iterable[tuple[str, str]], caption: str = "") -> str:
+def keys_table(rows: Iterable[tuple[str, Any]], caption: str = "") -> Block:
     """A two-column table of labels and formatted values."""
-    body = "".join(f'<tr><td class="text">{esc(k)}</td><td>{esc(v)}</td></tr>' for k, v in rows)
-    cap = f"<caption>{esc(caption)}</caption>" if caption else ""
-    return f'<table class="keys">{cap}<tbody>{body}</tbody></table>'
+    return {"kind": "keys", "caption": caption, "rows": [(str(k), str(v)) for k, v in rows]}
 
 
-def reproduce(path: Path, label: str) -> str:
+def reproduce(path: Path, label: str) -> Block:
     """A text input file reproduced in full (or named with its hash when large or binary)."""
     size = path.stat().st_size
     if path.suffix.lower() in TEXT_SUFFIXES and size <= MAX_REPRODUCED_BYTES:
         try:
-            text = path.read_text(encoding="utf-8")
-            return f"<h4>{esc(label)}</h4><pre><code>{esc(text)}</code></pre>"
+            return {"kind": "file", "label": label, "text": path.read_text(encoding="utf-8")}
         except UnicodeDecodeError:
             pass
-    return (f'<h4>{esc(label)}</h4><p class="note">{size} bytes, not reproduced; SHA-256 '
-            f"<code>{sha256(path)}</code>.</p>")
+    return {"kind": "file", "label": label, "text": None, "size": size, "sha256": sha256(path)}
+
+
+def inputs(o: Output, heading: str) -> list[Block]:
+    """The input files of an output under a heading (nothing when it has none)."""
+    if not o.inputs:
+        return []
+    return [{"kind": "heading", "text": heading}] + [reproduce(p, p.relative_to(o.folder).as_posix())
+                                                     for p in o.inputs]
+
+
+def section(anchor: str, heading: str, blocks: list[Block], meta: str = "") -> dict:
+    """A section of the page."""
+    return {"id": anchor, "heading": heading, "meta": meta, "blocks": blocks}
 
 
 # --------------------------------------------------------------------------- sections
 
-def _opening(o: Output, title: str) -> list[str]:
-    """The start of an output's section: its title and folder."""
-    return [f'<section id="{o.anchor}"><h2>{esc(title)}</h2>', f'<p class="meta">folder {esc(o.label)}</p>']
+def _findings(found: list[findings.Finding]) -> list[tuple[str, str, list[findings.Finding]]]:
+    """The findings by topic, in the order of :data:`findings.TOPICS`; topics without any left out."""
+    by_topic = [(topic, heading, [f for f in found if f.topic == topic]) for topic, heading in findings.TOPICS.items()]
+    return [t for t in by_topic if t[2]]
 
 
-def _closing(o: Output, heading: str) -> list[str]:
-    """The end of an output's section: its input files reproduced under ``heading``."""
-    parts = []
-    if o.inputs:
-        parts.append(f"<h3>{esc(heading)}</h3>")
-        parts += [reproduce(p, p.relative_to(o.folder).as_posix()) for p in o.inputs]
-    return parts + ["</section>"]
-
-
-def _findings_section(found: list[findings.Finding]) -> str:
-    parts = ['<section class="findings" id="findings"><h2>Findings</h2>']
-    for topic, heading in findings.TOPICS.items():
-        items = [f for f in found if f.topic == topic]
-        if not items:
-            continue
-        parts.append(f'<h3 id="finding-{topic}">{esc(heading)}</h3>')
-        for f in items:
-            src = f"from {f.source}" + (f": {f.title}" if f.title else "")
-            parts.append(f'<p class="source">{esc(src)}</p>'
-                         f'<p class="finding" data-topic="{topic}" data-source="{esc(f.source)}">'
-                         f"{esc(f.text)}</p>")
-    parts.append("</section>")
-    return "".join(parts)
-
-
-def _cautions_section() -> str:
-    items = "".join(f"<li>{esc(c)}</li>" for c in CAUTIONS)
-    return f'<section class="cautions" id="cautions"><h2>Cautions</h2><ul>{items}</ul></section>'
-
-
-def _run_section(o: Output, unit: str) -> str:
+def _run_section(o: Output, unit: str) -> dict:
     s = o.data["summary"]
     day = findings.DAY
     of = s.get("per_metre_of", "channel")
@@ -186,8 +164,8 @@ def _run_section(o: Output, unit: str) -> str:
             ("submerged bed", findings.length(s.get("submerged_length_m"))),
             ("gaining length", findings.length(s.get("gaining_length_m"))),
             ("losing length", findings.length(s.get("losing_length_m"))),
-            ("bed flux range (+ = upward)", f"{findings.flux(lo, unit)} to {findings.flux(hi, unit)}"
-             if findings.finite(lo) else "no bed under water"),
+            ("bed flux range (+ = upward)", f"{findings.flux(lo, unit)} to {findings.flux(hi, unit)}" if findings.finite(lo)
+             else "no bed under water"),
             ("water budget closure", closure_phrase(s.get("budget_closure"), s.get("budget_closure_note", "")))]
     stop = findings.interruption(s)
     if stop:
@@ -208,48 +186,48 @@ def _run_section(o: Output, unit: str) -> str:
                  ("deepest stream water below the bed", findings.length(ev.get("max_penetration_depth")))]
     for w in s.get("warnings") or []:
         rows.append(("WARNING", str(w)))
-    parts = _opening(o, f"Model run: {s.get('title', o.label)}") + [
-        keys_table(rows, f"Key numbers (SI files; shown in m³/d per metre and {unit})")]
+    blocks = [keys_table(rows, f"Key numbers (SI files; shown in m³/d per metre and {unit})")]
     inflow = s.get("inflow_m2_per_s") or {}
     outflow = s.get("outflow_m2_per_s") or {}
     terms = [t for t in inflow if abs(inflow.get(t, 0.0)) > 0 or abs(outflow.get(t, 0.0)) > 0]
     if terms:
         bud = pd.DataFrame({"term": terms, "inflow (m³/d per m)": [inflow[t] * day for t in terms],
                             "outflow (m³/d per m)": [outflow.get(t, 0.0) * day for t in terms]})
-        parts.append(table(bud, "Water budget" + (" at the last output time" if ev else "")))
-    extremes = _extremes_table(s.get("bed"), unit)
-    if extremes:
-        parts.append(extremes)
-    note = f"PARTIAL RESULT, {stop}." if stop else ""
-    for fig in o.figures:
-        parts.append(figure(fig, "run", f"{fig.stem} of {s.get('title', o.label)}", note, of))
+        blocks += table(bud, "Water budget" + (" at the last output time" if ev else ""))
+    blocks += _extremes_table(s.get("bed"), unit)
+    partial = f"PARTIAL RESULT, {stop}." if stop else ""
+    blocks += [figure(fig, "run", f"{fig.stem} of {s.get('title', o.label)}", partial, of) for fig in o.figures]
     if "movie" in o.data:
-        parts.append(f'<p class="note">A video of the same animation is beside the outputs: '
-                     f"{esc(Path(o.data['movie']).name)}.</p>")
+        blocks.append(remark(f"A video of the same animation is beside the outputs: {Path(o.data['movie']).name}."))
     if "events.csv" in o.tables:
-        event_table = read_table(o.tables["events.csv"])
-        if not event_table.empty:
-            shown = event_table.copy()
-            fac = findings.flux_factor(unit)
-            for c in ("submerged_duration", "first_reversal_start", "last_reversal_end", "reversed_duration",
-                      "penetration_time"):
-                if c in shown:
-                    shown[c] = shown[c] / findings.HOUR
-            for c in ("initial_flux", "peak_losing_flux"):
-                if c in shown:
-                    shown[c] = shown[c] * fac
-            shown = shown.rename(columns={
-                "x": "x (m)", "submerged_duration": "submerged (h)", "initial_flux": f"flux at t=0 ({unit})",
-                "first_reversal_start": "first reversal (h)", "last_reversal_end": "last reversal end (h)",
-                "reversed_duration": "reversed (h)", "peak_losing_flux": f"peak losing flux ({unit})",
-                "volume_into_bed": "into bed (m³/m²)", "volume_returned": "returned (m³/m²)",
-                "penetration_depth": "depth reached (m)", "penetration_time": "deepest at (h)"})
-            parts.append(table(shown, "Exchange events by column", source=f"{o.label}/events.csv"))
-    parts += _closing(o, "Scenario files")
-    return "".join(parts)
+        blocks += _events_table(read_table(o.tables["events.csv"]), unit, f"{o.label}/events.csv")
+    blocks += inputs(o, "Scenario files")
+    return section(o.anchor, f"Model run: {s.get('title', o.label)}", blocks, f"folder {o.label}")
 
 
-def _extremes_table(bed: dict | None, unit: str) -> str:
+def _events_table(events: pd.DataFrame, unit: str, source: str) -> list[Block]:
+    """The exchange events by column, in hours and the display unit."""
+    if events.empty:
+        return []
+    shown = events.copy()
+    fac = findings.flux_factor(unit)
+    for c in ("submerged_duration", "first_reversal_start", "last_reversal_end", "reversed_duration",
+              "penetration_time"):
+        if c in shown:
+            shown[c] = shown[c] / findings.HOUR
+    for c in ("initial_flux", "peak_losing_flux"):
+        if c in shown:
+            shown[c] = shown[c] * fac
+    shown = shown.rename(columns={
+        "x": "x (m)", "submerged_duration": "submerged (h)", "initial_flux": f"flux at t=0 ({unit})",
+        "first_reversal_start": "first reversal (h)", "last_reversal_end": "last reversal end (h)",
+        "reversed_duration": "reversed (h)", "peak_losing_flux": f"peak losing flux ({unit})",
+        "volume_into_bed": "into bed (m³/m²)", "volume_returned": "returned (m³/m²)",
+        "penetration_depth": "depth reached (m)", "penetration_time": "deepest at (h)"})
+    return table(shown, "Exchange events by column", source=source)
+
+
+def _extremes_table(bed: dict | None, unit: str) -> list[Block]:
     """Where the bed flux is strongest, per part of the bed, beside the robust percentile."""
     rows = []
     words = {"channel": "channel bed", "floodplain": "floodplain"}
@@ -263,10 +241,9 @@ def _extremes_table(bed: dict | None, unit: str) -> str:
                          "value": findings.flux(e.get("peak_m_per_s"), unit) if isinstance(e, dict)
                          else f"none (no {key} reach)",
                          "x (m)": e.get("x_m") if isinstance(e, dict) else float("nan"),
-                         "t (h)": e["time_s"] / findings.HOUR
-                         if isinstance(e, dict) and findings.finite(e.get("time_s")) else float("nan"),
-                         "robust figure": f"{rlabel} {findings.flux(e.get(robust), unit)}"
-                         if isinstance(e, dict) else ""})
+                         "t (h)": e["time_s"] / findings.HOUR if isinstance(e, dict) and findings.finite(e.get("time_s"))
+                         else float("nan"),
+                         "robust figure": f"{rlabel} {findings.flux(e.get(robust), unit)}" if isinstance(e, dict) else ""})
         pen = part.get("penetration")
         if isinstance(pen, dict):
             rows.append({"part of the bed": words.get(name, name), "extreme": "deepest stream water below the bed",
@@ -274,12 +251,12 @@ def _extremes_table(bed: dict | None, unit: str) -> str:
                          "t (h)": pen["time_s"] / findings.HOUR if findings.finite(pen.get("time_s")) else float("nan"),
                          "robust figure": f"95th percentile {findings.length(pen.get('p95_m'))}"})
     if not rows:
-        return ""
+        return []
     return table(pd.DataFrame(rows), "Where the bed flux is strongest: each extreme with its place, beside a "
                                      "percentile over the wetted part of the bed (length- and time-weighted)")
 
 
-def _field_section(o: Output, unit: str) -> str:
+def _field_section(o: Output, unit: str) -> dict:
     fs = o.data["field_summary"]
     rows = [("sheets folder", fs.get("sheets_folder", "")), ("sign convention", fs.get("sign_convention", ""))]
     for k in ("meters", "piezometers", "slug_tests", "permeameter_tests", "rejected_rows"):
@@ -297,21 +274,18 @@ def _field_section(o: Output, unit: str) -> str:
     reach = fs.get("reach") or {}
     if reach:
         rows += [("reach mean bed flux", findings.flux(reach.get("mean_flux [m/s]"), unit)),
-                 ("per metre of channel",
-                  findings.signed_per_metre(reach.get("per_metre_of_channel [m^2/s]", float("nan")))),
-                 ("area and length",
-                  f"{findings.number(reach.get('area [m^2]'))} m², {findings.length(reach.get('length [m]'))}"),
+                 ("per metre of channel", findings.signed_per_metre(reach.get("per_metre_of_channel [m^2/s]", float("nan")))),
+                 ("area and length", f"{findings.number(reach.get('area [m^2]'))} m², {findings.length(reach.get('length [m]'))}"),
                  ("method", reach.get("method", ""))]
-    parts = _opening(o, "Field measurements") + [keys_table(rows, "Summary of the field sheets")]
-    for fig in o.figures:
-        parts.append(figure(fig, "field", f"{fig.stem} of the field campaign"))
+    blocks = [keys_table(rows, "Summary of the field sheets")]
+    blocks += [figure(fig, "field", f"{fig.stem} of the field campaign") for fig in o.figures]
     for name, path in o.tables.items():
-        parts.append(table(read_table(path), name, source=f"{o.label}/{name}"))
-    parts += _closing(o, "Input files")
-    return "".join(parts)
+        blocks += table(read_table(path), name, source=f"{o.label}/{name}")
+    blocks += inputs(o, "Input files")
+    return section(o.anchor, "Field measurements", blocks, f"folder {o.label}")
 
 
-def _fit_section(o: Output) -> str:
+def _fit_section(o: Output) -> dict:
     r = o.data["fit_results"]
     paths = list(r.get("parameters") or r["best"])
     css = r.get("composite_scaled_sensitivity") or {}
@@ -324,30 +298,28 @@ def _fit_section(o: Output) -> str:
                      "scaled sensitivity": css.get(p, float("nan")),
                      "verdict": (r.get("verdicts") or {}).get(p, "")})
     st = r.get("statistics") or {}
-    parts = _opening(o, "Calibration") + [table(pd.DataFrame(rows), "Calibrated parameters (SI in the files)")]
+    blocks = table(pd.DataFrame(rows), "Calibrated parameters (SI in the files)")
     if st:
-        parts.append(keys_table([(k.replace("_", " "), cell(v) if isinstance(v, float) else str(v))
-                                 for k, v in st.items()], "Fit statistics"))
+        blocks.append(keys_table([(k.replace("_", " "), cell(v) if isinstance(v, float) else str(v))
+                                  for k, v in st.items()], "Fit statistics"))
     corr = r.get("correlation")
     if isinstance(corr, list) and corr and len(corr) == len(paths):
-        parts.append(table(pd.DataFrame(corr, columns=paths).assign(parameter=paths)
-                           [["parameter"] + paths], "Parameter correlation"))
-    for fig in o.figures:
-        parts.append(figure(fig, "fit", f"{fig.stem} of the calibration"))
+        blocks += table(pd.DataFrame(corr, columns=paths).assign(parameter=paths)[["parameter"] + paths],
+                        "Parameter correlation")
+    blocks += [figure(fig, "fit", f"{fig.stem} of the calibration") for fig in o.figures]
     if "residuals.csv" in o.tables:
         res = read_table(o.tables["residuals.csv"])
         if "weighted_residual" in res:
             worst = res.reindex(res["weighted_residual"].abs().sort_values(ascending=False).index).head(10)
-            parts.append(table(worst, f"The 10 largest weighted residuals of {len(res)}",
-                               source=f"{o.label}/residuals.csv"))
-    parts += _closing(o, "Fit file and calibrated scenario")
-    return "".join(parts)
+            blocks += table(worst, f"The 10 largest weighted residuals of {len(res)}",
+                            source=f"{o.label}/residuals.csv")
+    blocks += inputs(o, "Fit file and calibrated scenario")
+    return section(o.anchor, "Calibration", blocks, f"folder {o.label}")
 
 
-def _plan_section(o: Output) -> str:
+def _plan_section(o: Output) -> dict:
     s = o.data.get("plan_summary") or {}
     t = o.data.get("plan_table")
-    parts = _opening(o, "Plan for the next measurements")
     rows = []
     for k, v in s.items():
         if k == "picks" or isinstance(v, list):
@@ -359,22 +331,19 @@ def _plan_section(o: Output) -> str:
         elif isinstance(v, float):
             v = cell(v)
         rows.append((k.replace("_", " "), str(v)))
-    if rows:
-        parts.append(keys_table(rows, "Plan summary"))
+    blocks = [keys_table(rows, "Plan summary")] if rows else []
     if t is not None:
-        parts.append(table(t, "Ranked picks", source=f"{o.label}/plan_table.csv"))
+        blocks += table(t, "Ranked picks", source=f"{o.label}/plan_table.csv")
     elif isinstance(s.get("picks"), list) and s["picks"]:
-        parts.append(table(pd.DataFrame([p for p in s["picks"] if isinstance(p, dict)]), "Ranked picks"))
-    for fig in o.figures:
-        parts.append(figure(fig, "plan", f"{fig.stem} of the plan"))
-    parts += _closing(o, "Plan files")
-    return "".join(parts)
+        blocks += table(pd.DataFrame([p for p in s["picks"] if isinstance(p, dict)]), "Ranked picks")
+    blocks += [figure(fig, "plan", f"{fig.stem} of the plan") for fig in o.figures]
+    blocks += inputs(o, "Plan files")
+    return section(o.anchor, "Plan for the next measurements", blocks, f"folder {o.label}")
 
 
-def _provenance_section(project: Project, created: str) -> str:
-    parts = ['<section id="provenance"><h2>Provenance</h2>',
-             keys_table([("report written", created), ("by bedflux", __version__),
-                         ("from the folder", str(project.folder))])]
+def _provenance_section(project: Project, created: str) -> dict:
+    blocks = [keys_table([("report written", created), ("by bedflux", __version__),
+                          ("from the folder", str(project.folder))])]
     runs = []
     for o in project.of_kind("run"):
         prov = o.data.get("provenance") or {}
@@ -385,16 +354,15 @@ def _provenance_section(project: Project, created: str) -> str:
             runs.append({"run": o.label, "bedflux version": prov.get("bedflux_version", ""), "input": name,
                          "SHA-256 at run time": digest, "inputs/ copy": status})
     if runs:
-        parts.append(table(pd.DataFrame(runs), "Inputs of each run, as recorded by bedflux run", max_rows=500))
+        blocks += table(pd.DataFrame(runs), "Inputs of each run, as recorded by bedflux run", max_rows=500)
     files = [{"file": p.relative_to(project.folder).as_posix(), "bytes": p.stat().st_size, "SHA-256": sha256(p)}
              for p in project.files_read]
-    parts.append(table(pd.DataFrame(files), "Every file this report read", max_rows=1000))
+    blocks += table(pd.DataFrame(files), "Every file this report read", max_rows=1000)
     if project.skipped:
         left = [{"file": p.relative_to(project.folder).as_posix(), "why it was not read": why}
                 for p, why in project.skipped]
-        parts.append(table(pd.DataFrame(left), "Files found but not read", max_rows=1000))
-    parts.append("</section>")
-    return "".join(parts)
+        blocks += table(pd.DataFrame(left), "Files found but not read", max_rows=1000)
+    return section("provenance", "Provenance", blocks)
 
 
 def created_stamp() -> str:
@@ -417,11 +385,13 @@ def render(project: Project, unit: str = "m/d") -> str:
     unit
         Display unit of bed fluxes (``m/d``, ``mm/d``, ``cm/d``, ``cm/s``, ``m/s``).
     """
+    import jinja2
+    from markupsafe import Markup
+
     findings.flux_factor(unit)
     created = created_stamp()
     found = findings.findings(project, unit)
-    sections = [_findings_section(found), _cautions_section()]
-    toc = [("findings", "Findings"), ("cautions", "Cautions")]
+    sections, toc = [], [("findings", "Findings"), ("cautions", "Cautions")]
     for o in project.outputs:
         if o.kind == "run":
             sections.append(_run_section(o, unit))
@@ -438,20 +408,9 @@ def render(project: Project, unit: str = "m/d") -> str:
     sections.append(_provenance_section(project, created))
     toc.append(("provenance", "Provenance"))
     kinds = sorted({o.kind for o in project.outputs}, key=["run", "field", "fit", "plan"].index)
-    nav = "".join(f'<li><a href="#{a}">{esc(t)}</a></li>' for a, t in toc)
-    title = f"Stream-aquifer exchange: {project.folder.name}"
-    return (
-        "<!DOCTYPE html>\n"
-        '<html lang="en"><head><meta charset="utf-8">'
-        '<meta name="viewport" content="width=device-width, initial-scale=1">'
-        f'<meta name="generator" content="bedflux {esc(__version__)}">'
-        '<link rel="icon" href="data:,">'
-        f"<title>{esc(title)}</title><style>{STYLESHEET}</style></head><body>"
-        f'<header class="top"><h1>{esc(title)}</h1>'
-        f'<p class="meta">Report of the bedflux outputs in the folder {esc(project.folder.name)} '
-        f"({esc(', '.join(kinds))}); written {esc(created)} by bedflux {esc(__version__)}. "
-        "Signs: upward flux, groundwater into the stream, is positive (gaining).</p></header>"
-        f'<nav class="contents" aria-label="contents"><b>Contents</b><ol>{nav}</ol></nav>'
-        + "".join(sections)
-        + '<footer><p>Written by bedflux. Figures use colour maps that read in greyscale; fluxes '
-          "purple upward (gaining), orange downward (losing).</p></footer></body></html>\n")
+    env = jinja2.Environment(loader=jinja2.PackageLoader("bedflux.report", "templates"),
+                             autoescape=True, undefined=jinja2.StrictUndefined, keep_trailing_newline=True)
+    return env.get_template("report.html").render(
+        title=f"Stream-aquifer exchange: {project.folder.name}", folder=project.folder.name,
+        kinds=", ".join(kinds), created=created, version=__version__, stylesheet=Markup(STYLESHEET), toc=toc,
+        findings=_findings(found), cautions=CAUTIONS, sections=sections)
