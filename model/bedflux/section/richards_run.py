@@ -248,6 +248,9 @@ def _notes(scenario) -> list[str]:
     if scenario.riparian:
         notes.append("riparian extinction_depth is not used in a variably saturated run: uptake follows the "
                      "pressure head in the root zone (uptake_heads).")
+    if scenario.time is not None and scenario.time.scheme != "backward-euler":
+        notes.append(f"[time] scheme = \"{scenario.time.scheme}\" is not used: a variably saturated run steps "
+                     "with backward Euler (the mixed form, adaptive steps).")
     for n in notes:
         warnings.warn(n, stacklevel=3)
     return notes
