@@ -17,6 +17,7 @@ import warnings
 from pathlib import Path
 
 import numpy as np
+import pytest
 
 import bedflux
 from bedflux.section.events import exchange_events
@@ -40,6 +41,7 @@ def answers(step: str, grid: dict | None = None, end: str = "1.5 d") -> dict:
             "peak floodplain losing flux": float(np.median(floodplain["peak_losing_flux"]))}
 
 
+@pytest.mark.slow
 def test_flood_pulse_answers_converge_with_the_step():
     coarse = {"dx": "50 cm", "dz": "10 cm", "growth": 1.1, "dz_max": "60 cm"}
     a = answers("15 min", coarse)

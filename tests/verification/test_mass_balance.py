@@ -99,7 +99,13 @@ CONSTRUCTED = {
 }
 
 
-@pytest.mark.parametrize("path", SCENARIO_FILES, ids=[p.name for p in SCENARIO_FILES])
+def _case(path: Path):
+    # a transient variably saturated example runs for minutes: a longer verification case
+    slow = "retention" in path.read_text(encoding="utf-8") and "time" in _toml(path)
+    return pytest.param(path, id=path.name, marks=[pytest.mark.slow] if slow else [])
+
+
+@pytest.mark.parametrize("path", [_case(p) for p in SCENARIO_FILES])
 def test_budget_closes_on_scenario_file(path):
     # every scenario shipped with the project (scenarios/ and the built-in examples), steady and
     # transient; a transient run is checked at every output time, storage included
