@@ -1,6 +1,7 @@
 """The progress of a run on standard error: a tqdm bar on a terminal, plain lines elsewhere."""
 from __future__ import annotations
 
+import shutil
 import sys
 
 #: Fractions at which plain lines are written when the stream is not a terminal.
@@ -25,8 +26,10 @@ class ProgressBar:
         if enabled and getattr(self.stream, "isatty", lambda: False)():
             from tqdm import tqdm
 
+            # a terminal that reports no size (some pseudo-terminals) gets 80 columns
+            width = shutil.get_terminal_size((80, 24)).columns
             self._bar = tqdm(total=1.0, desc=label, file=self.stream, mininterval=0.1, leave=True,
-                             bar_format="{desc} |{bar}| {percentage:5.1f}% [{elapsed}<{remaining}]")
+                             ncols=width, bar_format="{desc} |{bar}| {percentage:5.1f}% [{elapsed}<{remaining}]")
 
     def update(self, fraction: float) -> None:
         """Show that ``fraction`` (0 to 1) of the run is done."""
