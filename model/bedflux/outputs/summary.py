@@ -70,7 +70,6 @@ def run_summary(ds: xr.Dataset) -> dict:
     out["warnings"] += plausibility_warnings(ds)
     if ds.attrs.get("water_table_warning"):
         out["water_table_warning"] = ds.attrs["water_table_warning"]
-        out["warnings"].append(ds.attrs["water_table_warning"])
     return out
 
 
@@ -164,6 +163,8 @@ def run_summary_text(s: dict, events: str = "") -> str:
     lines += flood_lines(s)
     lines.append(f"water budget closure: {closure_phrase(s['budget_closure'], s['budget_closure_note'])}")
     lines += [f"WARNING: {w}" for w in s.get("warnings", [])]
+    if s.get("water_table_warning"):
+        lines.append(f"warning: {s['water_table_warning']}")
     lines += [f"grid warning: {w}" for w in s.get("resolution_warnings", [])]
     return "\n".join(lines) + "\n"
 

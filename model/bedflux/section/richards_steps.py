@@ -29,7 +29,7 @@ from typing import Callable
 import numpy as np
 
 from bedflux.errors import SolverError
-from bedflux.scenario.forcing import FloodWave, Pulse, Series
+from bedflux.scenario.forcing import SUNRISE, SUNSET, FloodWave, Pulse, Series
 from bedflux.section.retention import VAN_GENUCHTEN, SoilWater
 from bedflux.scenario.spec import Scenario
 from bedflux.section.richards import Evaluation, RichardsSystem, StepForcing, Storage, Uptake, boundary_pressure
@@ -87,7 +87,7 @@ def forcing_breakpoints(scenario: Scenario, end: float) -> np.ndarray:
         # sunrise and sunset of the daily cycle on the run's clock (clock0: clock time of t = 0)
         clock0 = scenario.time.clock0 if scenario.time is not None else 0.0
         days = np.arange(-1.0, end / SECONDS_PER_DAY + 1.0)
-        times += list(days * SECONDS_PER_DAY + 6 * 3600.0 - clock0) + list(days * SECONDS_PER_DAY + 18 * 3600.0 - clock0)
+        times += list(days * SECONDS_PER_DAY + SUNRISE - clock0) + list(days * SECONDS_PER_DAY + SUNSET - clock0)
     t = np.unique(np.asarray(times, dtype=float))
     return t[(t > 0.0) & (t < end)]
 

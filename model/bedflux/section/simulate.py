@@ -6,6 +6,8 @@ from typing import Callable, Mapping
 import numpy as np
 import xarray as xr
 
+from bedflux.errors import SolverError
+
 from bedflux.section.fluxes import CLOSURE_LIMIT, check_closure, derive
 from bedflux.section.results import build_dataset
 from bedflux.scenario.spec import Scenario
@@ -53,7 +55,6 @@ def simulate(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = None,
 def transient_dataset(section: Section, progress: Callable[[float], None] | None = None) -> xr.Dataset:
     """Run a discretised transient section and package it (a stopped run's error carries the
     Dataset of the outputs before the failing step in its ``partial`` attribute)."""
-    from bedflux.errors import SolverError
     from bedflux.section.transient import run_transient
 
     def package(run) -> xr.Dataset:
