@@ -6,6 +6,7 @@ Floors, bottom up (DEVELOPERS.md states the same rule):
 1. ``scenario``           the validated description of a run
 2. ``section``            the forward model: discretise, solve, fluxes, results
 3. ``forward``            what calibration and planning see of the model
+   ``flowpaths``          flow paths and residence times traced through a solved run
 4. ``outputs``            files, summary, figures of a result (never discretises or solves)
 5. ``field``, ``report``  field sheets (knows nothing of the model), the report (reads outputs)
 6. ``calibration``, ``planning``  (planning may use calibration's fit, never the reverse)
@@ -23,7 +24,8 @@ import pytest
 
 PACKAGE = Path(__file__).resolve().parents[1] / "model" / "bedflux"
 
-FLOOR = {"errors": 0, "version": 0, "scenario": 1, "section": 2, "forward": 3, "outputs": 4,
+FLOOR = {"errors": 0, "version": 0, "scenario": 1, "section": 2, "forward": 3, "flowpaths": 3,
+         "outputs": 4,
          "field": 5, "report": 5, "calibration": 6, "planning": 6, "cli": 7, "bench": 7, "": 7}
 #: sideways imports allowed on one floor (from room -> to room)
 SIDEWAYS = {("planning", "calibration")}

@@ -5,7 +5,8 @@ channel -> calibration with sensitivities -> placement of the next instruments -
 report.
 
 The public names are imported when first used, so ``import bedflux`` and ``bedflux --help`` stay
-quick: ``bedflux.load``, ``bedflux.simulate``, ``bedflux.fit``, ``bedflux.plan``, ``bedflux.Scenario``.
+quick: ``bedflux.load``, ``bedflux.simulate``, ``bedflux.fit``, ``bedflux.plan``, ``bedflux.flowpaths``,
+``bedflux.Scenario``.
 """
 from __future__ import annotations
 
@@ -22,14 +23,17 @@ _PUBLIC = {
     "simulate": "bedflux.section.simulate",
     "fit": "bedflux.calibration.estimate",
     "plan": "bedflux.planning.placement",
+    "flowpaths": "bedflux.flowpaths",
 }
 
-__all__ = ["InputError", "SolverError", "Scenario", "load", "simulate", "fit", "plan", "__version__"]
+__all__ = ["InputError", "SolverError", "Scenario", "load", "simulate", "fit", "plan", "flowpaths", "__version__"]
 
 
 def __getattr__(name: str) -> Any:
     if name in _PUBLIC:
-        value = getattr(import_module(_PUBLIC[name]), name)
+        module = import_module(_PUBLIC[name])
+        # bedflux.flowpaths is a callable module (the room and the function share the name)
+        value = module if name == "flowpaths" else getattr(module, name)
         globals()[name] = value
         return value
     raise AttributeError(f"module 'bedflux' has no attribute {name!r}")
