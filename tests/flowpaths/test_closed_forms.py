@@ -80,7 +80,7 @@ def test_stagnation_point_flow_follows_the_hyperbola(ratio):
     np.testing.assert_allclose(p.x, xs + L, rtol=1e-12)
     assert np.all(p.exit == SIDE)
     # the deepest point is the exit (z falls all the way along the path)
-    np.testing.assert_allclose(p.deepest, (zs + D) - p.z, rtol=1e-10)
+    np.testing.assert_allclose(p.lowest, p.z, rtol=1e-10)
 
 
 def test_a_path_stopped_part_way_is_on_the_exact_curve():

@@ -35,7 +35,7 @@ PATH_VARIABLES = {
     "exit_x": ("m", "where the path leaves the section (NaN: not out within the horizon)"),
     "residence_time": ("s", "time from entering the bed to leaving the section (NaN: not out within the horizon)"),
     "time_tracked": ("s", "time the path was followed (its residence time, or the horizon when not out)"),
-    "depth_reached": ("m", "greatest depth below the ground the path reaches"),
+    "depth_reached": ("m", "greatest depth the path reaches below the bed where it entered"),
     "length": ("m", "path length (sum of its chords across the cells)"),
     "weight": ("m2 s-1", "downwelling water flow the path carries, per metre of channel"),
     "exit_kind": ("1", "where the path ends: " + ", ".join(EXIT_KINDS)),
@@ -131,7 +131,7 @@ def _transient(section: Section, ds: xr.Dataset, per_metre: float, max_time: flo
     n_total = path_count(per_metre, float(submerged.max())) if submerged.size and total > 0 else 0
     counts = np.where(volume > 0, np.maximum(1, np.round(n_total * volume / total if total > 0 else 0)), 0).astype(int)
     paths = _new_paths(section, np.zeros(0), np.zeros(0, dtype=np.int64), 0.0)
-    entry, weight, release, vol = [], [], [], []
+    entry, entry_z, weight, release, vol = [], [], [], [], []
     limit = _max_crossings(section)
     for k in range(times.size - 1):
         fieldv = cell_field(section, ds["head"].values[k + 1], ds["top_flux"].values[k + 1], wf[k + 1],
@@ -140,16 +140,14 @@ def _transient(section: Section, ds: xr.Dataset, per_metre: float, max_time: flo
             x, col, w = release_points(inflow[k], g.x_edges, int(counts[k]))
             start = times[k] + 0.5 * dt[k]
             paths = _joined(paths, _new_paths(section, x, col, start))
-            entry.append(x); weight.append(w); release.append(np.full(x.size, start)); vol.append(w * dt[k])
+            entry.append(x); entry_z.append(g.ground[col]); weight.append(w); release.append(np.full(x.size, start)); vol.append(w * dt[k])
         if paths.x.size:
             born = np.concatenate(release)
             until = np.minimum(times[k + 1], born + max_time) if max_time is not None else times[k + 1]
             advance(fieldv, paths, until, limit, sinks_end=False, keep_vertices=keep_geometry)
     paths.exit[paths.exit < 0] = NOT_OUT
     cat = (lambda parts: np.concatenate(parts) if parts else np.zeros(0))
-    entry_x = cat(entry)
-    entry_z = g.ground[np.clip(np.searchsorted(g.x_edges, entry_x, side="right") - 1, 0, g.nx - 1)]
-    out = _dataset(paths, entry_x, entry_z, cat(weight), cat(release), cat(vol), keep_geometry)
+    out = _dataset(paths, cat(entry), cat(entry_z), cat(weight), cat(release), cat(vol), keep_geometry)
     exchange = total / float(np.sum(submerged * dt)) if total > 0 else float("nan")
     horizon = float(times[-1] - times[0]) if max_time is None else float(max_time)
     out.attrs.update(_attributes(out, exchange, horizon, "transient"))
@@ -158,7 +156,7 @@ def _transient(section: Section, ds: xr.Dataset, per_metre: float, max_time: flo
 
 def _joined(a: Paths, b: Paths) -> Paths:
     """One set of paths from two (vertices kept with path numbers of the joined set)."""
-    fields = ("x", "z", "col", "row", "t", "elapsed", "length", "deepest", "exit", "crossings")
+    fields = ("x", "z", "col", "row", "t", "elapsed", "length", "lowest", "exit", "crossings")
     joined = Paths(**{f: np.concatenate([getattr(a, f), getattr(b, f)]) for f in fields})
     joined.vertices = a.vertices
     return joined
@@ -173,7 +171,7 @@ def _dataset(paths: Paths, entry_x: np.ndarray, entry_z: np.ndarray, weight: np.
         "exit_x": np.where(left, paths.x, np.nan),
         "residence_time": np.where(left, paths.elapsed, np.nan),
         "time_tracked": paths.elapsed,
-        "depth_reached": paths.deepest,
+        "depth_reached": entry_z - paths.lowest,
         "length": paths.length,
         "weight": weight,
         "exit_kind": np.array([EXIT_KINDS[c] for c in range(len(EXIT_KINDS))], dtype=object)[paths.exit],

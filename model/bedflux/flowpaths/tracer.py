@@ -36,8 +36,8 @@ class Paths:
     """State of a set of paths (SI): position, cell, clock, and what they have done so far.
 
     ``t`` is each path's clock (s since the start of the run), ``elapsed`` the time since its
-    release, ``length`` the path length (sum of the chords across the cells), ``deepest`` the
-    greatest depth below the ground of a column the path has been at, ``exit`` the exit code
+    release, ``length`` the path length (sum of the chords across the cells), ``lowest`` the
+    lowest elevation the path has reached, ``exit`` the exit code
     (-1 while moving), ``crossings`` the number of cells crossed.
     """
 
@@ -48,7 +48,7 @@ class Paths:
     t: np.ndarray
     elapsed: np.ndarray = None
     length: np.ndarray = None
-    deepest: np.ndarray = None
+    lowest: np.ndarray = None
     exit: np.ndarray = None
     crossings: np.ndarray = None
     vertices: list = field(default_factory=list)
@@ -57,7 +57,7 @@ class Paths:
         n = self.x.size
         self.elapsed = np.zeros(n) if self.elapsed is None else self.elapsed
         self.length = np.zeros(n) if self.length is None else self.length
-        self.deepest = np.zeros(n) if self.deepest is None else self.deepest
+        self.lowest = self.z.copy() if self.lowest is None else self.lowest
         self.exit = np.full(n, -1, dtype=np.int8) if self.exit is None else self.exit
         self.crossings = np.zeros(n, dtype=np.int64) if self.crossings is None else self.crossings
 
@@ -138,7 +138,7 @@ def advance(fieldv: CellField, paths: Paths, until: float | np.ndarray, max_cros
         paths.t[idx] += dt
         paths.elapsed[idx] += dt
         paths.length[idx] += np.hypot(xn - x, zn - z)
-        paths.deepest[idx] = np.maximum(paths.deepest[idx], fieldv.ground[col] - np.minimum(z, zn))
+        paths.lowest[idx] = np.minimum(paths.lowest[idx], zn)
         paths.crossings[idx] += by_x | by_z
         if keep_vertices:
             paths.vertices.append((idx.copy(), xn.copy(), zn.copy(), paths.t[idx].copy()))
