@@ -44,11 +44,19 @@ def read_result(path: str | Path) -> xr.Dataset:
         return ds.load()
 
 
-def write_summary(ds: xr.Dataset, outdir: str | Path) -> dict:
+def write_summary(ds: xr.Dataset, outdir: str | Path, hyporheic: dict | None = None) -> dict:
     """Write summary.txt and summary.json into ``outdir`` (with the exchange events of a
-    transient run, also events.csv); return the summary with its ``text``."""
+    transient run, also events.csv; with the ``hyporheic`` block of the run's flow paths, its
+    lines before the budget closure); return the summary with its ``text``."""
     outdir = Path(outdir)
     s, text, table = build_summary(ds)
+    if hyporheic is not None:
+        from bedflux.outputs.hyporheic import hyporheic_lines
+
+        s["hyporheic"] = hyporheic
+        lines = text.splitlines()
+        at = next((i for i, line in enumerate(lines) if line.startswith("water budget closure")), len(lines))
+        text = "\n".join(lines[:at] + hyporheic_lines(hyporheic) + lines[at:]) + "\n"
     if table is not None:
         write_with(outdir / "events.csv", lambda tmp: table.to_csv(tmp, index=False))
     write_text(outdir / "summary.txt", text)

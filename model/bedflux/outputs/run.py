@@ -1,4 +1,5 @@
-"""``bedflux run``: load a scenario, simulate, and write result.nc, the summary and figures.
+"""``bedflux run``: load a scenario, simulate, and write result.nc, the summary and figures (and,
+where stream water enters the bed, its flow paths: flowpaths.nc and the hyporheic figures).
 
 The output folder is locked and checked (writable, room for the estimated result) before the
 computation; all outputs are staged inside it and replace the earlier run's output as a whole
@@ -49,6 +50,7 @@ def run_scenario(path: Path, outdir: Path, unit: str = "m/d", quiet: bool = Fals
     """Run one scenario file and write its outputs; return the summary with its text."""
     from bedflux.outputs.animation import animate
     from bedflux.outputs.figures import run_figures
+    from bedflux.outputs.hyporheic import write_flowpaths
 
     scenario = load(path)
     need, how = result_size(scenario)
@@ -64,7 +66,8 @@ def run_scenario(path: Path, outdir: Path, unit: str = "m/d", quiet: bool = Fals
         finally:
             bar.close()
         write_result(ds, stage / "result.nc")
-        summary = write_summary(ds, stage)
+        hyporheic = write_flowpaths(scenario, ds, stage)
+        summary = write_summary(ds, stage, hyporheic=hyporheic)
         run_figures(ds, stage, unit)
         animate(ds, stage / "animation", unit=unit)
     summary["partial"] = ds.attrs.get("partial", "")
