@@ -60,10 +60,8 @@ def write_flowpaths(scenario: Scenario, ds: xr.Dataset, outdir: Path) -> dict | 
     return block
 
 
-def _duration(seconds: float | None) -> str:
-    """A time in the unit that reads best: s, min, h, d or years; "longer than the horizon" for inf."""
-    if seconds is None or not np.isfinite(seconds):
-        return "longer than the horizon"
+def _duration(seconds: float) -> str:
+    """A time in the unit that reads best: s, min, h, d or years."""
     for unit, size in (("years", 365.25 * DAY), ("d", DAY), ("h", HOUR), ("min", 60.0)):
         if seconds >= 2 * size:
             return f"{seconds / size:.3g} {unit}"
@@ -79,33 +77,40 @@ def hyporheic_lines(block: dict) -> list[str]:
     if block.get("bedform_exchange_flux_closed_form_m_per_s") is not None:
         lines.append(f"  bedform pumping alone (Elliott & Brooks 1997, closed form): "
                      f"{block['bedform_exchange_flux_closed_form_m_per_s'] * DAY:.3g} m/d")
-    lines.append(f"  residence time in the bed: median {_duration(q['50'])}; 10-90 % from {_duration(q['10'])} "
-                 f"to {_duration(q['90'])} (flux-weighted)")
+    horizon = _duration(block["horizon_s"])
+
+    def within(seconds: float | None) -> str:
+        return _duration(seconds) if seconds is not None and np.isfinite(seconds) else f"more than {horizon}"
+
+    lines.append(f"  residence time in the bed (flux-weighted): median {within(q['50'])}; 10 to 90 % of the water "
+                 f"from {within(q['10'])} to {within(q['90'])}")
     depth = block[f"depth_holding_{round(100 * DEPTH_SHARE)}_percent_m"]
     lines.append(f"  {100 * DEPTH_SHARE:.0f} % of the exchanged water stays within {depth:.3g} m of the bed")
     shares = [(fate["returns_to_stream"], "returns to the stream through the bed"),
               (fate["to_aquifer"], "leaves to the aquifer (sides, base)"),
               (fate["seepage_face"], "comes out at a seepage face"),
               (fate["taken_up_in_cells"], "is taken up by roots"),
-              (fate["not_out_within_horizon"], f"is still in the ground after {_duration(block['horizon_s'])}")]
+              (fate["not_out_within_horizon"], f"is still in the ground after {horizon}")]
     lines.append("  of it, " + "; ".join(f"{100 * v:.0f} % {what}" for v, what in shares if v))
     if "water_entered_m2" in block:
         r = block["return_time_quantiles_s"]
         frac = block["returned_fraction"]
+        back = [f"{word} of it within {_duration(r[q])}" for q, word in (("25", "a quarter"), ("50", "half"))
+                if r[q] is not None and np.isfinite(r[q])]
         lines.append(f"  bank storage: {block['water_entered_m2']:.4g} m3 per metre went into the bed, "
                      f"{block['water_returned_m2']:.4g} m3 came back through it by the end"
                      + (f" ({100 * frac:.0f} %)" if frac is not None else "")
-                     + f"; half of it back within {_duration(r['50'])}, a quarter within {_duration(r['25'])}")
+                     + (f"; {', '.join(back)}" if back else ""))
     return lines
 
 
 def _path_lines(drawn: xr.Dataset) -> tuple[list[np.ndarray], np.ndarray]:
     """Polylines of the drawn paths (split where a path wraps around periodic sides) and the
-    residence time of the path each belongs to."""
+    residence time of the path each belongs to (NaN: not out within the horizon)."""
     px, pz = drawn["path_x"].values, drawn["path_z"].values
     width = float(np.nanmax(px) - np.nanmin(px)) if np.isfinite(px).any() else 0.0
     lines, times = [], []
-    tracked = drawn["time_tracked"].values
+    tracked = np.where(np.isfinite(drawn["residence_time"].values), drawn["time_tracked"].values, np.nan)
     for x, z, t in zip(px, pz, tracked):
         keep = np.isfinite(x)
         x, z = x[keep], z[keep]
@@ -131,9 +136,14 @@ def flowpath_figures(ds: xr.Dataset, fp: xr.Dataset, drawn: xr.Dataset, outdir: 
     fig, ax = plt.subplots(figsize=(8, 4))
     lines, times = _path_lines(drawn)
     finite = times[np.isfinite(times) & (times > 0)]
-    if lines and finite.size:
+    out = np.isfinite(times)
+    if (~out).any():
+        ax.add_collection(LineCollection([ln for ln, o in zip(lines, out) if not o], colors="0.6", linewidths=0.8,
+                                         label="not out by the end" if "volume" in fp else "not out within the horizon"))
+    if finite.size:
         norm = LogNorm(vmin=float(finite.min()) / HOUR, vmax=max(float(finite.max()), float(finite.min()) * 1.01) / HOUR)
-        lc = LineCollection(lines, array=times / HOUR, cmap="viridis", norm=norm, linewidths=0.8)
+        lc = LineCollection([ln for ln, o in zip(lines, out) if o], array=times[out] / HOUR, cmap="viridis", norm=norm,
+                            linewidths=0.8)
         ax.add_collection(lc)
         fig.colorbar(lc, ax=ax, fraction=0.04, pad=0.01).set_label("time in the bed (h)")
     x = ds["x"].values
