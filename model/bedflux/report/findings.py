@@ -23,6 +23,7 @@ TOPICS = {
     "warnings": "What should not be believed as it stands",
     "exchange": "Is the reach gaining or losing?",
     "pulse": "Does the flood pulse reverse the exchange?",
+    "hyporheic": "How long does stream water stay in the bed?",
     "field": "What the field measurements say",
     "conductivity": "How well is the bed conductivity known?",
     "next": "Where to measure next",
@@ -346,6 +347,53 @@ def pulse_finding(summary: dict, events_table: pd.DataFrame | None = None, sourc
     return f
 
 
+def hyporheic_finding(summary: dict, source: str = ".", unit: str = "m/d") -> Finding | None:
+    """How much stream water enters the bed, how long and how deep it stays, where it goes, and
+    (transient runs) when the bank-storage water comes back; None without a ``hyporheic`` block.
+
+    A quantile beyond the horizon of the tracking is null in summary.json: "longer than" it.
+    """
+    h = summary.get("hyporheic")
+    if not h:
+        return None
+    f = Finding("hyporheic", source, title=summary.get("title", ""))
+    horizon = hours(h.get("horizon_s"))
+    text = f"Stream water enters the submerged bed at {flux(h.get('exchange_flux_m_per_s'), unit)} on average"
+    closed = h.get("bedform_exchange_flux_closed_form_m_per_s")
+    if finite(closed):
+        text += f" (bedform pumping alone, by the closed form of Elliott & Brooks 1997: {flux(closed, unit)})"
+    f.sentences.append(text + ".")
+    q = h.get("residence_time_quantiles_s") or {}
+    if finite(q.get("50")):
+        text = f"Half of it stays in the bed for less than {hours(q['50'])}"
+    else:
+        text = f"More than half of it is still in the ground after {horizon}"
+    if finite(q.get("10")):
+        text += f"; a tenth leaves within {hours(q['10'])}"
+    if finite(q.get("90")):
+        text += f" and a tenth stays longer than {hours(q['90'])}"
+    f.sentences.append(text + f" (flux-weighted, from {h.get('paths')} traced flow paths).")
+    depth = h.get("depth_holding_90_percent_m")
+    if finite(depth):
+        f.sentences.append(f"Nine tenths of it stays within {length(depth)} of the bed.")
+    fate = h.get("fate") or {}
+    words = {"returns_to_stream": "returns to the stream through the bed", "to_aquifer": "goes on into the aquifer",
+             "seepage_face": "comes out at a seepage face", "taken_up_in_cells": "is taken up by roots",
+             "not_out_within_horizon": f"is still in the ground after {horizon}"}
+    parts = [f"{percent(fate[k])} {w}" for k, w in words.items() if finite(fate.get(k)) and float(fate[k]) > 0]
+    if parts:
+        f.sentences.append("Of the water that enters, " + "; ".join(parts) + ".")
+    if finite(h.get("water_entered_m2")):
+        r = h.get("return_time_quantiles_s") or {}
+        text = (f"Of the {number(h['water_entered_m2'])} m³ per metre that went into the bed during the run, "
+                f"{number(h.get('water_returned_m2'))} m³ ({percent(h.get('returned_fraction'))}) came back "
+                "through the bed by its end")
+        if finite(r.get("50")):
+            text += f"; half of it within {hours(r['50'])} of entering"
+        f.sentences.append(text + ".")
+    return f
+
+
 def field_finding(field_summary: dict, source: str = ".", unit: str = "m/d") -> Finding:
     """What the reduced field sheets say about the reach."""
     fs = field_summary
@@ -560,6 +608,9 @@ def findings(project, unit: str = "m/d") -> list[Finding]:
         p = pulse_finding(s, events, o.label, unit)
         if p is not None:
             out.append(p)
+        h = hyporheic_finding(s, o.label, unit)
+        if h is not None:
+            out.append(h)
     runs = [(o.label, o.data["summary"]) for o in project.of_kind("run")]
     for o in project.of_kind("field"):
         f = field_finding(o.data["field_summary"], o.label, unit)
