@@ -157,6 +157,61 @@ def _case_column() -> dict:
             "banded_solve_seconds": banded, "ratio": total / steps / banded}
 
 
+def dune_dict(n_cells: float) -> dict:
+    """Dunes over a closed base (bedform pumping, periodic sides), about ``n_cells`` square cells
+    over 1.8 m x 0.6 m."""
+    h = float(np.sqrt(1.8 * 0.6 / n_cells))
+    return {"title": "benchmark dunes", "grid": {"x": [0.0, 1.8], "bottom": -0.6, "dx": h, "dz": h},
+            "ground": {"elevation": 0.0}, "zone": [{"name": "sand", "kh": "40 m/d", "kv": "20 m/d"}],
+            "stream": {"stage": 0.25, "bedform": {"amplitude": 0.004, "wavelength": 0.6}},
+            "sides": {"left": "periodic", "right": "periodic", "bottom": {"flux": "5 cm/d"}}}
+
+
+def _case_flowpaths(n_cells: float, n_paths: int) -> dict:
+    import bedflux
+
+    s = bedflux.Scenario.from_dict(dune_dict(n_cells))
+    t0 = time.perf_counter()
+    ds = bedflux.simulate(s)
+    t_sim = time.perf_counter() - t0
+    t0 = time.perf_counter()
+    fp = bedflux.flowpaths(s, ds, per_metre=n_paths / 1.8)
+    t_fp = time.perf_counter() - t0
+    return {"cells": int(ds.attrs["cells"]), "paths": int(fp.sizes["path"]), "simulate_seconds": t_sim,
+            "flowpaths_seconds": t_fp, "paths_per_second": fp.sizes["path"] / t_fp,
+            "flowpaths_over_simulate": t_fp / t_sim}
+
+
+def _case_run_share(name: str) -> dict:
+    """A whole ``bedflux run`` of an example scenario, and the part of it spent on flow paths
+    (tracing, flowpaths.nc, the path figures) timed inside the same run."""
+    import tempfile
+    from pathlib import Path
+
+    from bedflux.outputs import hyporheic
+    from bedflux.outputs.run import run_scenario
+
+    spent = []
+    write_flowpaths = hyporheic.write_flowpaths
+
+    def timed(*args, **kwargs):
+        t0 = time.perf_counter()
+        out = write_flowpaths(*args, **kwargs)
+        spent.append(time.perf_counter() - t0)
+        return out
+
+    path = Path(__file__).resolve().parents[2] / "scenarios" / name
+    with tempfile.TemporaryDirectory() as tmp:
+        hyporheic.write_flowpaths = timed
+        t0 = time.perf_counter()
+        run_scenario(path, Path(tmp) / "out", quiet=True)
+        total = time.perf_counter() - t0
+        size = (Path(tmp) / "out" / "flowpaths.nc").stat().st_size
+        result = (Path(tmp) / "out" / "result.nc").stat().st_size
+    return {"scenario": name, "run_seconds": total, "flowpaths_seconds": sum(spent),
+            "share_of_run": sum(spent) / total, "flowpaths_nc_bytes": size, "result_nc_bytes": result}
+
+
 def _worker(q, fn, args):
     try:
         q.put(fn(*args))
@@ -179,8 +234,19 @@ def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__)
     ap.add_argument("--large", action="store_true", help="include the 4e6-cell section")
     ap.add_argument("--out", help="write the figures as JSON here")
+    ap.add_argument("--flowpaths", action="store_true", help="only the flow-path cases")
     args = ap.parse_args(argv)
-    results: dict = {"steady": {}, "transient": {}}
+    results: dict = {"steady": {}, "transient": {}, "flowpaths": {}}
+    results["flowpaths"]["1e5_cells_1e5_paths"] = run_case(_case_flowpaths, 1e5, 100_000)
+    print(json.dumps(results["flowpaths"]["1e5_cells_1e5_paths"], indent=1), flush=True)
+    for name in ("dune_bed.toml", "flood_pulse.toml"):
+        results["flowpaths"][name] = run_case(_case_run_share, name)
+        print(json.dumps(results["flowpaths"][name], indent=1), flush=True)
+    if args.flowpaths:
+        if args.out:
+            with open(args.out, "w") as fh:
+                json.dump(results, fh, indent=2)
+        return 0
     sizes = [1e5, 1e6] + ([4e6] if args.large else [])
     for n in sizes:
         key = f"{n:.0e}"
