@@ -97,3 +97,14 @@ def bedform_exchange_closed_form(scenario) -> float | None:
     depth = float(ground[0] - scenario.grid.bottom)
     kp = k * np.sqrt(zone.kh / zone.kv)
     return float(np.sqrt(zone.kh * zone.kv) * k * abs(stream.bedform.amplitude) * np.tanh(kp * depth) / np.pi)
+
+
+def median_residence_time(fp: xr.Dataset, x_range: tuple[float, float] | None = None) -> float:
+    """Flux-weighted median residence time (s) of the water entering the bed, or only of the
+    water entering between ``x_range = (a, b)``; inf when more than half of it is not out within
+    the horizon, NaN when none enters there."""
+    enter = fp["entry_x"].values
+    chosen = np.ones(enter.size, dtype=bool) if x_range is None else (enter >= x_range[0]) & (enter <= x_range[1])
+    left = fp["exit_kind"].values.astype(str) != "not out within the horizon"
+    t = np.where(left, fp["time_tracked"].values, np.inf)
+    return weighted_quantile(t[chosen], carried(fp)[chosen], 0.5)

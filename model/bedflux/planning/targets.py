@@ -13,7 +13,11 @@ a parameter path, e.g. ``"bed.kv"``
     the net exchange times ``length`` (m^3/s over that length of channel);
 ``"reversal:X"``
     the duration (s) of the bed-flux reversal at the column nearest x = X during the transient
-    run (e.g. ``"reversal:2.5"``).
+    run (e.g. ``"reversal:2.5"``);
+``"residence_time"``, ``"residence_time:A:B"``
+    the flux-weighted median residence time (s) of the stream water entering the bed, or of the
+    water entering it between x = A and x = B (e.g. under a riffle), from the run's flow paths
+    (:func:`bedflux.flowpaths`).
 
 A prediction's gradient with respect to the parameters is taken by central differences of the
 forward model (two runs per parameter).
@@ -35,15 +39,19 @@ from bedflux.scenario.units import DIMENSIONS, SECONDS_PER_DAY
 class Target:
     """A parsed target."""
 
-    kind: str  # parameters | parameter | exchange | reach_total | reversal
+    kind: str  # parameters | parameter | exchange | reach_total | reversal | residence
     path: str = ""
     x: float = 0.0
     length: float = 1.0
+    x_range: tuple[float, float] | None = None
 
     def label(self) -> str:
         return {"parameters": "all free parameters (D-optimal)", "parameter": self.path,
                 "exchange": "net exchange (m2/s per m)", "reach_total": f"reach total over {self.length:g} m (m3/s)",
-                "reversal": f"reversal duration at x = {self.x:g} m (s)"}[self.kind]
+                "reversal": f"reversal duration at x = {self.x:g} m (s)",
+                "residence": "median residence time in the bed (s)" + (
+                    f" of water entering at x = {self.x_range[0]:g} to {self.x_range[1]:g} m" if self.x_range else "")
+                }[self.kind]
 
     def units(self) -> tuple[str, float, str]:
         """``(SI unit, display factor, display unit)`` of the target's spread."""
@@ -54,7 +62,7 @@ class Target:
                                         "parameters, SI otherwise)"),
                 "exchange": ("m^2/s", SECONDS_PER_DAY, "m2/d per m"),
                 "reach_total": ("m^3/s", SECONDS_PER_DAY, "m3/d"),
-                "reversal": ("s", 1.0 / 3600.0, "h")}[self.kind]
+                "reversal": ("s", 1.0 / 3600.0, "h"), "residence": ("s", 1.0 / 3600.0, "h")}[self.kind]
 
     def spread_text(self, spread: float) -> str:
         """A spread (SI, or estimation space for D-optimal) in the display unit."""
@@ -80,11 +88,21 @@ def parse_target(text: str, paths: list[str], length: float | None = None, sourc
             return Target("reversal", x=float(text.split(":", 1)[1]))
         except ValueError:
             pass
+    if text == "residence_time":
+        return Target("residence")
+    if text.startswith("residence_time:"):
+        try:
+            a, b = (float(v) for v in text.split(":")[1:])
+            if a < b:
+                return Target("residence", x_range=(a, b))
+        except ValueError:
+            pass
     if renamed_path(text) in paths:
         raise InputError(f"target {text!r} was renamed; write target = \"{renamed_path(text)}\"", source=source,
                          where="target")
     raise InputError(f"target {text!r} is not allowed; use \"parameters\", a free parameter path "
-                     f"({', '.join(paths)}), \"exchange\", \"reach_total\" or \"reversal:X\"", source=source,
+                     f"({', '.join(paths)}), \"exchange\", \"reach_total\", \"reversal:X\", \"residence_time\" or "
+                     f"\"residence_time:A:B\" (A < B)", source=source,
                      where="target")
 
 
@@ -97,7 +115,23 @@ def prediction(forward: Forward, target: Target, m: np.ndarray) -> float:
         return mean_exchange(ds) * (target.length if target.kind == "reach_total" else 1.0)
     if target.kind == "reversal":
         return reversal_duration(ds, target.x)
+    if target.kind == "residence":
+        return residence_prediction(forward.scenario_at(m), ds, target)
     raise ValueError(target.kind)
+
+
+def residence_prediction(scenario, ds, target: Target) -> float:
+    """The median residence time (s) a ``residence`` target asks for, from the run's flow paths."""
+    from bedflux.flowpaths.hyporheic import median_residence_time
+    from bedflux.flowpaths.paths import flowpaths
+
+    value = median_residence_time(flowpaths(scenario, ds), target.x_range)
+    if not np.isfinite(value):
+        where = "" if target.x_range is None else f" between x = {target.x_range[0]:g} and {target.x_range[1]:g} m"
+        raise InputError(f"target {target.label()!r}: " + ("no stream water enters the bed" + where if np.isnan(value)
+                         else "more than half of the water is still in the ground at the horizon") + "; choose "
+                         "another target", where="target")
+    return value
 
 def target_gradient(forward: Forward, target: Target, m: np.ndarray, step: float = 1e-3) -> tuple[np.ndarray | None, float]:
     """The target's gradient in the estimation space (None for D-optimal) and its value."""
