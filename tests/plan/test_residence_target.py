@@ -53,7 +53,7 @@ def test_the_target_reads_the_median_of_the_runs_flow_paths(forward):
 def test_residence_time_scales_with_one_over_conductivity(forward):
     t = parse_target("residence_time", ["sand.kh", "sand.kv"])
     g, value = target_gradient(forward, t, forward.start())
-    assert (g[0] + g[1]) / value == pytest.approx(-math.log(10.0), rel=1e-3)
+    assert (g[0] + g[1]) / value == pytest.approx(-math.log(10.0), rel=1e-5)  # central differences: 2e-7 when written
     assert g[0] < 0 and g[1] < 0
 
 

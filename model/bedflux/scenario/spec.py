@@ -29,6 +29,9 @@ ET_MAX = 2e-7  # m/s = 17 mm/d, above the highest recorded daily evapotranspirat
 LEAKANCE_MAX = 10.0  # 1/s
 HEAD_RANGE_MAX = 1000.0  # m: heads and stages this far above the model base are a unit slip
 TITLE_MAX = 300  # characters
+#: Effective porosity of a zone that gives none (a sand or gravel bed, common practice): it sets
+#: the pore velocity of the flow paths and so their residence times.
+DEFAULT_POROSITY = 0.3
 STEP_MIN = 1e-3  # s: shortest time step and output interval (1 ms; a bed responds in minutes)
 
 _TOP_KEYS = ["title", "grid", "ground", "zone", "stream", "sides", "recharge", "riparian", "time", "initial"]
@@ -82,7 +85,7 @@ class ZoneSpec:
     depth: float | None = None
     x: tuple[float, float] | None = None
     z: tuple[float, float] | None = None
-    porosity: float = 0.3
+    porosity: float = DEFAULT_POROSITY
     retention: RetentionSpec | None = None
 
 
@@ -353,7 +356,7 @@ def _zones(zs: Any, grid: GridSpec) -> tuple[ZoneSpec, ...]:
         specific_storage = checks.quantity(z, "specific_storage", "per_length", where, default=1e-5, low=0.0,
                                            high=SS_MAX, high_hint="1/km")
         specific_yield = checks.number(z, "specific_yield", where, default=0.2, low=0.0, high=0.5)
-        porosity = checks.number(z, "porosity", where, default=0.3, low=0.01, high=0.7)
+        porosity = checks.number(z, "porosity", where, default=DEFAULT_POROSITY, low=0.01, high=0.7)
         depth = checks.quantity(z, "depth", "length", where, default=None, low=0.0, low_inclusive=False)
         xr = checks.interval(z, "x", where, default=None)
         zr = checks.interval(z, "z", where, default=None)
