@@ -63,3 +63,25 @@ def test_a_short_horizon_keeps_every_path_and_says_it_is_not_out():
     assert set(fp.exit_kind.values) == {"not out within the horizon"}
     np.testing.assert_allclose(fp.time_tracked, 3600.0)
     assert np.isinf(fp.attrs["median_residence_time"]) and fp.attrs["not_out_fraction"] == 1.0
+
+
+def test_stream_water_drawn_by_roots_ends_in_the_root_zone():
+    # steady: water enters from the stream and a side, leaves only to the stream and the roots; the
+    # stream water that does not come back is taken up by the roots, and that is no more than the
+    # budget's evapotranspiration [P]
+    sc = bedflux.Scenario.from_dict({
+        "grid": {"x": [-15.0, 25.0], "bottom": -6.0, "dx": 0.5, "dz": 0.1, "growth": 1.08, "dz_max": 0.5},
+        "ground": {"profile": [[-15.0, 1.0], [-2.5, 0.8], [-1.5, 0.0], [1.5, 0.0], [2.5, 0.8], [25.0, 1.0]]},
+        "zone": [{"name": "aquifer", "kh": "4 m/d", "kv": "1 m/d"}],
+        "stream": {"stage": 0.3, "channel": [-2.5, 2.5]},
+        "sides": {"left": {"head": 0.4}, "right": "no-flow"},
+        "riparian": [{"x": [2.5, 20.0], "max_rate": "10 mm/d", "extinction_depth": 2.5, "root_depth": 1.0}]})
+    ds = bedflux.simulate(sc)
+    fp = bedflux.flowpaths(sc, ds, per_metre=50)
+    kinds = set(fp.exit_kind.values)
+    assert "sink" in kinds and kinds <= {"sink", "bed"}
+    taken = float(fp.weight.values[fp.exit_kind.values == "sink"].sum())
+    assert taken <= float(ds.outflow.sel(term="evapotranspiration")) * (1 + 1e-12)
+    # taken up when they reach the root zone, not left creeping towards it until the horizon
+    assert np.all(fp.residence_time < 0.1 * fp.attrs["horizon"])
+    assert np.all(fp.exit_x.values[fp.exit_kind.values == "sink"] >= 2.0)

@@ -109,7 +109,8 @@ def advance(fieldv: CellField, paths: Paths, until: float | np.ndarray, max_cros
     Paths whose clock reaches ``until`` stay moving (the caller carries them on in the next
     field or ends them as not out); a path that has crossed ``max_crossings`` cells ends as not out.
     With ``sinks_end`` (steady flow) a path that cannot leave a cell with a sink inside ends there
-    (``sink``); in transient flow the sink may turn into a source and the path waits.
+    (``sink``) at the time it entered the cell; in transient flow the sink may turn into a source
+    and the path waits.
     """
     until = np.broadcast_to(np.asarray(until, dtype=float), paths.x.shape)
     xe = fieldv.x_edges
@@ -130,6 +131,10 @@ def advance(fieldv: CellField, paths: Paths, until: float | np.ndarray, max_cros
         tx = np.where(vx > 0.0, _exit_time(vx, ax, vx1, x1 - x), _exit_time(vx, ax, vx0, x0 - x))
         tz = np.where(vz > 0.0, _exit_time(vz, az, vz1, z1 - z), _exit_time(vz, az, vz0, z0 - z))
         left_in_step = until[idx] - paths.t[idx]
+        # a path that cannot leave a cell with a sink inside is taken up there when it enters it
+        # (steady flow: it would only creep towards the sink for ever)
+        taken_up = (~np.isfinite(tx) & ~np.isfinite(tz) & fieldv.sink[cell]) if sinks_end else np.zeros(idx.size, bool)
+        left_in_step = np.where(taken_up, 0.0, left_in_step)
         dt = np.minimum(np.minimum(tx, tz), left_in_step)
         by_x = (tx <= tz) & (tx <= left_in_step) & np.isfinite(tx)
         by_z = ~by_x & (tz <= left_in_step) & np.isfinite(tz)
@@ -170,8 +175,7 @@ def advance(fieldv: CellField, paths: Paths, until: float | np.ndarray, max_cros
         exit_code[base] = BASE
         new_row = np.where(down & ~base, row + 1, new_row)
         # a path that cannot leave a cell that takes up water inside ends there
-        if sinks_end:
-            exit_code[~np.isfinite(tx) & ~np.isfinite(tz) & fieldv.sink[cell]] = SINK
+        exit_code[taken_up] = SINK
         too_many = paths.crossings[idx] >= max_crossings
         exit_code[(exit_code < 0) & too_many] = NOT_OUT
         paths.x[idx], paths.z[idx] = new_x, new_z
