@@ -93,3 +93,25 @@ def test_a_path_stopped_part_way_is_on_the_exact_curve():
     assert p.exit[0] == -1  # still moving: its clock reached the limit
     np.testing.assert_allclose(p.x, 0.3 * np.exp(a * t_stop), rtol=1e-12)
     np.testing.assert_allclose(p.z, zs + 1.0 * np.exp(-a * t_stop), rtol=1e-12)
+
+
+def test_uniform_flow_between_two_held_heads_through_the_whole_model():
+    # Darcy (1856): q = K (H_left - H_right) / L between two sides held at heads, no flow at the
+    # top (dry, no recharge, heads below the ground) and the base; the pore velocity q / n carries
+    # a point from x0 to the right side in (L - x0) n / q, on a straight horizontal line
+    import bedflux
+    from bedflux.flowpaths.paths import flowpaths_from_points
+
+    K, n, L, H0, H1 = 2e-4, 0.25, 20.0, 1.0, 0.0
+    sc = bedflux.Scenario.from_dict({
+        "grid": {"x": [0.0, L], "bottom": -5.0, "dx": 0.5, "dz": 0.5}, "ground": {"elevation": 3.0},
+        "zone": [{"name": "aquifer", "kh": K, "kv": K / 4, "porosity": n}],
+        "sides": {"left": {"head": H0}, "right": {"head": H1}, "bottom": "no-flow"}})
+    x0 = np.array([0.3, 5.0, 12.2, 19.9])
+    z0 = np.array([-4.9, -2.0, 0.7, 2.9])
+    fp = flowpaths_from_points(sc, x0, z0)
+    q = K * (H0 - H1) / L
+    np.testing.assert_allclose(fp.residence_time, (L - x0) * n / q, rtol=1e-9)
+    np.testing.assert_allclose(fp.exit_x, L)
+    np.testing.assert_allclose(fp.depth_reached, 0.0, atol=1e-9)
+    assert set(fp.exit_kind.values) == {"side"}

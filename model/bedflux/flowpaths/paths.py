@@ -90,6 +90,64 @@ def flowpaths(scenario: Scenario, ds: xr.Dataset | None = None, per_metre: float
     return _steady(section, ds, per_metre, max_time, keep_geometry)
 
 
+def flowpaths_from_points(scenario: Scenario, x: np.ndarray, z: np.ndarray, ds: xr.Dataset | None = None,
+                          start_time: float = 0.0, max_time: float | None = None,
+                          keep_geometry: bool = False) -> xr.Dataset:
+    """Trace paths from given points ``(x, z)`` (m) instead of the bed, forward from
+    ``start_time`` (s, transient runs; within the run).
+
+    The Dataset is that of :func:`flowpaths` with ``weight`` NaN (the paths carry no known
+    share of a flow) and the residence time counted from the start; ``depth_reached`` is below
+    the starting point. Points outside the active cells are moved into the cell below the
+    ground of their column.
+    """
+    from bedflux.flowpaths.tracer import locate
+
+    if scenario.variably_saturated:
+        raise InputError("flow paths are traced through saturated (linear) runs; this scenario has "
+                         "retention in its zones", source=scenario.source, where="[[zone]] retention")
+    if ds is None:
+        from bedflux.section.simulate import simulate
+
+        ds = simulate(scenario)
+    section = discretise(scenario)
+    x = np.atleast_1d(np.asarray(x, dtype=float))
+    z = np.atleast_1d(np.asarray(z, dtype=float))
+    if x.shape != z.shape:
+        raise InputError(f"x has {x.size} values and z {z.size}: give one z per x", where="x, z")
+    times = ds["time"].values.astype(float) if "time" in ds.dims else None
+    if times is not None and not times[0] <= start_time < times[-1]:
+        raise InputError(f"start_time = {start_time:g} s is outside the run [{times[0]:g}, {times[-1]:g}) s",
+                         where="start_time")
+
+    def field_at(k: int | None):
+        if k is None:
+            return cell_field(section, ds["head"].values, ds["top_flux"].values, ds["wetted_fraction"].values)
+        return cell_field(section, ds["head"].values[k], ds["top_flux"].values[k], ds["wetted_fraction"].values[k],
+                          float(times[k]))
+
+    col, row, z = locate(field_at(None if times is None else 0), x, z)
+    paths = Paths(x=x.copy(), z=z.copy(), col=col, row=row, t=np.full(x.size, float(start_time)))
+    limit = _max_crossings(section)
+    if times is None:
+        horizon = DEFAULT_HORIZON if max_time is None else float(max_time)
+        advance(field_at(None), paths, horizon, limit, sinks_end=True, keep_vertices=keep_geometry)
+    else:
+        end = float(times[-1]) if max_time is None else min(float(times[-1]), start_time + float(max_time))
+        for k in range(times.size - 1):
+            if times[k + 1] > start_time and times[k] < end:
+                advance(field_at(k + 1), paths, min(float(times[k + 1]), end), limit, sinks_end=False,
+                        keep_vertices=keep_geometry)
+        horizon = end - start_time
+    out = _dataset(paths, x, z.copy(), np.full(x.size, np.nan), None, None, keep_geometry)
+    if times is not None:
+        out["release_time"] = ("path", np.full(x.size, float(start_time)),
+                               {"units": "s", "long_name": PATH_VARIABLES["release_time"][1]})
+    out.attrs.update({"horizon": horizon, "run": "steady" if times is None else "transient",
+                      "released": "from given points"})
+    return out
+
+
 def _max_crossings(section: Section) -> int:
     return CROSSINGS_PER_GRID_LINE * (section.grid.nx + section.grid.nz) + 100
 
