@@ -18,7 +18,6 @@ q-quantile of the residence time is the time of the path entering at ``sin(k x*)
 from __future__ import annotations
 
 import numpy as np
-import pytest
 from scipy.integrate import solve_ivp
 
 import bedflux

@@ -118,7 +118,10 @@ def cell_field(section: Section, head: np.ndarray, top_flux: np.ndarray, wetted_
     net_in = left - right + bottom - top
     scale = np.abs(left) + np.abs(right) + np.abs(bottom) + np.abs(top)
     sink = g.active & (net_in > 1e-9 * scale)
-    flat = lambda a: np.where(g.active, a, 0.0).ravel()  # noqa: E731
+
+    def flat(a: np.ndarray) -> np.ndarray:
+        return np.where(g.active, a, 0.0).ravel()
+
     return CellField(x_edges=g.x_edges, z_edges=g.z_edges, top_row=g.top_row, ground=g.ground,
                      z0=np.broadcast_to(g.z_edges[1:, None], (g.nz, g.nx)).ravel().copy(),
                      z1=(g.z_edges[1:, None] + g.thickness).ravel(),
