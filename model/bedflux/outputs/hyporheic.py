@@ -27,9 +27,13 @@ HOUR = 3600.0
 
 
 def has_downwelling(ds: xr.Dataset) -> bool:
-    """True when stream water enters the bed somewhere at some output."""
+    """True when stream water enters the bed somewhere: in a steady run, or at an output that
+    ends an interval of a transient run (the field paths are released with)."""
     q = np.nan_to_num(ds["bed_flux"].values, nan=0.0)
-    return bool(np.any((q < 0) & (ds["wetted_fraction"].values > 0)))
+    wet = ds["wetted_fraction"].values
+    if "time" in ds.dims:
+        q, wet = q[1:], wet[1:]
+    return bool(np.any((q < 0) & (wet > 0)))
 
 
 def traceable(scenario: Scenario, ds: xr.Dataset) -> bool:
