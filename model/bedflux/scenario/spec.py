@@ -212,38 +212,43 @@ class Scenario:
         ValueError
             For a path that is not plain.
         """
-        s = self
         raw = dict(self.raw)
-        copied: set[str] = set()
+        names = self.zone_names()
+        zones, riparian = list(self.zones), list(self.riparian)
+        changes: dict[str, Any] = {}
         for path, value in values.items():
             if not self.is_plain_path(path):
                 raise ValueError(f"'{path}' is not a plain value path")
             value = float(value)
             parts = path.split(".")
-            top = "zone" if parts[0] in self.zone_names() else parts[0]
-            if top not in copied:
-                raw[top] = copy.deepcopy(raw.get(top, {}))
-                copied.add(top)
-            _set_path(raw, path, value, self.source)
-            if top == "zone":
-                i = self.zone_names().index(parts[0])
+            # copy the tables along the path (the others stay shared with this scenario's)
+            if parts[0] in names:
+                i = names.index(parts[0])
+                raw["zone"] = list(raw["zone"])
+                node = raw["zone"][i] = dict(raw["zone"][i])
                 new = {parts[1]: value}
-                if parts[1] == "kh" and "kv" not in raw["zone"][i]:
+                if parts[1] == "kh" and "kv" not in node:
                     new["kv"] = value  # kv defaults to kh
-                zones = list(s.zones)
                 zones[i] = replace(zones[i], **new)
-                s = replace(s, zones=tuple(zones))
-            elif path == "recharge.rate":
-                s = replace(s, recharge=value)
-            elif path == "stream.leakance":
-                s = replace(s, stream=replace(s.stream, leakance=value))
+                changes["zones"] = tuple(zones)
+            elif parts[0] in ("recharge", "stream"):
+                node = raw[parts[0]] = dict(raw.get(parts[0], {}))
+                if parts[0] == "recharge":
+                    changes["recharge"] = value
+                else:
+                    changes["stream"] = replace(self.stream, leakance=value)
             elif parts[0] == "sides":
-                s = replace(s, **{parts[1]: replace(getattr(s, parts[1]), signal=Constant(value))})
+                raw["sides"] = dict(raw["sides"])
+                node = raw["sides"][parts[1]] = dict(raw["sides"][parts[1]])
+                changes[parts[1]] = replace(getattr(self, parts[1]), signal=Constant(value))
             else:
-                riparian = list(s.riparian)
-                riparian[int(parts[1])] = replace(riparian[int(parts[1])], max_rate=value)
-                s = replace(s, riparian=tuple(riparian))
-        return replace(s, raw=raw)
+                i = int(parts[1])
+                raw["riparian"] = list(raw["riparian"])
+                node = raw["riparian"][i] = dict(raw["riparian"][i])
+                riparian[i] = replace(riparian[i], max_rate=value)
+                changes["riparian"] = tuple(riparian)
+            node[parts[-1]] = value
+        return replace(self, raw=raw, **changes)
 
     def is_plain_path(self, path: str) -> bool:
         """True for a parameter path that sets one value checked against a range of its own and

@@ -55,6 +55,7 @@ class ZoneCover:
     strip_edges: np.ndarray
     breaks: np.ndarray
     owner: np.ndarray
+    _memo: dict = field(default_factory=dict, repr=False, compare=False)
 
     @property
     def strip_width(self) -> np.ndarray:
@@ -86,9 +87,14 @@ class ZoneCover:
 
     def to_columns(self, grid: Grid, per_strip: np.ndarray) -> np.ndarray:
         """Width-weighted sum over the strips of each column: ``(nz, n_strips) -> (nz, nx)``."""
-        w = (self.strip_width / grid.dx[self.strip_col])[None, :]
-        starts = np.flatnonzero(np.r_[True, np.diff(self.strip_col) != 0])
-        return np.add.reduceat(per_strip * w, starts, axis=1)
+        if self._memo.get("grid") is not grid:
+            self._memo.update(grid=grid, weights=(self.strip_width / grid.dx[self.strip_col])[None, :],
+                              starts=np.flatnonzero(np.r_[True, np.diff(self.strip_col) != 0]))
+        weighted = per_strip * self._memo["weights"]
+        starts = self._memo["starts"]
+        if starts.size == self.strip_col.size:
+            return weighted  # one strip per column: the sum over a column's strips is that strip
+        return np.add.reduceat(weighted, starts, axis=1)
 
 
 def zone_cover(scenario: Scenario, grid: Grid) -> ZoneCover:
@@ -178,7 +184,9 @@ class Materials:
         if self.replaced:
             raise ValueError("materials with user arrays cannot take new zone values")
         table = {p: np.asarray(table[p], dtype=float) for p in PROPERTIES}
-        arrays = _zone_averages(self.cover, self.grid, self._overlaps(), table)
+        changed = [p for p in PROPERTIES if not np.array_equal(table[p], self.table[p])]
+        arrays = {p: getattr(self, p) for p in PROPERTIES}
+        arrays.update(_zone_averages(self.cover, self.grid, self._overlaps(), table, changed))
         return Materials(arrays["kh"], arrays["kv"], arrays["specific_storage"], arrays["specific_yield"],
                          arrays["porosity"], self.zone, self.zone_names, self.grid, self.cover, table,
                          self.replaced, _shared=self._shared)
@@ -285,18 +293,21 @@ def zone_table(scenario: Scenario) -> dict[str, np.ndarray]:
     return {p: np.array([getattr(z, p) for z in scenario.zones], dtype=float) for p in PROPERTIES}
 
 
-def _zone_averages(cover: ZoneCover, grid: Grid, overlaps: tuple, table: Mapping[str, np.ndarray]
-                   ) -> dict[str, np.ndarray]:
-    """``(nz, nx)`` arrays of every property: the averages of the zone values (see the module
+def _zone_averages(cover: ZoneCover, grid: Grid, overlaps: tuple, table: Mapping[str, np.ndarray],
+                   properties: tuple | list = PROPERTIES) -> dict[str, np.ndarray]:
+    """``(nz, nx)`` arrays of the ``properties``: the averages of the zone values (see the module
     docstring) over the volume fractions ``overlaps`` (:meth:`ZoneCover.overlaps`)."""
-    sums = {p: np.zeros((grid.nz, cover.strip_col.size)) for p in PROPERTIES}
+    sums = {p: np.zeros((grid.nz, cover.strip_col.size)) for p in properties}
     for j, f in overlaps:
         own = cover.owner[:, j]
-        for p in PROPERTIES:
+        for p in properties:
             v = 1.0 / table[p][own] if p == "kv" else table[p][own]
             sums[p] += f * v[None, :]
-    arrays = {"kv": cover.to_columns(grid, 1.0 / sums.pop("kv")),
-              "kh": 1.0 / cover.to_columns(grid, 1.0 / sums.pop("kh"))}
+    arrays = {}
+    if "kv" in sums:
+        arrays["kv"] = cover.to_columns(grid, 1.0 / sums.pop("kv"))
+    if "kh" in sums:
+        arrays["kh"] = 1.0 / cover.to_columns(grid, 1.0 / sums.pop("kh"))
     for p, s in sums.items():
         arrays[p] = cover.to_columns(grid, s)
     return arrays

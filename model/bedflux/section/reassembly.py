@@ -83,19 +83,23 @@ class Reassembly:
         base = self.base
         g = base.grid
         mat = base.materials.with_zone_values(zone_table(scenario))
-        hc = self._h.conductance(base.hfaces.area, mat.kh.ravel())
-        vc = self._v.conductance(base.vfaces.area, mat.kv.ravel())
-        hfaces = replace(base.hfaces, conductance=hc)
-        vfaces = replace(base.vfaces, conductance=vc)
-        c = np.concatenate([hc, vc])
-        data = np.bincount(self._slots, weights=np.concatenate([-c, -c, c, c]), minlength=base.L.nnz)
-        L = sp.csr_matrix((data, base.L.indices, base.L.indptr), shape=base.L.shape, copy=False)
-        L.has_sorted_indices = True
-        cols = np.arange(g.nx)
-        top_half_resistance = half_cell_resistance(g.thickness[g.top_row, cols], mat.kv[g.top_row, cols])
+        # conductivities equal to the base section's (the same arrays) keep its faces and matrix
+        hfaces, vfaces, L = base.hfaces, base.vfaces, base.L
+        top_half_resistance, sides = base.top_half_resistance, base.sides
+        if mat.kh is not base.materials.kh:
+            hfaces = replace(hfaces, conductance=self._h.conductance(hfaces.area, mat.kh.ravel()))
+        if mat.kv is not base.materials.kv:
+            vfaces = replace(vfaces, conductance=self._v.conductance(vfaces.area, mat.kv.ravel()))
+            cols = np.arange(g.nx)
+            top_half_resistance = half_cell_resistance(g.thickness[g.top_row, cols], mat.kv[g.top_row, cols])
+        if hfaces is not base.hfaces or vfaces is not base.vfaces:
+            c = np.concatenate([hfaces.conductance, vfaces.conductance])
+            data = np.bincount(self._slots, weights=np.concatenate([-c, -c, c, c]), minlength=L.nnz)
+            L = sp.csr_matrix((data, L.indices, L.indptr), shape=L.shape, copy=False)
+            L.has_sorted_indices = True
+            sides = side_geometries(g, mat, base.index)
         section = replace(base, scenario=scenario, materials=mat, hfaces=hfaces, vfaces=vfaces, L=L,
                           h_ref=reference_head(scenario, g), top_half_resistance=top_half_resistance,
-                          sides=side_geometries(g, mat, base.index),
-                          et_unit_rate=et_unit_rate(scenario, base.et_zone, base.et_share))
+                          sides=sides, et_unit_rate=et_unit_rate(scenario, base.et_zone, base.et_share))
         require_fixed_head(section)
         return section
