@@ -146,3 +146,19 @@ def test_moved_observations_get_new_operators():
     fw.observations = shifted
     np.testing.assert_allclose(fw.predict(m), Forward(s, shifted, free).predict(m), rtol=ROUND_OFF)
     assert not np.allclose(fw.predict(m), Forward(s, observations(), free).predict(m))
+
+
+def test_a_forward_model_with_a_kept_run_pickles():
+    # a copy sent to another process (a pool or a cluster) leaves the kept run (its factorization
+    # cannot be pickled) and runs again, to the same results
+    import pickle
+
+    s = section(None)
+    fw = Forward(s, observations(), free_parameters(s, [bounds(s, "bed.kv"), bounds(s, "recharge.rate")]))
+    m = moved(fw)
+    fw.predict(fw.start())
+    d, J = fw.predict_and_jacobian(m)
+    copy = pickle.loads(pickle.dumps(fw))
+    d2, J2 = copy.predict_and_jacobian(m)
+    np.testing.assert_array_equal(d2, d)
+    np.testing.assert_array_equal(J2, J)

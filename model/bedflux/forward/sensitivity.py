@@ -372,6 +372,11 @@ class Forward:
                 raise InputError(f"time = {t.iloc[i]:g} s is outside the run [0, {self.scenario.time.end:g}] s",
                                  source=self.source, where=f"row {i + 2}")
 
+    def __getstate__(self) -> dict:
+        # the kept run holds a factorization, which cannot be pickled (a copy sent to another
+        # process runs again where it needs to)
+        return {**self.__dict__, "_last": None}
+
     @property
     def n_params(self) -> int:
         return len(self.free)
