@@ -330,7 +330,8 @@ class Forward:
     Parameters
     ----------
     scenario
-        The base scenario (free values are replaced through ``Scenario.with_values``).
+        The base scenario (free values are replaced through ``Scenario.with_values``, or
+        ``Scenario.with_plain_values`` for plain values inside their bounds).
     observations
         A table with columns ``kind, x, depth, time, value, sigma`` (SI); ``time`` may be empty
         in a steady run.
@@ -437,6 +438,8 @@ class Forward:
 
     # ----------------------------------------------------------------------------------
     def _section_at(self, m: np.ndarray) -> Section:
+        if self._sections.scenario is not self.scenario:  # a new base scenario: nothing kept applies
+            self._sections, self._last = SectionSource(self.scenario, self.free), None
         return self._sections.section(np.array([p.natural(v) for p, v in zip(self.free, m)]))
 
     def _state(self, m: np.ndarray, carry: list[int] | None = None) -> _ForwardState:
@@ -445,6 +448,7 @@ class Forward:
         carry = tuple(carry or ())
         last = self._last
         if (last is None or last.key != m.tobytes() or (carry and last.carried != carry)
+                or self._sections.scenario is not self.scenario
                 or self._operators.operators(last.section, self.observations) is not last.ops):
             self._last = last = self._forward_run(m, carry)
         return last
