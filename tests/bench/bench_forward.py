@@ -26,13 +26,12 @@ from pathlib import Path
 import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "fit"))
-from test_coverage import FREE, SEED, TABLE, TRUE_HEAD, TRUE_KV, column, exact_data  # noqa: E402
-
-from bedflux.calibration.estimate import calibrate  # noqa: E402
-from bedflux.forward.sensitivity import Forward, free_parameters  # noqa: E402
-from bedflux.section.discretisation import discretise  # noqa: E402
-from bedflux.section.linear import factorize  # noqa: E402
-from bedflux.section.steady import solve_steady  # noqa: E402
+from bedflux.calibration.estimate import calibrate
+from bedflux.forward.sensitivity import Forward, free_parameters
+from bedflux.section.discretisation import discretise
+from bedflux.section.linear import factorize
+from bedflux.section.steady import solve_steady
+from test_coverage import FREE, SEED, TABLE, TRUE_HEAD, TRUE_KV, column, exact_data
 
 
 def median_cpu(call, points: list[np.ndarray]) -> float:

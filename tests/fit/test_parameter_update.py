@@ -16,7 +16,6 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-
 from bedflux.errors import InputError
 from bedflux.forward.sensitivity import Forward, free_parameters
 from bedflux.section.discretisation import discretise
