@@ -23,7 +23,7 @@ zone's values exactly.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Mapping
+from typing import Iterable, Mapping
 
 import numpy as np
 
@@ -162,8 +162,8 @@ class Materials:
     table: Mapping[str, np.ndarray] | None = None
     replaced: frozenset = frozenset()
     _memo: dict = field(default_factory=dict, repr=False, compare=False)
-    #: what depends on the geometry only (the cover's overlaps, zone fractions), shared with
-    #: :meth:`with_zone_values` copies
+    #: what depends on the geometry only (the cover's overlaps, zone fractions; made when first
+    #: needed, for derivatives and new zone values), shared with :meth:`with_zone_values` copies
     _shared: dict = field(default_factory=dict, repr=False, compare=False)
 
     def _overlaps(self) -> tuple:
@@ -256,15 +256,19 @@ def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] |
         implausible conductivity.
     """
     cover = zone_cover(scenario, grid)
-    overlaps = tuple(cover.overlaps(grid))
     table = zone_table(scenario)
     active = grid.active[:, cover.strip_col]
     covered = np.zeros(len(scenario.zones), dtype=bool)
-    for j, f in overlaps:
-        own = cover.owner[:, j]
-        covered[np.unique(own[((f > 0) & active).any(axis=0)])] = True
+
+    def noting_cover(overlaps):
+        # one interval at a time (a large section holds one at once), noting the zones it covers
+        for j, f in overlaps:
+            own = cover.owner[:, j]
+            covered[np.unique(own[((f > 0) & active).any(axis=0)])] = True
+            yield j, f
+
+    arrays = _zone_averages(cover, grid, noting_cover(cover.overlaps(grid)), table)
     _require_cover(scenario, grid, covered)
-    arrays = _zone_averages(cover, grid, overlaps, table)
     for name, value in (fields or {}).items():
         if name in RENAMED_FIELDS:
             raise InputError(f"field '{name}' was renamed; pass it as '{RENAMED_FIELDS[name]}'", where="fields")
@@ -285,7 +289,7 @@ def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] |
         arrays[name] = np.where(grid.active, a, arrays[name])
     return Materials(arrays["kh"], arrays["kv"], arrays["specific_storage"], arrays["specific_yield"],
                      arrays["porosity"], _centre_zone(cover, grid), tuple(z.name for z in scenario.zones), grid,
-                     cover, table, frozenset(fields or {}), _shared={"overlaps": overlaps})
+                     cover, table, frozenset(fields or {}))
 
 
 def zone_table(scenario: Scenario) -> dict[str, np.ndarray]:
@@ -293,10 +297,10 @@ def zone_table(scenario: Scenario) -> dict[str, np.ndarray]:
     return {p: np.array([getattr(z, p) for z in scenario.zones], dtype=float) for p in PROPERTIES}
 
 
-def _zone_averages(cover: ZoneCover, grid: Grid, overlaps: tuple, table: Mapping[str, np.ndarray],
+def _zone_averages(cover: ZoneCover, grid: Grid, overlaps: Iterable, table: Mapping[str, np.ndarray],
                    properties: tuple | list = PROPERTIES) -> dict[str, np.ndarray]:
     """``(nz, nx)`` arrays of the ``properties``: the averages of the zone values (see the module
-    docstring) over the volume fractions ``overlaps`` (:meth:`ZoneCover.overlaps`)."""
+    docstring) over the volume fractions ``overlaps`` (:meth:`ZoneCover.overlaps`, read once)."""
     sums = {p: np.zeros((grid.nz, cover.strip_col.size)) for p in properties}
     for j, f in overlaps:
         own = cover.owner[:, j]
