@@ -44,8 +44,8 @@ class SectionSource:
         self.low = np.array([p.low for p in free], dtype=float)
         self.high = np.array([p.high for p in free], dtype=float)
         self.plain = not scenario.variably_saturated and all(scenario.is_plain_path(p) for p in self.paths)
-        self._calls = 0
         self._reassembly: Reassembly | None = None
+        self._last: tuple[np.ndarray, Section] | None = None
 
     def _bounds_accepted(self) -> bool:
         """True when the scenario accepts both bounds of every parameter (each plain value is
@@ -59,17 +59,28 @@ class SectionSource:
         return True
 
     def section(self, values: np.ndarray) -> Section:
-        """The section with the free parameters at ``values`` (SI)."""
-        named = dict(zip(self.paths, (float(v) for v in values)))
-        self._calls += 1
-        if self.plain and self._calls > 1 and np.all((values >= self.low) & (values <= self.high)):
-            # from the second section on (a model asked once is built in full, as before)
-            if self._reassembly is None:
-                self.plain = self._bounds_accepted()
-                self._reassembly = Reassembly(discretise(self.scenario)) if self.plain else None
+        """The section with the free parameters at ``values`` (SI); the same section again for
+        the same values."""
+        values = np.array(values, dtype=float)
+        if self._last is not None and np.array_equal(values, self._last[0]):
+            return self._last[1]
+        section = self._build(values)
+        self._last = (values, section)
+        return section
+
+    def _build(self, values: np.ndarray) -> Section:
+        named = dict(zip(self.paths, values.tolist()))
+        inside = self.plain and bool(np.all((values >= self.low) & (values <= self.high)))
+        if inside and self._reassembly is not None:
+            return self._reassembly.section_for(self.scenario.with_plain_values(named))
+        section = discretise(self.scenario.with_values(named))
+        if inside and self._last is not None:
+            # a second parameter vector: the model is used again, so this section becomes the
+            # base of the next ones (a model asked at one vector only is built in full, as before)
+            self.plain = self._bounds_accepted()
             if self.plain:
-                return self._reassembly.section_for(self.scenario.with_plain_values(named))
-        return discretise(self.scenario.with_values(named))
+                self._reassembly = Reassembly(section)
+        return section
 
 
 class OperatorSource:
