@@ -91,7 +91,10 @@ def _residual_functions(forward: Forward):
         return cache["d"], cache["J"]
 
     def fun(m):
-        d, _ = evaluate(m)
+        # a steady run's Jacobian is left to jac (the optimiser asks for it at accepted steps only;
+        # the forward model keeps the run for it); a transient run carries its sensitivities
+        # along the time steps, so one run gives both
+        d = evaluate(m)[0] if forward.scenario.transient else forward.predict(m)
         r = (d - d_obs) / sigma
         return np.concatenate([r, ((m - centre) / sd)[has]])
 

@@ -17,7 +17,7 @@ conductances, whose dependence on the parameters the sensitivity code adds expli
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
@@ -125,17 +125,37 @@ class Operators:
 
     ``head_weights`` maps the heads (absolute, per unknown) to the head at each observation's
     point (rows for every observation; only head and vhg rows are used); ``footprint`` is
-    ``(n_obs, nx)`` weights of seepage observations over columns.
+    ``(n_obs, nx)`` weights of seepage observations over columns; ``x`` and ``depth`` are the
+    table's columns as arrays.
     """
 
     table: pd.DataFrame
     head_weights: sp.csr_matrix
     footprint: np.ndarray
     kind: np.ndarray
+    x: np.ndarray = None
+    depth: np.ndarray = None
+    _head_rows: sp.csr_matrix | None = field(default=None, repr=False)
+
+    def __post_init__(self):
+        if self.x is None:
+            self.x = self.table["x"].to_numpy()
+        if self.depth is None:
+            self.depth = self.table["depth"].to_numpy()
 
     @property
     def n(self) -> int:
         return len(self.table)
+
+    @property
+    def head_rows(self) -> sp.csr_matrix:
+        """``d(value)/d(h)`` of the head and gradient observations (zero rows for seepage)."""
+        if self._head_rows is None:
+            scale = np.ones(self.n)
+            vhg = self.kind == "vhg"
+            scale[vhg] = 1.0 / self.depth[vhg]
+            self._head_rows = (sp.diags(np.where(self.kind == "seepage", 0.0, scale)) @ self.head_weights).tocsr()
+        return self._head_rows
 
 
 def _ground_at(section: Section, x: np.ndarray) -> np.ndarray:
@@ -203,7 +223,7 @@ def build_operators(section: Section, table: pd.DataFrame, pan_diameter: float =
         if overlap.sum() == 0:
             overlap[int(np.clip(np.searchsorted(g.x_edges, x[i]) - 1, 0, g.nx - 1))] = 1.0
         foot[i] = overlap
-    return Operators(table, W, foot, kind)
+    return Operators(table, W, foot, kind, x, depth)
 
 
 def stream_top(terms: list[Term]) -> Term | None:
@@ -227,7 +247,7 @@ def _seepage_weights(section: Section, ops: Operators, terms: list[Term], source
     dry = seep & (total == 0)
     if dry.any():
         i = int(np.flatnonzero(dry)[0])
-        raise InputError(f"the seepage meter at x = {ops.table['x'].iloc[i]:g} m is not over the submerged bed "
+        raise InputError(f"the seepage meter at x = {ops.x[i]:g} m is not over the submerged bed "
                          "in the model", source=source, where=f"row {i + 2}")
     w[seep] /= total[seep, None]
     # to stream-top entries
@@ -247,9 +267,9 @@ def predict(section: Section, ops: Operators, u: np.ndarray, terms: list[Term], 
     kind = ops.kind
     vhg = kind == "vhg"
     if vhg.any():
-        x = ops.table["x"].to_numpy()[vhg]
+        x = ops.x[vhg]
         stage = section.scenario.stream.local_stage(t, x) if section.scenario.stream is not None else np.nan
-        out[vhg] = (out[vhg] - stage) / ops.table["depth"].to_numpy()[vhg]
+        out[vhg] = (out[vhg] - stage) / ops.depth[vhg]
     seep = kind == "seepage"
     if seep.any():
         w, top = _seepage_weights(section, ops, terms, source)
@@ -264,20 +284,21 @@ def linear_parts(section: Section, ops: Operators, u: np.ndarray, terms: list[Te
     stream-top entry, the derivative of each stream-top entry's bed flux with respect to its
     conductance, ``(h - H) / w`` (w the wetted width; for derivatives of the bed conductance), and
     the stream-top term."""
-    kind = ops.kind
-    scale = np.ones(ops.n)
-    vhg = kind == "vhg"
-    scale[vhg] = 1.0 / ops.table["depth"].to_numpy()[vhg]
-    rows = sp.diags(np.where(kind == "seepage", 0.0, scale)) @ ops.head_weights
-    seep = kind == "seepage"
+    seep = ops.kind == "seepage"
     if not seep.any():
-        return rows.tocsr(), np.zeros((ops.n, 0)), np.zeros(0), stream_top(terms)
+        return ops.head_rows, np.zeros((ops.n, 0)), np.zeros(0), stream_top(terms)
     w, top = _seepage_weights(section, ops, terms, source)
     w = np.where(seep[:, None], w, 0.0)
     dx = _wet_width(section, top)
     # q = c (u - U) / w with c the conductance, U = r / c and w the wetted width: d q / d u_cell = c / w
-    qrows = sp.csr_matrix((w * (top.conductance / dx)[None, :]))
-    qcells = sp.csr_matrix((np.ones(top.cells.size), (np.arange(top.cells.size), top.cells)),
-                           shape=(top.cells.size, section.n))
+    i, k = np.nonzero(w)
+    head = ops.head_rows
+    # the seepage rows of the head part are empty: the rows merge without sums
+    rows = np.concatenate([np.repeat(np.arange(ops.n), np.diff(head.indptr)), i])
+    order = np.argsort(rows, kind="stable")
+    indptr = np.zeros(ops.n + 1, dtype=np.int64)
+    np.cumsum(np.bincount(rows, minlength=ops.n), out=indptr[1:])
+    W = sp.csr_matrix((np.concatenate([head.data, w[i, k] * (top.conductance / dx)[k]])[order],
+                       np.concatenate([head.indices, top.cells[k]])[order], indptr), shape=(ops.n, section.n))
     flux_per_conductance = (u[top.cells] - top.r / top.conductance) / dx
-    return (rows + qrows @ qcells).tocsr(), w, flux_per_conductance, top
+    return W, w, flux_per_conductance, top

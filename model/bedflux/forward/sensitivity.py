@@ -27,11 +27,12 @@ import numpy as np
 import pandas as pd
 
 from bedflux.errors import InputError
-from bedflux.forward.observe import (DEFAULT_PAN_DIAMETER, build_operators, check_observations, linear_parts, predict)
+from bedflux.forward.observe import DEFAULT_PAN_DIAMETER, Operators, check_observations, linear_parts, predict
+from bedflux.forward.reuse import OperatorSource, SectionSource
 from bedflux.scenario.spec import Scenario
-from bedflux.section.discretisation import ET_LINEAR, Section, Term, discretise
+from bedflux.section.discretisation import ET_LINEAR, Section, Term
 from bedflux.section.operator import half_cell_resistance
-from bedflux.section.steady import solve_steady
+from bedflux.section.steady import SteadySolution, solve_steady
 
 LN10 = math.log(10.0)
 #: Derivative rules of storage parameters (no effect in a steady run).
@@ -307,13 +308,30 @@ class _StepEnd:
 
 
 @dataclass
+class _ForwardState:
+    """A forward run at one parameter vector (``key``: its bytes): the section, the operators and
+    the predicted data; a steady run's solution (factor, heads, terms) for its Jacobian; the
+    analytic Jacobian columns a transient run carried along its steps (``carried``: their
+    parameter numbers)."""
+
+    key: bytes
+    section: Section
+    ops: Operators
+    predicted: np.ndarray
+    solution: SteadySolution | None = None
+    carried: tuple = ()
+    columns: np.ndarray | None = None
+
+
+@dataclass
 class Forward:
     """Predicted data and Jacobian of an observation table for free scenario parameters.
 
     Parameters
     ----------
     scenario
-        The base scenario (free values are replaced through ``Scenario.with_values``).
+        The base scenario (free values are replaced through ``Scenario.with_values``, or
+        ``Scenario.with_plain_values`` for plain values inside their bounds).
     observations
         A table with columns ``kind, x, depth, time, value, sigma`` (SI); ``time`` may be empty
         in a steady run.
@@ -321,6 +339,13 @@ class Forward:
         The free parameters.
     pan_diameter
         Seepage-meter pan diameter (m) for the footprint average.
+
+    Notes
+    -----
+    The run at the last parameter vector is kept, so ``jacobian(m)`` after ``predict(m)`` (as an
+    optimiser asks for them) adds only the sensitivity solves of a steady run. Sections of plain
+    parameter values are re-assembled on the cached geometry and the observation operators are
+    built once per grid (:mod:`bedflux.forward.reuse`).
     """
 
     scenario: Scenario
@@ -335,8 +360,11 @@ class Forward:
     def __post_init__(self):
         self.observations = check_observations(self.observations, self.source, self.scenario.transient)
         self.rules = [derivative_rule(self.scenario, p.path) for p in self.free]
+        self._sections = SectionSource(self.scenario, self.free)
+        self._operators = OperatorSource(self.pan_diameter, self.source)
+        self._last: _ForwardState | None = None
         # every observation must lie in the section (checked once, before any fitting)
-        build_operators(discretise(self.scenario_at(self.start())), self.observations, self.pan_diameter, self.source)
+        self._operators.operators(self._section_at(self.start()), self.observations)
         if self.scenario.transient:
             t = self.observations["time"]
             late = t > self.scenario.time.end
@@ -344,6 +372,11 @@ class Forward:
                 i = int(np.flatnonzero(late | (t < 0))[0])
                 raise InputError(f"time = {t.iloc[i]:g} s is outside the run [0, {self.scenario.time.end:g}] s",
                                  source=self.source, where=f"row {i + 2}")
+
+    def __getstate__(self) -> dict:
+        # the kept run holds a factorization, which cannot be pickled (a copy sent to another
+        # process runs again where it needs to)
+        return {**self.__dict__, "_last": None}
 
     @property
     def n_params(self) -> int:
@@ -363,7 +396,7 @@ class Forward:
 
     def predict(self, m: np.ndarray) -> np.ndarray:
         """Simulated observations at ``m``."""
-        return self._run(np.asarray(m, dtype=float), analytic=[])[0]
+        return self._state(np.asarray(m, dtype=float)).predicted.copy()
 
     def jacobian(self, m: np.ndarray) -> np.ndarray:
         """``d(data)/d(m)`` (n_data x n_params)."""
@@ -400,31 +433,54 @@ class Forward:
         up, dn = m.copy(), m.copy()
         up[j] += h
         dn[j] -= h
-        return (self.predict(up) - self.predict(dn)) / (2 * h)
+        # runs of their own: the kept run at m stays
+        return (self._forward_run(up).predicted - self._forward_run(dn).predicted) / (2 * h)
 
     # ----------------------------------------------------------------------------------
-    def _run(self, m: np.ndarray, analytic: list[int]) -> tuple[np.ndarray, np.ndarray]:
-        scen = self.scenario_at(m)
-        section = discretise(scen)
-        ops = build_operators(section, self.observations, self.pan_diameter, self.source)
+    def _section_at(self, m: np.ndarray) -> Section:
+        if self._sections.scenario is not self.scenario:  # a new base scenario: nothing kept applies
+            self._sections, self._last = SectionSource(self.scenario, self.free), None
+        return self._sections.section(np.array([p.natural(v) for p, v in zip(self.free, m)]))
+
+    def _state(self, m: np.ndarray, carry: list[int] | None = None) -> _ForwardState:
+        """The run at ``m``, kept for the next call (a transient run carrying the sensitivities of
+        the parameters ``carry``)."""
+        carry = tuple(carry or ())
+        last = self._last
+        if (last is None or last.key != m.tobytes() or (carry and last.carried != carry)
+                or self._sections.scenario is not self.scenario
+                or self._operators.operators(last.section, self.observations) is not last.ops):
+            self._last = last = self._forward_run(m, carry)
+        return last
+
+    def _forward_run(self, m: np.ndarray, carry: tuple = ()) -> _ForwardState:
+        section = self._section_at(m)
+        ops = self._operators.operators(section, self.observations)
         self.n_forward_runs += 1
+        key = m.tobytes()
+        if section.scenario.variably_saturated:
+            return _ForwardState(key, section, ops, self._variably_saturated(section, ops))
+        if not section.scenario.transient:
+            sol = solve_steady(section, reuse=True)
+            return _ForwardState(key, section, ops, predict(section, ops, sol.u, sol.terms, 0.0, self.source), sol)
+        values = [p.natural(v) for p, v in zip(self.free, m)]
+        d, columns = self._transient(section, ops, [self.rules[j] for j in carry], [values[j] for j in carry])
+        return _ForwardState(key, section, ops, d, carried=carry, columns=columns)
+
+    def _run(self, m: np.ndarray, analytic: list[int]) -> tuple[np.ndarray, np.ndarray]:
+        state = self._state(m, analytic if self.scenario.transient else None)
+        J = np.zeros((self.n_data, self.n_params))
+        if state.section.scenario.variably_saturated or not analytic:
+            return state.predicted.copy(), J
         values = [p.natural(v) for p, v in zip(self.free, m)]
         chain = np.array([p.dnatural(v) for p, v in zip(self.free, m)])
-        J = np.zeros((self.n_data, self.n_params))
-        if scen.variably_saturated:
-            return self._variably_saturated(section, ops), J
-        if not scen.transient:
-            sol = solve_steady(section, reuse=True)
-            d = predict(section, ops, sol.u, sol.terms, 0.0, self.source)
-            if analytic:
-                Jsub = self._steady_jacobian(section, ops, sol, [self.rules[j] for j in analytic],
-                                             [values[j] for j in analytic])
-                J[:, analytic] = Jsub * chain[analytic][None, :]
-            return d, J
-        d, Jsub = self._transient(section, ops, [self.rules[j] for j in analytic], [values[j] for j in analytic])
-        if analytic:
-            J[:, analytic] = Jsub * chain[analytic][None, :]
-        return d, J
+        if state.solution is not None:
+            Jsub = self._steady_jacobian(state.section, state.ops, state.solution, [self.rules[j] for j in analytic],
+                                         [values[j] for j in analytic])
+        else:
+            Jsub = state.columns
+        J[:, analytic] = Jsub * chain[analytic][None, :]
+        return state.predicted.copy(), J
 
     def _steady_jacobian(self, section: Section, ops, sol, rules: list[DerivativeRule], values: list[float]
                          ) -> np.ndarray:

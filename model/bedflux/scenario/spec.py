@@ -204,6 +204,73 @@ class Scenario:
             _set_path(raw, path, value, self.source)
         return Scenario.from_dict(raw, self.base_dir, self.source)
 
+    def with_plain_values(self, values: Mapping[str, float]) -> "Scenario":
+        """A copy with values replaced at plain paths (see :meth:`is_plain_path`), without
+        re-reading the tables: the values must be ones the scenario allows, e.g. inside an
+        interval whose ends :meth:`with_values` accepted (each plain value is checked against a
+        range of its own). The same scenario as :meth:`with_values` gives, at a fraction of its cost.
+
+        Raises
+        ------
+        ValueError
+            For a path that is not plain.
+        """
+        raw = dict(self.raw)
+        names = self.zone_names()
+        zones, riparian = list(self.zones), list(self.riparian)
+        changes: dict[str, Any] = {}
+        for path, value in values.items():
+            if not self.is_plain_path(path):
+                raise ValueError(f"'{path}' is not a plain value path")
+            value = float(value)
+            parts = path.split(".")
+            # copy the tables along the path (the others stay shared with this scenario's)
+            if parts[0] in names:
+                i = names.index(parts[0])
+                raw["zone"] = list(raw["zone"])
+                node = raw["zone"][i] = dict(raw["zone"][i])
+                new = {parts[1]: value}
+                if parts[1] == "kh" and "kv" not in node:
+                    new["kv"] = value  # kv defaults to kh
+                zones[i] = replace(zones[i], **new)
+                changes["zones"] = tuple(zones)
+            elif parts[0] in ("recharge", "stream"):
+                node = raw[parts[0]] = dict(raw.get(parts[0], {}))
+                if parts[0] == "recharge":
+                    changes["recharge"] = value
+                else:
+                    changes["stream"] = replace(self.stream, leakance=value)
+            elif parts[0] == "sides":
+                raw["sides"] = dict(raw["sides"])
+                node = raw["sides"][parts[1]] = dict(raw["sides"][parts[1]])
+                changes[parts[1]] = replace(getattr(self, parts[1]), signal=Constant(value))
+            else:
+                i = int(parts[1])
+                raw["riparian"] = list(raw["riparian"])
+                node = raw["riparian"][i] = dict(raw["riparian"][i])
+                riparian[i] = replace(riparian[i], max_rate=value)
+                changes["riparian"] = tuple(riparian)
+            node[parts[-1]] = value
+        return replace(self, raw=raw, **changes)
+
+    def is_plain_path(self, path: str) -> bool:
+        """True for a parameter path that sets one value checked against a range of its own and
+        read nowhere else: a zone's kh, kv, specific_storage, specific_yield or porosity,
+        ``recharge.rate``, ``stream.leakance``, ``sides.SIDE.head`` of a constant head and
+        ``riparian.N.max_rate``."""
+        parts = path.split(".")
+        if len(parts) == 2 and parts[0] in self.zone_names():
+            return parts[1] in ("kh", "kv", "specific_storage", "specific_yield", "porosity")
+        if path == "recharge.rate":
+            return True
+        if path == "stream.leakance":
+            return self.stream is not None
+        if len(parts) == 3 and parts[0] == "sides" and parts[1] in ("left", "right", "bottom") and parts[2] == "head":
+            side = getattr(self, parts[1])
+            return side.kind == "head" and isinstance(side.signal, Constant)
+        return (len(parts) == 3 and parts[0] == "riparian" and parts[2] == "max_rate" and parts[1].isdigit()
+                and int(parts[1]) < len(self.riparian))
+
     def value_at(self, path: str) -> float:
         """The current SI value at a parameter path (see :meth:`with_values`)."""
         _locate(dict(self.raw), path, self.source)

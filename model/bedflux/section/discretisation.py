@@ -155,6 +155,7 @@ class Section:
     piece_in_channel: np.ndarray = field(repr=False, default=None)
     piece_in_riparian: np.ndarray = field(repr=False, default=None)
     diagonal: np.ndarray = field(repr=False, default=None)
+    et_share: np.ndarray = field(repr=False, default=None)
     _wet_memo: dict = field(repr=False, default_factory=dict)
 
     @property
@@ -414,7 +415,14 @@ def _side_geometry(grid: Grid, mat: Materials, idx: np.ndarray, side: str) -> _S
     return _SideGeometry(idx[row], cols, cond, area)
 
 
-def _reference_head(scenario: Scenario, grid: Grid) -> float:
+def side_geometries(grid: Grid, mat: Materials, idx: np.ndarray) -> dict[str, _SideGeometry]:
+    """Cells, conductance (half a cell to the boundary) and area of the left, right and bottom faces."""
+    return {s: _side_geometry(grid, mat, idx, s) for s in ("left", "right", "bottom")}
+
+
+def reference_head(scenario: Scenario, grid: Grid) -> float:
+    """The head the unknowns are counted from: the stage at t = 0, else the first side head at t = 0,
+    else the mean ground."""
     if scenario.stream is not None:
         return float(scenario.stream.stage(0.0))
     for spec in (scenario.left, scenario.right, scenario.bottom):
@@ -423,11 +431,17 @@ def _reference_head(scenario: Scenario, grid: Grid) -> float:
     return float(grid.ground.mean())
 
 
+def et_unit_rate(scenario: Scenario, et_zone: np.ndarray, et_share: np.ndarray) -> np.ndarray:
+    """Rate per metre of dry ground of each ET entry: its riparian zone's rate times the entry's
+    share of the root zone."""
+    max_rate = np.array([r.max_rate for r in scenario.riparian], dtype=float)
+    return max_rate[et_zone] * et_share if et_zone.size else np.zeros(0)
+
+
 def _evapotranspiration(scenario: Scenario, grid: Grid, idx: np.ndarray):
-    """ET entries of every column that overlaps a riparian range: cells, columns, rate per metre
-    of dry ground (the rate times the entry's share of the root zone), extinction depth, daily
-    cycle flag and zone number."""
-    cells, cols, rate, ext, cyc, zone = [], [], [], [], [], []
+    """ET entries of every column that overlaps a riparian range: cells, columns, share of the
+    root zone, extinction depth, daily cycle flag and zone number."""
+    cells, cols, share, ext, cyc, zone = [], [], [], [], [], []
     zc = grid.z_centre
     for iz, r in enumerate(scenario.riparian):
         overlap = np.minimum(grid.x_edges[1:], r.x[1]) - np.maximum(grid.x_edges[:-1], r.x[0])
@@ -440,7 +454,7 @@ def _evapotranspiration(scenario: Scenario, grid: Grid, idx: np.ndarray):
         if r.root_depth <= 0.0:
             rows = grid.top_row[for_cols]
             cells.append(idx[rows, for_cols]); cols.append(for_cols)
-            rate.append(np.full(for_cols.size, r.max_rate))
+            share.append(np.ones(for_cols.size))
         else:
             depth = grid.ground[None, for_cols] - zc[:, for_cols]
             within = grid.active[:, for_cols] & (depth <= r.root_depth)
@@ -449,7 +463,7 @@ def _evapotranspiration(scenario: Scenario, grid: Grid, idx: np.ndarray):
             w = w / w.sum(axis=0, keepdims=True)
             rr, cc = np.nonzero(within)
             cells.append(idx[rr, for_cols[cc]]); cols.append(for_cols[cc])
-            rate.append(r.max_rate * w[rr, cc])
+            share.append(w[rr, cc])
         n = cells[-1].size
         ext.append(np.full(n, r.extinction_depth)); cyc.append(np.full(n, r.daily_cycle))
         zone.append(np.full(n, iz))
@@ -457,7 +471,7 @@ def _evapotranspiration(scenario: Scenario, grid: Grid, idx: np.ndarray):
         e = np.zeros(0)
         i = np.zeros(0, dtype=np.int64)
         return i, i, e, e, np.zeros(0, dtype=bool), i
-    return (np.concatenate(cells), np.concatenate(cols), np.concatenate(rate), np.concatenate(ext),
+    return (np.concatenate(cells), np.concatenate(cols), np.concatenate(share), np.concatenate(ext),
             np.concatenate(cyc), np.concatenate(zone))
 
 
@@ -514,16 +528,19 @@ def discretise(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = Non
     if stream is not None and stream.bedform is not None:
         bf = stream.bedform
         bed_head = bedform_head(grid.xc, bf.amplitude, bf.wavelength, bf.phase)
-    sides = {s: _side_geometry(grid, mat, idx, s) for s in ("left", "right", "bottom")}
-    et = _evapotranspiration(scenario, grid, idx)
-    section = Section(scenario, grid, mat, idx, joined(hf, sk), vf, L, _reference_head(scenario, grid), top_cells,
-                      top_half_resistance, channel, bed_head, sides, *et, pieces=pieces,
-                      piece_in_channel=in_channel, piece_in_riparian=in_riparian, diagonal=diagonal_positions(L))
-    _require_fixed_head(section)
+    sides = side_geometries(grid, mat, idx)
+    et_cells, et_cols, et_share, et_ext, et_cycle, et_zone = _evapotranspiration(scenario, grid, idx)
+    section = Section(scenario, grid, mat, idx, joined(hf, sk), vf, L, reference_head(scenario, grid), top_cells,
+                      top_half_resistance, channel, bed_head, sides, et_cells, et_cols,
+                      et_unit_rate(scenario, et_zone, et_share), et_ext, et_cycle, et_zone, pieces=pieces,
+                      piece_in_channel=in_channel, piece_in_riparian=in_riparian, diagonal=diagonal_positions(L),
+                      et_share=et_share)
+    require_fixed_head(section)
     return section
 
 
-def _require_fixed_head(section: Section) -> None:
+def require_fixed_head(section: Section) -> None:
+    """Raise if no head is fixed anywhere (the steady problem would have no unique solution)."""
     s = section.scenario
     fixed_side = any(b.kind in ("head", "stream") for b in (s.left, s.right, s.bottom))
     can_flood = s.stream is not None and section.channel.any()

@@ -13,6 +13,7 @@ for what the scenario asks.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
@@ -59,17 +60,17 @@ class Grid:
     def nz(self) -> int:
         return self.z_edges.size - 1
 
-    @property
+    @cached_property
     def xc(self) -> np.ndarray:
-        return 0.5 * (self.x_edges[1:] + self.x_edges[:-1])
+        return _read_only(0.5 * (self.x_edges[1:] + self.x_edges[:-1]))
 
     @property
     def zc(self) -> np.ndarray:
         return 0.5 * (self.z_edges[1:] + self.z_edges[:-1])
 
-    @property
+    @cached_property
     def dx(self) -> np.ndarray:
-        return np.diff(self.x_edges)
+        return _read_only(np.diff(self.x_edges))
 
     @property
     def cell_bottom(self) -> np.ndarray:
@@ -83,7 +84,7 @@ class Grid:
     def z_centre(self) -> np.ndarray:
         return np.where(self.active, self.cell_bottom + 0.5 * self.thickness, np.nan)
 
-    @property
+    @cached_property
     def n_active(self) -> int:
         return int(self.active.sum())
 
@@ -92,6 +93,12 @@ class Grid:
         idx = np.full(self.active.shape, -1, dtype=np.int32)
         idx[self.active] = np.arange(self.n_active, dtype=np.int32)
         return idx
+
+
+def _read_only(a: np.ndarray) -> np.ndarray:
+    """``a``, write-protected (it is kept and handed out again)."""
+    a.setflags(write=False)
+    return a
 
 
 def _z_edges(top: float, spec: GridSpec) -> np.ndarray:

@@ -52,7 +52,8 @@ class Factor:
 
 def factorize(A: sp.spmatrix, method: str = "direct") -> Factor:
     """Factorize ``A`` by ``method`` (``"direct"`` or ``"amg-cg"``)."""
-    A = sp.csr_matrix(A)
+    if not isinstance(A, sp.csr_matrix):
+        A = sp.csr_matrix(A)
     if method == "direct":
         try:
             lu = spla.splu(A.tocsc(), permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,

@@ -23,7 +23,7 @@ zone's values exactly.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Mapping
+from typing import Iterable, Mapping
 
 import numpy as np
 
@@ -55,6 +55,7 @@ class ZoneCover:
     strip_edges: np.ndarray
     breaks: np.ndarray
     owner: np.ndarray
+    _memo: dict = field(default_factory=dict, repr=False, compare=False)
 
     @property
     def strip_width(self) -> np.ndarray:
@@ -76,18 +77,24 @@ class ZoneCover:
             ov = np.minimum(top, hi[None, :]) - np.maximum(bottom, lo[None, :])
             yield j, np.clip(ov, 0.0, None) / height
 
-    def fraction(self, grid: Grid, zone: int) -> np.ndarray:
-        """``(nz, n_strips)`` volume fraction of each cell-strip that lies in ``zone``."""
+    def fraction(self, grid: Grid, zone: int, overlaps: tuple | None = None) -> np.ndarray:
+        """``(nz, n_strips)`` volume fraction of each cell-strip that lies in ``zone``
+        (``overlaps``: those of :meth:`overlaps`, when already at hand)."""
         out = np.zeros((grid.nz, self.strip_col.size))
-        for j, f in self.overlaps(grid):
+        for j, f in overlaps or self.overlaps(grid):
             out += np.where(self.owner[None, :, j] == zone, f, 0.0)
         return out
 
     def to_columns(self, grid: Grid, per_strip: np.ndarray) -> np.ndarray:
         """Width-weighted sum over the strips of each column: ``(nz, n_strips) -> (nz, nx)``."""
-        w = (self.strip_width / grid.dx[self.strip_col])[None, :]
-        starts = np.flatnonzero(np.r_[True, np.diff(self.strip_col) != 0])
-        return np.add.reduceat(per_strip * w, starts, axis=1)
+        if self._memo.get("grid") is not grid:
+            self._memo.update(grid=grid, weights=(self.strip_width / grid.dx[self.strip_col])[None, :],
+                              starts=np.flatnonzero(np.r_[True, np.diff(self.strip_col) != 0]))
+        weighted = per_strip * self._memo["weights"]
+        starts = self._memo["starts"]
+        if starts.size == self.strip_col.size:
+            return weighted  # one strip per column: the sum over a column's strips is that strip
+        return np.add.reduceat(weighted, starts, axis=1)
 
 
 def zone_cover(scenario: Scenario, grid: Grid) -> ZoneCover:
@@ -155,6 +162,34 @@ class Materials:
     table: Mapping[str, np.ndarray] | None = None
     replaced: frozenset = frozenset()
     _memo: dict = field(default_factory=dict, repr=False, compare=False)
+    #: what depends on the geometry only (the cover's overlaps, zone fractions; made when first
+    #: needed, for derivatives and new zone values), shared with :meth:`with_zone_values` copies
+    _shared: dict = field(default_factory=dict, repr=False, compare=False)
+
+    def _overlaps(self) -> tuple:
+        if "overlaps" not in self._shared:
+            self._shared["overlaps"] = tuple(self.cover.overlaps(self.grid))
+        return self._shared["overlaps"]
+
+    def _fraction(self, zone: int) -> np.ndarray:
+        key = ("fraction", zone)
+        if key not in self._shared:
+            self._shared[key] = self.cover.fraction(self.grid, zone, self._overlaps())
+        return self._shared[key]
+
+    def with_zone_values(self, table: Mapping[str, np.ndarray]) -> "Materials":
+        """The materials for new zone values (``table``: per property, one value per zone) on the
+        same geometry: the averages recomputed from the cached volume fractions, as
+        :func:`materials` computes them. Not for materials with user arrays (``replaced``)."""
+        if self.replaced:
+            raise ValueError("materials with user arrays cannot take new zone values")
+        table = {p: np.asarray(table[p], dtype=float) for p in PROPERTIES}
+        changed = [p for p in PROPERTIES if not np.array_equal(table[p], self.table[p])]
+        arrays = {p: getattr(self, p) for p in PROPERTIES}
+        arrays.update(_zone_averages(self.cover, self.grid, self._overlaps(), table, changed))
+        return Materials(arrays["kh"], arrays["kv"], arrays["specific_storage"], arrays["specific_yield"],
+                         arrays["porosity"], self.zone, self.zone_names, self.grid, self.cover, table,
+                         self.replaced, _shared=self._shared)
 
     def derivative(self, prop: str, zone: int) -> np.ndarray:
         """``(nz, nx)`` derivative of each cell's ``prop`` with respect to the value of ``zone``
@@ -167,22 +202,24 @@ class Materials:
         g = self.grid
         if prop in self.replaced:
             return np.zeros((g.nz, g.nx))
-        f = self.cover.fraction(g, zone)
+        f = self._fraction(zone)
         value = self.table[prop][zone]
         if prop == "kv":
-            strip = _strip_average(self.cover, g, self.table["kv"], harmonic=True)
+            strip = _strip_average(self._overlaps(), self.cover, g, self.table["kv"], harmonic=True)
             return self.cover.to_columns(g, strip**2 * f) / value**2
         if prop == "kh":
-            strip = _strip_average(self.cover, g, self.table["kh"], harmonic=False)
+            strip = _strip_average(self._overlaps(), self.cover, g, self.table["kh"], harmonic=False)
             return self.kh**2 * self.cover.to_columns(g, f / strip**2)
         return self.cover.to_columns(g, f)
 
 
-def _strip_average(cover: ZoneCover, grid: Grid, values: np.ndarray, harmonic: bool) -> np.ndarray:
-    """``(nz, n_strips)`` harmonic or arithmetic mean of ``values`` (per zone) over each cell-strip."""
+def _strip_average(overlaps: tuple, cover: ZoneCover, grid: Grid, values: np.ndarray, harmonic: bool
+                   ) -> np.ndarray:
+    """``(nz, n_strips)`` harmonic or arithmetic mean of ``values`` (per zone) over each cell-strip
+    (``overlaps``: :meth:`ZoneCover.overlaps`)."""
     total = np.zeros((grid.nz, cover.strip_col.size))
     v = 1.0 / values if harmonic else values
-    for j, f in cover.overlaps(grid):
+    for j, f in overlaps:
         total += f * v[cover.owner[:, j]][None, :]
     return 1.0 / total if harmonic else total
 
@@ -219,21 +256,19 @@ def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] |
         implausible conductivity.
     """
     cover = zone_cover(scenario, grid)
-    table = {p: np.array([getattr(z, p) for z in scenario.zones], dtype=float) for p in PROPERTIES}
-    sums = {p: np.zeros((grid.nz, cover.strip_col.size)) for p in PROPERTIES}
+    table = zone_table(scenario)
     active = grid.active[:, cover.strip_col]
     covered = np.zeros(len(scenario.zones), dtype=bool)
-    for j, f in cover.overlaps(grid):
-        own = cover.owner[:, j]
-        covered[np.unique(own[((f > 0) & active).any(axis=0)])] = True
-        for p in PROPERTIES:
-            v = 1.0 / table[p][own] if p == "kv" else table[p][own]
-            sums[p] += f * v[None, :]
+
+    def noting_cover(overlaps):
+        # one interval at a time (a large section holds one at once), noting the zones it covers
+        for j, f in overlaps:
+            own = cover.owner[:, j]
+            covered[np.unique(own[((f > 0) & active).any(axis=0)])] = True
+            yield j, f
+
+    arrays = _zone_averages(cover, grid, noting_cover(cover.overlaps(grid)), table)
     _require_cover(scenario, grid, covered)
-    arrays = {"kv": cover.to_columns(grid, 1.0 / sums.pop("kv")),
-              "kh": 1.0 / cover.to_columns(grid, 1.0 / sums.pop("kh"))}
-    for p, s in sums.items():
-        arrays[p] = cover.to_columns(grid, s)
     for name, value in (fields or {}).items():
         if name in RENAMED_FIELDS:
             raise InputError(f"field '{name}' was renamed; pass it as '{RENAMED_FIELDS[name]}'", where="fields")
@@ -255,3 +290,28 @@ def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] |
     return Materials(arrays["kh"], arrays["kv"], arrays["specific_storage"], arrays["specific_yield"],
                      arrays["porosity"], _centre_zone(cover, grid), tuple(z.name for z in scenario.zones), grid,
                      cover, table, frozenset(fields or {}))
+
+
+def zone_table(scenario: Scenario) -> dict[str, np.ndarray]:
+    """Per property, the value of every zone (SI)."""
+    return {p: np.array([getattr(z, p) for z in scenario.zones], dtype=float) for p in PROPERTIES}
+
+
+def _zone_averages(cover: ZoneCover, grid: Grid, overlaps: Iterable, table: Mapping[str, np.ndarray],
+                   properties: tuple | list = PROPERTIES) -> dict[str, np.ndarray]:
+    """``(nz, nx)`` arrays of the ``properties``: the averages of the zone values (see the module
+    docstring) over the volume fractions ``overlaps`` (:meth:`ZoneCover.overlaps`, read once)."""
+    sums = {p: np.zeros((grid.nz, cover.strip_col.size)) for p in properties}
+    for j, f in overlaps:
+        own = cover.owner[:, j]
+        for p in properties:
+            v = 1.0 / table[p][own] if p == "kv" else table[p][own]
+            sums[p] += f * v[None, :]
+    arrays = {}
+    if "kv" in sums:
+        arrays["kv"] = cover.to_columns(grid, 1.0 / sums.pop("kv"))
+    if "kh" in sums:
+        arrays["kh"] = 1.0 / cover.to_columns(grid, 1.0 / sums.pop("kh"))
+    for p, s in sums.items():
+        arrays[p] = cover.to_columns(grid, s)
+    return arrays
