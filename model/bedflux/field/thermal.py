@@ -41,6 +41,8 @@ LAG_BELOW = 0.25
 FLAGS = {
     "gap": "too few readings in the window to fit the daily wave",
     "too_damped": f"the deep sensor's daily wave is below {READABLE_AMPLITUDE:g} of its standard errors",
+    "no_damping": "the deep wave is not smaller than the shallow one (sensors swapped, or the upper sensor "
+                  "out of the bed)",
     "phase_out_of_range": "the deep wave leads the shallow one (a negative lag), which no flow produces",
     "methods_disagree": f"amplitude and phase fluxes differ by more than {DISAGREEMENT:g} standard deviations",
     "implausible_diffusivity": "the diffusivity implied by amplitude and phase together lies outside "
@@ -213,8 +215,9 @@ def _flags(hs: Harmonics, hd: Harmonics, nominal: dict, spread: dict) -> np.ndar
     words = []
     complete = hs.complete & hd.complete
     damped = complete & ~(hd.amplitude >= READABLE_AMPLITUDE * _amplitude_sd(hd))
+    undamped = complete & ~damped & ~(nominal["ratio"] < 1.0)
     lag = nominal["lag"]
-    phase_bad = complete & ~damped & ~np.isfinite(nominal["phase"])
+    phase_bad = complete & ~damped & ~undamped & ~(nominal["lag"] > 0)
     with np.errstate(invalid="ignore"):
         diff = np.abs(nominal["amplitude"] - nominal["phase"])
         disagree = complete & ~damped & (diff > DISAGREEMENT * np.hypot(spread["amplitude"], spread["phase"]))
@@ -222,7 +225,7 @@ def _flags(hs: Harmonics, hd: Harmonics, nominal: dict, spread: dict) -> np.ndar
         lo, hi = PLAUSIBLE_DIFFUSIVITY
         implausible = complete & ~damped & np.isfinite(lag) & ~((k >= lo) & (k <= hi))
     for i in range(complete.size):
-        w = [name for name, on in (("gap", not complete[i]), ("too_damped", damped[i]),
+        w = [name for name, on in (("gap", not complete[i]), ("too_damped", damped[i]), ("no_damping", undamped[i]),
                                    ("phase_out_of_range", phase_bad[i]), ("methods_disagree", disagree[i]),
                                    ("implausible_diffusivity", implausible[i])) if on]
         words.append(" ".join(w))
