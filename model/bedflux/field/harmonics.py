@@ -23,7 +23,7 @@ import numpy as np
 #: A window needs at least this many readings per period to fit the harmonic (project rule:
 #: well above the Nyquist limit of 2, so that the four coefficients are overdetermined).
 MIN_READINGS_PER_PERIOD = 8
-#: ... and readings spanning at least this fraction of the window.
+#: ... and no stretch without readings longer than 1 - MIN_COVERAGE of the window (at its ends included).
 MIN_COVERAGE = 0.75
 
 
@@ -56,12 +56,26 @@ class Harmonics:
 
 
 def window_centres(time: np.ndarray, window: float, step: float) -> np.ndarray:
-    """Centres of the windows of length ``window`` stepping by ``step`` over the record."""
+    """Centres of the windows of length ``window`` stepping by ``step`` from the first reading; the
+    last window may run past the last reading by up to ``1 - MIN_COVERAGE`` of its length (a
+    record read every hour for 20 days ends an hour short of day 20 and still has 20 windows)."""
     t0, t1 = float(np.min(time)), float(np.max(time))
     if t1 - t0 < window * MIN_COVERAGE:
         return np.empty(0)
-    n = int(np.floor((t1 - t0 - window) / step + 1e-9)) + 1
+    n = int(np.floor((t1 - t0 - MIN_COVERAGE * window) / step + 1e-9)) + 1
     return t0 + window / 2.0 + step * np.arange(max(n, 1))
+
+
+def _gapped(t: np.ndarray, centres: np.ndarray, window: float, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    """Windows with a stretch longer than ``(1 - MIN_COVERAGE) window`` without readings."""
+    longest = (1.0 - MIN_COVERAGE) * window
+    if t.size == 0:
+        return np.ones(centres.size, dtype=bool)
+    big = np.flatnonzero(np.diff(t) > longest)
+    inside = np.searchsorted(big, hi - 1) - np.searchsorted(big, lo) > 0
+    first = t[np.minimum(lo, t.size - 1)] - (centres - window / 2.0)
+    last = (centres + window / 2.0) - t[np.maximum(hi - 1, 0)]
+    return inside | (first > longest) | (last > longest) | (hi <= lo)
 
 
 def fit_windows(time: np.ndarray, temperature: np.ndarray, centres: np.ndarray, window: float,
@@ -98,9 +112,7 @@ def fit_windows(time: np.ndarray, temperature: np.ndarray, centres: np.ndarray, 
     Xty = sums[16:20].T
     yty = sums[20]
     n = hi - lo
-    span = np.where(n > 1, t[np.maximum(hi - 1, 0)] - t[np.minimum(lo, max(t.size - 1, 0))], 0.0) \
-        if t.size else np.zeros_like(centres)
-    complete = (n >= MIN_READINGS_PER_PERIOD * window / period) & (span >= MIN_COVERAGE * window) & (n > 4)
+    complete = (n >= MIN_READINGS_PER_PERIOD * window / period) & (n > 4) & ~_gapped(t, centres, window, lo, hi)
     eye = np.broadcast_to(np.eye(4), XtX.shape)
     XtX = np.where(complete[:, None, None], XtX, eye)
     beta = np.linalg.solve(XtX, np.where(complete[:, None], Xty, 0.0)[..., None])[..., 0]
