@@ -125,10 +125,10 @@ def reduce_temperature(sheet: Sheet, sites: Sites, rejected: Rejected, flags: Fl
         i = sites.index(site)
         for upper, lower in zip(depths[:-1], depths[1:]):
             pair = wide[[upper, lower]].dropna()
-            acc = np.nanmax([accuracy[upper], accuracy[lower]])
+            given = [a for a in (accuracy[upper], accuracy[lower]) if np.isfinite(a)]
             est = flux_from_temperature(pair.index.to_numpy(float), pair[upper].to_numpy(), pair[lower].to_numpy(),
                                         lower - upper, props.thermal_conductivity, props.heat_capacity,
-                                        method=SHEET_METHOD, accuracy=acc if np.isfinite(acc) else DEFAULT_ACCURACY,
+                                        method=SHEET_METHOD, accuracy=max(given) if given else DEFAULT_ACCURACY,
                                         conductivity_range=props.conductivity_range,
                                         heat_capacity_range=props.heat_capacity_range)
             mid = 0.5 * (upper + lower)
