@@ -184,3 +184,19 @@ def test_cli_writes_thermal_outputs_and_exits_2_on_bad_sheet(tmp_path):
                          capture_output=True, text=True)
     assert bad.returncode == 2
     assert "temperature.csv" in bad.stderr and "degC" in bad.stderr and "Traceback" not in bad.stderr
+
+
+def test_demo_campaign_temperature_findings(demo):
+    # the invented demo records (scenarios/make_temperature_sheet.py): a flood from day 8 turns the
+    # flux downward at A2 and B2 (true zero crossings near day 8.3 and back after day 13.5) but only
+    # weakens it at C2; before the flood the rods read the meters' fluxes
+    out, summary = demo
+    pairs = summary["temperature"]["pairs"]
+    reversed_sites = {p["site"] for p in pairs if p["reversals"]}
+    assert reversed_sites == {"A2", "B2"}
+    for p in pairs:
+        for r in p["reversals"]:
+            assert 7 * DAY < r["start [s]"] < 9.5 * DAY
+            assert r["end [s]"] is None or 11 * DAY < r["end [s]"] < 16 * DAY
+        assert p["meter"]["meter"] == p["site"] and p["meter"]["agree"]
+    assert len(pd.read_csv(out / "thermal_flux.csv")) == 6 * 21
