@@ -112,16 +112,16 @@ def velocity_from_phase(lag: ArrayLike, spacing: ArrayLike, diffusivity: ArrayLi
     """Magnitude of the thermal front velocity (m/s) from the lag (s) of the deep wave.
 
     ``|v| = sqrt((dz/dt)^2 - (4 pi k dt / (P dz))^2)`` (Hatch et al. 2006, the phase equation
-    solved for v). A lag longer than pure conduction allows (the square root of a negative
-    number, which noise makes of a lag near the no-flow lag) gives 0, the nearest admissible
-    velocity; a lag <= 0 gives NaN.
+    solved for v). A lag <= 0, or a lag longer than pure conduction allows (the square root of
+    a negative number: an assumed diffusivity too large, or noise about the no-flow lag), gives
+    NaN: the lag cannot be read as a flux.
     """
     dt = np.asarray(lag, dtype=float)
     dz = np.asarray(spacing, dtype=float)
     k = np.asarray(diffusivity, dtype=float)
     with np.errstate(divide="ignore", invalid="ignore"):
         v2 = (dz / dt) ** 2 - (4.0 * np.pi * k * dt / (period * dz)) ** 2
-        return np.where(dt > 0, np.sqrt(np.maximum(v2, 0.0)), np.nan)
+        return np.where((dt > 0) & (v2 >= 0), np.sqrt(np.maximum(v2, 0.0)), np.nan)
 
 
 def velocity_and_diffusivity(ratio: ArrayLike, lag: ArrayLike, spacing: ArrayLike,

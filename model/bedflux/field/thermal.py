@@ -43,7 +43,8 @@ FLAGS = {
     "too_damped": f"the deep sensor's daily wave is below {READABLE_AMPLITUDE:g} of its standard errors",
     "no_damping": "the deep wave is not smaller than the shallow one (sensors swapped, or the upper sensor "
                   "out of the bed)",
-    "phase_out_of_range": "the deep wave leads the shallow one (a negative lag), which no flow produces",
+    "phase_out_of_range": "the lag cannot be read as a flux: negative (the deep wave ahead), or longer than "
+                          "conduction alone allows (the assumed diffusivity too large, or noise near zero flow)",
     "methods_disagree": f"amplitude and phase fluxes differ by more than {DISAGREEMENT:g} standard deviations",
     "implausible_diffusivity": "the diffusivity implied by amplitude and phase together lies outside "
                                "0.028-0.180 m^2/d (Irvine et al. 2015)",
@@ -77,6 +78,15 @@ def _amplitude_sd(h: Harmonics) -> np.ndarray:
     with np.errstate(invalid="ignore", divide="ignore"):
         var = (c * c * cov[:, 0, 0] + s * s * cov[:, 1, 1] + 2 * c * s * cov[:, 0, 1]) / (c * c + s * s)
     return np.sqrt(np.maximum(var, 0.0))
+
+
+def _robust_sd(samples: np.ndarray) -> np.ndarray:
+    """Half the central 68 % range of each row's samples: the standard deviation of a normal
+    spread, not blown up by the few samples in which a noisy deep wave makes an inversion wild."""
+    if samples.size == 0:
+        return np.empty(samples.shape[0])
+    lo, hi = np.nanpercentile(samples, [15.865, 84.135], axis=1)
+    return 0.5 * (hi - lo)
 
 
 def _draw(h: Harmonics, rng: np.random.Generator, n: int) -> tuple[np.ndarray, np.ndarray]:
@@ -191,7 +201,7 @@ def flux_from_temperature(time: ArrayLike, shallow: ArrayLike, deep: ArrayLike, 
                     period)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
-        spread = {m: np.nanstd(drawn[m], axis=1) if drawn[m].size else np.empty(0) for m in METHODS}
+        spread = {m: _robust_sd(drawn[m]) for m in METHODS}
     spread = {m: np.where(np.isfinite(nominal[m]), s, np.nan) for m, s in spread.items()}
 
     flags = _flags(hs, hd, nominal, spread)
@@ -217,7 +227,7 @@ def _flags(hs: Harmonics, hd: Harmonics, nominal: dict, spread: dict) -> np.ndar
     damped = complete & ~(hd.amplitude >= READABLE_AMPLITUDE * _amplitude_sd(hd))
     undamped = complete & ~damped & ~(nominal["ratio"] < 1.0)
     lag = nominal["lag"]
-    phase_bad = complete & ~damped & ~undamped & ~(nominal["lag"] > 0)
+    phase_bad = complete & ~damped & ~undamped & ~np.isfinite(nominal["phase"])
     with np.errstate(invalid="ignore"):
         diff = np.abs(nominal["amplitude"] - nominal["phase"])
         disagree = complete & ~damped & (diff > DISAGREEMENT * np.hypot(spread["amplitude"], spread["phase"]))
