@@ -200,3 +200,18 @@ def test_demo_campaign_temperature_findings(demo):
             assert r["end [s]"] is None or 11 * DAY < r["end [s]"] < 16 * DAY
         assert p["meter"]["meter"] == p["site"] and p["meter"]["agree"]
     assert len(pd.read_csv(out / "thermal_flux.csv")) == 6 * 21
+
+
+def test_site_thermal_properties_from_the_sites_sheet(tmp_path):
+    # own values (any sediment word), the silt defaults, and the sand conductivity with a porosity
+    sites = ("site,x [m],y [m],bed_elevation [m],sediment,thermal_conductivity [W/(m K)],heat_capacity [MJ/(m^3 K)],"
+             "porosity\nR1,10,2,100.0,gravel,2.9,2.4,\nR2,40,2,99.9,silt,,,\nR3,70,2,99.8,,,,0.4\n")
+    rows = _rows("R1", 1e-6, days=2) + _rows("R2", 1e-6, days=2) + _rows("R3", 1e-6, days=2)
+    props = reduce_field(_folder(tmp_path, rows, sites=sites)).summary["temperature"]["properties"]
+    assert props["R1"]["thermal_conductivity [W/(m K)]"] == 2.9
+    assert props["R1"]["heat_capacity [J/(m^3 K)]"] == pytest.approx(2.4e6)
+    assert props["R1"]["thermal_conductivity_range"] == pytest.approx([2.9 * 0.85, 2.9 * 1.15])
+    assert props["R2"]["thermal_conductivity [W/(m K)]"] == SEDIMENTS["silt"].thermal_conductivity
+    # n rho_w c_w + (1 - n) rho_s c_s with 4.186e6 and 2.0e6 J/(m^3 K)
+    assert props["R3"]["heat_capacity [J/(m^3 K)]"] == pytest.approx(0.4 * 4.186e6 + 0.6 * 2.0e6)
+    assert props["R3"]["thermal_conductivity_range"] == list(SAND.conductivity_range)

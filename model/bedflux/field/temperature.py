@@ -57,31 +57,41 @@ def _times(sheet: Sheet, rejected: Rejected) -> tuple[Sheet, np.ndarray, str | N
 
 
 def site_properties(sites: Sites, site: str) -> BedThermal:
-    """The bed thermal properties of ``site`` from the sites sheet (defaults of its sediment).
+    """The bed thermal properties of ``site`` from the sites sheet.
+
+    The site's own ``thermal_conductivity``, ``heat_capacity`` or ``porosity`` where given (with
+    the +/- 15 % band of :func:`user_properties`), the defaults of its ``sediment`` (sand when
+    none is named) for the rest.
 
     Raises
     ------
     InputError
-        For a sediment word other than those of :data:`SEDIMENTS`.
+        For a sediment word other than those of :data:`SEDIMENTS` at a site that does not give
+        its conductivity and its heat capacity (or porosity).
     """
     i = sites.index(site)
     opt = sites.optional
+    nan = np.full(len(sites.ids), np.nan)
+    lam, rc, n = (float(opt.get(c, nan)[i]) for c in ("thermal_conductivity", "heat_capacity", "porosity"))
     word = str(opt.get("sediment", np.array([""] * len(sites.ids)))[i]).strip().lower() or DEFAULT_SEDIMENT
+    complete = np.isfinite(lam) and (np.isfinite(rc) or np.isfinite(n))
+    if complete:
+        return user_properties(lam, rc if np.isfinite(rc) else None, n if np.isfinite(n) else None)
     if word not in SEDIMENTS:
         line = opt.get("line")
-        raise InputError(f"sediment '{word}' of site '{site}' is not one of {', '.join(SEDIMENTS)}; give "
-                         "thermal_conductivity and heat_capacity (or porosity) for another bed",
+        raise InputError(f"sediment '{word}' of site '{site}' is not one of {', '.join(SEDIMENTS)}; for another "
+                         "bed give its thermal_conductivity and heat_capacity (or porosity)",
                          "sites.csv", f"line {line[i]}, column 'sediment'" if line is not None else None)
-    lam = opt.get("thermal_conductivity", np.full(len(sites.ids), np.nan))[i]
-    rc = opt.get("heat_capacity", np.full(len(sites.ids), np.nan))[i]
-    n = opt.get("porosity", np.full(len(sites.ids), np.nan))[i]
-    if not np.isfinite(lam):
-        if np.isfinite(rc) or np.isfinite(n):
-            base = SEDIMENTS[word]
-            return user_properties(base.thermal_conductivity, rc if np.isfinite(rc) else None,
-                                   n if np.isfinite(n) else None, word)
-        return SEDIMENTS[word]
-    return user_properties(lam, rc if np.isfinite(rc) else None, n if np.isfinite(n) else None, word)
+    base = SEDIMENTS[word]
+    if not (np.isfinite(lam) or np.isfinite(rc) or np.isfinite(n)):
+        return base
+    given = user_properties(lam if np.isfinite(lam) else base.thermal_conductivity,
+                            rc if np.isfinite(rc) else None, n if np.isfinite(n) else None, word)
+    if np.isfinite(lam):
+        return given
+    # the sediment's conductivity with its published range, the site's own heat capacity
+    return BedThermal(base.thermal_conductivity, given.heat_capacity, given.porosity, base.conductivity_range,
+                      given.heat_capacity_range, f"{word} conductivity ({base.source}); {given.source}")
 
 
 def reduce_temperature(sheet: Sheet, sites: Sites, rejected: Rejected, flags: Flags) -> TemperatureReduction:

@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from bedflux.field.sites import Sites
 from bedflux.field.temperature import SHEET_METHOD, TemperatureReduction
 from bedflux.scenario.units import SECONDS_PER_DAY
 
@@ -93,7 +94,7 @@ def _nearest_meter(meters: pd.DataFrame, x: float, y: float, time: np.ndarray, f
 
 
 def thermal_summary(temp: TemperatureReduction, meters: pd.DataFrame | None = None,
-                    sites=None) -> dict:
+                    sites: Sites | None = None) -> dict:
     """The temperature part of ``field_summary.json``.
 
     Parameters
