@@ -3,8 +3,10 @@
 Three rods (at sites A2, B2 and C2, beside meters and piezometers) carry sensors 5, 15 and 25 cm
 below the bed, read hourly for 21 days from the campaign origin. The temperatures follow the
 periodic solution for a daily wave over a bed with vertical flow (Stallman 1965), taken at each
-hour with that hour's flux (quasi-steady: the flux changes over days, the wave over one), plus
-sensor noise rounded to the logger's 0.01 degC display.
+hour with that hour's flux (quasi-steady: the flux changes over days, the wave over one), added
+to the steady profile between the stream's mean and 10 degC groundwater 1 m down (Bredehoeft &
+Papadopulos 1965; the equation is linear, so the two add), plus sensor noise rounded to the
+logger's 0.01 degC display.
 
 The flux at each rod starts at the seepage meters' flux there (upward, gaining). A flood from day
 8 raises the stage: the flux turns downward at A2 and B2 for a few days and only weakens at C2,
@@ -30,6 +32,7 @@ HEAT_CAPACITY = 2.7e6
 DEPTHS = (0.05, 0.15, 0.25)
 #: Base upward flux (m/s) and the flux at the height of the flood (negative: losing).
 RODS = {"A2": (1.4e-6, -4.5e-6), "B2": (1.65e-6, -3.5e-6), "C2": (2.2e-6, 0.5e-6)}
+GROUNDWATER, PROFILE_DEPTH = 10.0, 1.0
 FLOOD_START, FLOOD_RISE, FLOOD_FALL = 8.0 * DAY, 1.0 * DAY, 4.0 * DAY
 
 
@@ -39,6 +42,13 @@ def flood_shape(t: np.ndarray) -> np.ndarray:
     s = 0.5 - 0.5 * np.cos(np.pi * s)
     fall = np.exp(-np.clip(t - FLOOD_START - FLOOD_RISE, 0.0, None) / FLOOD_FALL)
     return np.where(t <= FLOOD_START + FLOOD_RISE, s, fall)
+
+
+def steady_profile(z: float, top: np.ndarray, flux_up: np.ndarray) -> np.ndarray:
+    """Bredehoeft & Papadopulos (1965): T(z) = T0 + (TL - T0)(exp(Pe z/L) - 1)/(exp(Pe) - 1), with
+    Pe = rho_w c_w q L / lambda and q positive downward."""
+    pe = -flux_up * WATER_HEAT_CAPACITY * PROFILE_DEPTH / CONDUCTIVITY
+    return top + (GROUNDWATER - top) * np.expm1(pe * z / PROFILE_DEPTH) / np.expm1(pe)
 
 
 def records(seed: int = 15) -> list[str]:
@@ -57,7 +67,8 @@ def records(seed: int = 15) -> list[str]:
         v = -flux_up * WATER_HEAT_CAPACITY / HEAT_CAPACITY
         a, b = wavenumbers(v, k, DAY)
         for z in DEPTHS:
-            temp = mean + amplitude * np.exp(-a * z) * np.cos(w * (t - 15 * 3600.0) - b * z)
+            wave = amplitude * np.exp(-a * z) * np.cos(w * (t - 15 * 3600.0) - b * z)
+            temp = steady_profile(z, mean, flux_up) + wave
             temp = np.round(temp + rng.normal(0.0, 0.02, t.size), 2)
             rows += [f"{site},{ti / 3600.0:g},{z * 100:g},{Ti:.2f},0.1" for ti, Ti in zip(t, temp)]
     return rows
