@@ -229,3 +229,20 @@ def test_bad_arguments_raise_input_errors(kwargs, match):
     spacing = args.pop("spacing")
     with pytest.raises(InputError, match=match):
         flux_from_temperature(t, s, d, spacing, LAM, RC, **args)
+
+
+def test_public_signature_and_columns():
+    # the contract of the design brief: bedflux.field.flux_from_temperature(time, shallow, deep,
+    # spacing, thermal_conductivity, heat_capacity, period=86400.0, method=...) -> DataFrame with
+    # time (window centre), flux (m/s, positive upward), flux_sd, flag
+    import inspect
+
+    params = list(inspect.signature(flux_from_temperature).parameters.values())
+    assert [p.name for p in params[:8]] == ["time", "shallow", "deep", "spacing", "thermal_conductivity",
+                                            "heat_capacity", "period", "method"]
+    assert params[6].default == 86400.0
+    t, s, d = _records(2e-6, noise=0.0, days=2)
+    out = flux_from_temperature(t, s, d, 0.1, LAM, RC, DAY, "phase")
+    assert list(out.columns[:4]) == ["time", "flux", "flux_sd", "flag"]
+    assert np.allclose(out["time"], [0.5 * DAY, 1.5 * DAY])
+    assert (out["flux"] > 0).all()  # upward flow is positive
