@@ -215,3 +215,29 @@ def test_site_thermal_properties_from_the_sites_sheet(tmp_path):
     # n rho_w c_w + (1 - n) rho_s c_s with 4.186e6 and 2.0e6 J/(m^3 K)
     assert props["R3"]["heat_capacity [J/(m^3 K)]"] == pytest.approx(0.4 * 4.186e6 + 0.6 * 2.0e6)
     assert props["R3"]["thermal_conductivity_range"] == list(SAND.conductivity_range)
+
+
+def test_too_damped_windows_are_left_out_of_the_observations(tmp_path):
+    # strong upwelling (2e-5 m/s) between 5 and 60 cm: the deep wave is far below the 0.02 degC noise
+    out = tmp_path / "out"
+    run_field(_folder(tmp_path, _rows("R1", 2e-5, depths_cm=(5, 60), days=4)), out, quiet=True)
+    table = pd.read_csv(out / "thermal_flux.csv")
+    damped = table["flags"].fillna("").str.contains("too_damped")
+    assert damped.sum() >= 3
+    obs = pd.read_csv(out / "observations.csv")
+    flagged = pd.read_csv(out / "flagged_observations.csv")
+    assert (obs["kind"] == "thermal_flux").sum() == len(table) - damped.sum()
+    left = flagged[flagged["kind"] == "thermal_flux"]
+    assert len(left) == damped.sum() and left["reason"].str.contains("too small to read").all()
+
+
+def test_demo_sheet_is_what_its_script_writes():
+    # the invented demo records are reproducible from scenarios/make_temperature_sheet.py
+    import importlib.util
+
+    path = Path(__file__).resolve().parents[2] / "scenarios" / "make_temperature_sheet.py"
+    spec = importlib.util.spec_from_file_location("make_temperature_sheet", path)
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    written = (path.parent / "field" / "temperature.csv").read_text(encoding="utf-8").splitlines()
+    assert written[1:] == module.records()
