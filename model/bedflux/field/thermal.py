@@ -226,14 +226,13 @@ def _flags(hs: Harmonics, hd: Harmonics, nominal: dict, spread: dict) -> np.ndar
     complete = hs.complete & hd.complete
     damped = complete & ~(hd.amplitude >= READABLE_AMPLITUDE * _amplitude_sd(hd))
     undamped = complete & ~damped & ~(nominal["ratio"] < 1.0)
-    lag = nominal["lag"]
     phase_bad = complete & ~damped & ~undamped & ~np.isfinite(nominal["phase"])
     with np.errstate(invalid="ignore"):
         diff = np.abs(nominal["amplitude"] - nominal["phase"])
         disagree = complete & ~damped & (diff > DISAGREEMENT * np.hypot(spread["amplitude"], spread["phase"]))
         k = nominal["diffusivity"]
         lo, hi = PLAUSIBLE_DIFFUSIVITY
-        implausible = complete & ~damped & np.isfinite(lag) & ~((k >= lo) & (k <= hi))
+        implausible = complete & ~damped & np.isfinite(k) & ~((k >= lo) & (k <= hi))
     for i in range(complete.size):
         w = [name for name, on in (("gap", not complete[i]), ("too_damped", damped[i]), ("no_damping", undamped[i]),
                                    ("phase_out_of_range", phase_bad[i]), ("methods_disagree", disagree[i]),
