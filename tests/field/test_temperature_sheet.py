@@ -155,19 +155,15 @@ def test_bad_rows_are_rejected_and_listed(tmp_path):
     rows[3] = "R1,,5,15.2"
     rows[4] = "R1,2.0,5,warm"
     rows[5] = rows[6]  # a repeated (site, depth, time)
-    out = tmp_path / "out"
-    run_field(_folder(tmp_path, rows), out, quiet=True)
-    rejected = pd.read_csv(out / "rejected.csv")
-    reasons = " | ".join(rejected["reason"])
+    rejected = reduce_field(_folder(tmp_path, rows)).rejected.rows
+    reasons = " | ".join(r[3] for r in rejected)
     assert len(rejected) == 3
     assert "'time' is required" in reasons and "'warm' is not a number" in reasons and "duplicates line" in reasons
 
 
 def test_single_depth_is_flagged(tmp_path):
-    out = tmp_path / "out"
-    run_field(_folder(tmp_path, _rows("R1", 1e-6, depths_cm=(5,), days=2) + _rows("R2", 1e-6, days=2)), out,
-              quiet=True)
-    flags = pd.read_csv(out / "flags.csv")
+    r = reduce_field(_folder(tmp_path, _rows("R1", 1e-6, depths_cm=(5,), days=2) + _rows("R2", 1e-6, days=2)))
+    flags = r.flags.frame()
     assert ((flags["item"] == "R1") & (flags["flag"] == "single_depth")).any()
 
 
