@@ -88,8 +88,8 @@ def build_parser() -> argparse.ArgumentParser:
 
     f = sub.add_parser("field", help="reduce field sheets to checked observations",
                        description="Read the CSV field sheets in SHEETS (sites, seepage meters, "
-                                   "manometers, slug tests, permeameters, velocity heads), compute fluxes, "
-                                   "gradients and conductivities with uncertainties and flags, and write "
+                                   "manometers, slug tests, permeameters, velocity heads, temperature records), "
+                                   "compute fluxes (from temperature too), gradients and conductivities with uncertainties and flags, and write "
                                    "observations.csv for calibration with tables and figures into OUTDIR.")
     f.add_argument("sheets", help="folder with the field sheets")
     add_output_options(f, "bedflux-field", "no summary on screen")

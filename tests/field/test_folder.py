@@ -26,8 +26,10 @@ def test_upper_case_names_are_read(tmp_path):
     run_field(shouting, tmp_path / "b", quiet=True)
     a = pd.read_csv(tmp_path / "a" / "observations.csv")
     b = pd.read_csv(tmp_path / "b" / "observations.csv")
-    # the demo campaign: 14 unflagged meters, 6 piezometers with a gradient and a head each
-    assert len(b) == len(a) == 26
+    # the demo campaign: 14 unflagged meters, 6 piezometers with a gradient and a head each, and
+    # three sensor rods of two pairs read for 21 daily windows
+    assert len(b) == len(a) == 26 + 126
+    assert (a["kind"] == "thermal_flux").sum() == 126
     pd.testing.assert_frame_equal(a, b)
 
 

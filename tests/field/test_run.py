@@ -24,7 +24,7 @@ def test_demo_observation_table(demo):
     out, _ = demo
     obs = pd.read_csv(out / "observations.csv")
     assert list(obs.columns) == ["kind", "x", "depth", "time", "value", "sigma"]
-    assert set(obs["kind"]) <= {"seepage", "vhg", "head"}
+    assert set(obs["kind"]) <= {"seepage", "vhg", "head", "thermal_flux"}
     assert (obs["sigma"] > 0).all()
     assert (obs.loc[obs["kind"] == "seepage", "depth"] == 0).all()
 

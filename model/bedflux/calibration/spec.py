@@ -27,7 +27,7 @@ import pandas as pd
 
 from bedflux.scenario import checks, inputfile
 from bedflux.errors import InputError
-from bedflux.forward.observe import DEFAULT_PAN_DIAMETER, check_observations, read_observations
+from bedflux.forward.observe import DEFAULT_PAN_DIAMETER, KINDS, check_observations, read_observations
 from bedflux.scenario.spec import Scenario, load
 from bedflux.forward.sensitivity import FreeParameter, free_parameters
 from bedflux.calibration.display import dimension_of
@@ -57,7 +57,11 @@ def observations_from(path: Path, source: str) -> pd.DataFrame:
     if path.is_dir():
         from bedflux.field import reduce_field
 
-        return check_observations(reduce_field(path).observations, f"{path} (field sheets)")
+        table = reduce_field(path).observations
+        # A folder of sheets may yield kinds the model does not predict yet (thermal_flux from a
+        # temperature sheet); the fit uses the kinds it knows. A CSV table must hold known kinds only.
+        table = table[table["kind"].isin(KINDS)].reset_index(drop=True)
+        return check_observations(table, f"{path} (field sheets)")
     if not path.exists():
         raise InputError(f"observations '{path}' not found (a CSV table or a folder of field sheets)",
                          source=source, where="observations")

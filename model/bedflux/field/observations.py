@@ -1,8 +1,9 @@
 """The observation table that calibration reads: kind, x, depth, time, value, sigma (SI).
 
 kind is ``seepage`` (bed flux, m/s, positive upward, depth 0), ``vhg`` (vertical hydraulic
-gradient, positive upward, at the piezometer opening depth) or ``head`` (m, where the manometer
-sheet gives the stage). depth is below the bed (m), time is seconds since the campaign origin.
+gradient, positive upward, at the piezometer opening depth), ``head`` (m, where the manometer
+sheet gives the stage) or ``thermal_flux`` (vertical Darcy flux from a pair of temperature
+sensors, m/s, positive upward, at the pair's mid-depth; time is the window centre). depth is below the bed (m), time is seconds since the campaign origin.
 
 Rows of a meter or piezometer whose flag says its value does not stand for the bed (see
 :data:`LEAVE_OUT`) are left out unless asked for; :func:`observation_table` returns them
@@ -26,6 +27,8 @@ LEAVE_OUT = {
                       "practice): its mean is not a steady flux",
     "velocity_head": "the head difference is smaller than the velocity head at the site: flow over the bed "
                      "can make the apparent gradient (Sickbert & Peterson 2014)",
+    "too_damped": "the deep sensor's daily wave is too small to read against its noise: the window's flux "
+                  "from temperature is not measured",
 }
 
 
@@ -35,8 +38,8 @@ def _leave_out_reason(flags: pd.Series) -> pd.Series:
     return flags.fillna("").map(reason)
 
 
-def observation_table(meters: pd.DataFrame, piezometers: pd.DataFrame, *,
-                      keep_flagged: bool = False) -> tuple[pd.DataFrame, pd.DataFrame]:
+def observation_table(meters: pd.DataFrame, piezometers: pd.DataFrame, *, keep_flagged: bool = False,
+                      thermal: pd.DataFrame | None = None) -> tuple[pd.DataFrame, pd.DataFrame]:
     """Observations from the per-meter and per-piezometer tables.
 
     Parameters
@@ -45,6 +48,9 @@ def observation_table(meters: pd.DataFrame, piezometers: pd.DataFrame, *,
         The per-meter and per-piezometer tables (with ``site`` and ``flags`` columns).
     keep_flagged
         Keep the rows whose meter or piezometer carries a flag of :data:`LEAVE_OUT`.
+    thermal
+        The per-window fluxes from temperature (:func:`bedflux.field.temperature.reduce_temperature`);
+        windows without a flux (too few readings, or no damping) are not observations.
 
     Returns
     -------
@@ -73,6 +79,13 @@ def observation_table(meters: pd.DataFrame, piezometers: pd.DataFrame, *,
             "kind": "head", "x": heads["x [m]"], "depth": heads["depth [m]"], "time": heads["time [s]"],
             "value": heads["head [m]"], "sigma": heads["head_sigma [m]"], "site": heads["site"],
             "flags": heads["flags"],
+        }))
+    if thermal is not None and not thermal.empty:
+        read = thermal[np.isfinite(thermal["flux [m/s]"]) & (thermal["flux_sd [m/s]"] > 0)]
+        parts.append(pd.DataFrame({
+            "kind": "thermal_flux", "x": read["x [m]"], "depth": read["mid_depth [m]"], "time": read["time [s]"],
+            "value": read["flux [m/s]"], "sigma": read["flux_sd [m/s]"], "site": read["site"],
+            "flags": read["flags"],
         }))
     parts = [p for p in parts if not p.empty]
     if not parts:

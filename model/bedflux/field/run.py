@@ -11,6 +11,8 @@ import pandas as pd
 from bedflux.outputs.folder import output_folder
 from bedflux.errors import InputError
 from bedflux.outputs import figures as plots
+from bedflux.field.thermal_plots import temperature_records, thermal_flux as thermal_flux_figure
+from bedflux.field.thermal_summary import thermal_summary
 from bedflux.field.consistency import compare_methods
 from bedflux.field.flags import Flags
 from bedflux.field.sheet_specs import DEFAULT_EFFICIENCY, SHEET_FILES, SITES
@@ -22,6 +24,7 @@ from bedflux.field.recovery import add_ln_k_sigma, reduce_permeameter, reduce_sl
 from bedflux.field.seepage import flagged_meters, reduce_seepage
 from bedflux.field.sheets import Rejected, Sheet, read_sheet, reject_unknown_sites
 from bedflux.field.sites import Sites, read_sites
+from bedflux.field.temperature import TemperatureReduction, reduce_temperature
 from bedflux.field.velocity import head_from_velocity, reduce_velocity
 
 #: A sheet losing more than this fraction of its rows is not trusted (a systematic slip).
@@ -145,6 +148,7 @@ class FieldReduction:
     not_read: list[tuple[str, str]]
     bed: BedMap | None
     summary: dict
+    temperature: TemperatureReduction | None = None
 
 
 def reduce_field(sheets_dir: str | Path, keep_flagged: bool = False) -> FieldReduction:
@@ -166,6 +170,7 @@ def reduce_field(sheets_dir: str | Path, keep_flagged: bool = False) -> FieldRed
             if "manometer" in sheets else None)
     slug = reduce_slug(sheets["slug"], rejected, flags) if "slug" in sheets else None
     perm = reduce_permeameter(sheets["permeameter"], rejected, flags) if "permeameter" in sheets else None
+    temp = reduce_temperature(sheets["temperature"], sites, rejected, flags) if "temperature" in sheets else None
     for sheet in sheets.values():
         _check_trust(sheet, rejected, sites)
     between = {"seepage meters": seep.between} if seep else {}
@@ -178,7 +183,8 @@ def reduce_field(sheets_dir: str | Path, keep_flagged: bool = False) -> FieldRed
     slug_k = slug if slug is not None else pd.DataFrame(columns=["site", "k_hvorslev [m/s]"])
     perm_k = perm if perm is not None else pd.DataFrame(columns=["site", "kv [m/s]"])
     comparison = compare_methods(meters, piezos, slug_k, perm_k, flags)
-    observations, flagged = observation_table(meters, piezos, keep_flagged=keep_flagged)
+    observations, flagged = observation_table(meters, piezos, keep_flagged=keep_flagged,
+                                              thermal=temp.fluxes if temp else None)
 
     left_out = flagged_meters(meters)
     bed_all, reach_all = _reach(meters)
@@ -186,8 +192,10 @@ def reduce_field(sheets_dir: str | Path, keep_flagged: bool = False) -> FieldRed
     bed = bed_all if keep_flagged else bed_clean
     summary = _summary(folder, sheets, rejected, flags, meters, piezos, slug_k, perm_k, observations, flagged,
                        keep_flagged, reach_all, reach_clean, between, not_read)
+    if temp is not None:
+        summary["temperature"] = thermal_summary(temp, meters if keep_flagged else meters[~left_out], sites)
     return FieldReduction(sheets, seep, mano, slug, perm, velocity, meters, left_out, comparison, observations,
-                          flagged, flags, rejected, not_read, bed, summary)
+                          flagged, flags, rejected, not_read, bed, summary, temp)
 
 
 def run_field(sheets_dir: str | Path, outdir: str | Path, *, quiet: bool = False,
@@ -241,6 +249,10 @@ def run_field(sheets_dir: str | Path, outdir: str | Path, *, quiet: bool = False
             _write_csv(perm, stage / "permeameter_tests.csv")
         if "velocity" in sheets:
             _write_csv(r.velocity, stage / "velocity_readings.csv")
+        if r.temperature is not None:
+            _write_csv(r.temperature.fluxes, stage / "thermal_flux.csv")
+            temperature_records(r.temperature.readings, stage / "temperature_records.png")
+            thermal_flux_figure(r.temperature.fluxes, meters, stage / "thermal_flux.png")
         if r.bed is not None:
             plots.field_bed_map(r.bed, meters if keep_flagged else meters[~left_out], stage / "bed_flux_map.png")
         if not comparison.empty:
@@ -313,6 +325,8 @@ def _print(summary: dict) -> None:
         lines.append(f"  not read: {entry['file']} ({entry['reason']})")
     lines.append(f"  meters {summary['meters']}, piezometers {summary['piezometers']}, "
                  f"slug tests {summary['slug_tests']}, permeameter tests {summary['permeameter_tests']}")
+    if "temperature" in summary:
+        lines.append(f"  temperature: {summary['temperature']['headline']}")
     if summary["flags"]:
         lines.append("  flags: " + ", ".join(f"{k} {v}" for k, v in summary["flags"].items()))
     flagged = summary["flagged_observations"]

@@ -40,6 +40,13 @@ SITES = SheetSpec(
         Column("bed_elevation", "length", meaning="elevation of the bed surface", plausible=ELEVATION),
         Column("transect", None, required=False, meaning="transect label"),
         Column("station", None, required=False, meaning="station label"),
+        Column("sediment", None, required=False, meaning="bed sediment for its thermal properties: sand or silt"),
+        Column("thermal_conductivity", "thermal_conductivity", required=False, low=0.0, low_inclusive=False,
+               meaning="bulk thermal conductivity of the saturated bed", plausible=(0.1, 10.0)),
+        Column("heat_capacity", "heat_capacity", required=False, low=0.0, low_inclusive=False,
+               meaning="bulk volumetric heat capacity of the saturated bed", plausible=(1.0e6, 5.0e6)),
+        Column("porosity", "dimensionless", required=False, low=0.0, low_inclusive=False,
+               meaning="porosity of the bed", plausible=(0.01, 0.95)),
         Column("note", None, required=False),
     ),
 )
@@ -155,6 +162,28 @@ VELOCITY = SheetSpec(
     ),
 )
 
+#: Stream and bed temperatures, degC: from below freezing (supercooled or saline water) to the
+#: hottest streams outside geothermal areas, rounded outward.
+WATER_TEMPERATURE = (-10.0, 50.0)
+
+TEMPERATURE = SheetSpec(
+    "temperature",
+    (
+        Column("site", None, meaning="site id of the sensor rod"),
+        Column("time", "time", required=False, meaning="time of the reading since the campaign origin",
+               plausible=CAMPAIGN_TIME),
+        Column("datetime", None, required=False,
+               meaning="date and time of the reading, ISO 8601 (2026-07-01 14:00)"),
+        Column("depth", "length", low=0.0, meaning="depth of the sensor below the bed (0: on the bed)",
+               plausible=(0.0, 10.0)),
+        Column("temperature", "temperature", meaning="temperature read", plausible=WATER_TEMPERATURE),
+        Column("accuracy", "temperature_difference", required=False, low=0.0, low_inclusive=False,
+               meaning="accuracy of the sensor (+/-)", plausible=(0.0, 5.0)),
+        Column("note", None, required=False),
+    ),
+    one_of=(("time", "datetime"),),
+)
+
 #: File name in the sheets folder -> sheet kind.
 SHEET_FILES: dict[str, SheetSpec] = {
     "sites.csv": SITES,
@@ -163,4 +192,5 @@ SHEET_FILES: dict[str, SheetSpec] = {
     "slug.csv": SLUG,
     "permeameter.csv": PERMEAMETER,
     "velocity.csv": VELOCITY,
+    "temperature.csv": TEMPERATURE,
 }

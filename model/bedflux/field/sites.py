@@ -1,7 +1,7 @@
 """The sites sheet: where each instrument stands (x along the reach, y across, bed elevation)."""
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
@@ -21,6 +21,8 @@ class Sites:
     bed_elevation: np.ndarray
     transect: np.ndarray
     station: np.ndarray
+    #: The sheet's optional per-site columns (bed thermal properties), by column name.
+    optional: dict[str, np.ndarray] = field(default_factory=dict)
 
     def index(self, site_id: str) -> int:
         """Position of ``site_id`` in the arrays."""
@@ -58,4 +60,8 @@ def read_sites(path: str | Path) -> Sites:
                              sheet.source, f"line {sheet.line[k]}")
         seen[s] = int(sheet.line[k])
     n = sheet.numbers
-    return Sites(ids, n["x"], n["y"], n["bed_elevation"], sheet.texts["transect"], sheet.texts["station"])
+    optional = {c: n[c] for c in ("thermal_conductivity", "heat_capacity", "porosity")}
+    optional["sediment"] = sheet.texts["sediment"]
+    optional["line"] = sheet.line
+    return Sites(ids, n["x"], n["y"], n["bed_elevation"], sheet.texts["transect"], sheet.texts["station"],
+                 optional)

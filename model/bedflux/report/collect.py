@@ -34,7 +34,8 @@ from bedflux.errors import InputError
 #: Figures of each kind of output, in the order the report shows them.
 RUN_FIGURES = ("section.png", "bed_flux_map.png", "exchange.png", "flowpaths.png", "residence_times.png",
                "bank_storage_return.png", "animation.gif")
-FIELD_FIGURES = ("transect_profiles.png", "bed_flux_map.png", "gradient_vs_flux.png")
+FIELD_FIGURES = ("transect_profiles.png", "bed_flux_map.png", "gradient_vs_flux.png", "temperature_records.png",
+                 "thermal_flux.png")
 FIT_FIGURES = ("observed_vs_simulated.png", "residuals.png", "parameter_intervals.png")
 PLAN_FIGURES = ("plan_map.png", "detectability.png")
 #: Field tables shown in the report (others are listed by name).

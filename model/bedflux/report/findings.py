@@ -25,6 +25,7 @@ TOPICS = {
     "pulse": "Does the flood pulse reverse the exchange?",
     "hyporheic": "How long does stream water stay in the bed?",
     "field": "What the field measurements say",
+    "temperature": "What the temperature records say",
     "conductivity": "How well is the bed conductivity known?",
     "next": "Where to measure next",
 }
@@ -596,6 +597,7 @@ def next_finding(plans: Iterable[tuple[str, dict | None, pd.DataFrame | None]],
 def findings(project, unit: str = "m/d") -> list[Finding]:
     """Every finding of a project (a :class:`bedflux.report.collect.Project`), grouped by topic."""
     from bedflux.report.collect import read_table
+    from bedflux.report.temperature_findings import temperature_finding
 
     out: list[Finding] = []
     for o in project.of_kind("run"):
@@ -619,6 +621,9 @@ def findings(project, unit: str = "m/d") -> list[Finding]:
             if same:
                 f.sentences.append(same)
         out.append(f)
+        t = temperature_finding(o.data["field_summary"], o.label, unit)
+        if t is not None:
+            out.append(t)
     fits = [(o.label, o.data["fit_results"]) for o in project.of_kind("fit")]
     for label, res in fits:
         out.append(conductivity_finding(res, label))

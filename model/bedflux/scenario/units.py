@@ -45,6 +45,12 @@ DIMENSIONS: dict[str, tuple[str, str, str]] = {
     "acceleration": ("[length] / [time] ** 2", "m/s^2", "an acceleration"),
     "area_rate": ("[length] ** 2 / [time]", "m^2/s", "a flow per unit length (length^2/time)"),
     "per_time": ("1 / [time]", "1/s", "a rate (1/time)"),
+    "temperature": ("[temperature]", "degC", "a temperature in degC"),
+    "temperature_difference": ("[temperature]", "K", "a temperature difference (degC or K)"),
+    "thermal_conductivity": ("[mass] * [length] / [time] ** 3 / [temperature]", "W/(m*K)",
+                             "a thermal conductivity (W/(m K))"),
+    "heat_capacity": ("[mass] / [length] / [time] ** 2 / [temperature]", "J/(m^3*K)",
+                      "a volumetric heat capacity (J/(m^3 K))"),
 }
 
 #: A number followed by a unit (the unit must parse as a unit alone: no factors, no arithmetic).
@@ -102,7 +108,22 @@ def unit_factor(unit: str, dimension: str) -> float:
                          "no numbers or arithmetic)") from None
     if not _has_dimension(q, dim):
         raise InputError(f"unit '{unit}' is not {words} (expected a unit like '{si or '1'}')")
+    if dim == "[temperature]":
+        q = _temperature(q, unit, dimension)
     return float(q.to(si).magnitude) if si else float(q.to("dimensionless").magnitude)
+
+
+def _temperature(q: "pint.Quantity", unit: str, dimension: str) -> "pint.Quantity":
+    """A temperature scale as a factor: temperatures only in degC (kelvin and Fahrenheit have
+    offsets that a factor cannot carry); a difference in degC or degF as a difference."""
+    ureg = registry()
+    offset = ureg.Quantity(0.0, q.units).to("kelvin").magnitude != 0.0
+    if dimension == "temperature":
+        if ureg.Quantity(0.0, q.units).to("degC").magnitude != 0.0:
+            raise InputError(f"unit '{unit}' is not degC; temperatures are read in degC only (convert the "
+                             "column: kelvin and Fahrenheit scales have offsets)")
+        return q
+    return ureg.Quantity(1.0, "delta_" + str(q.units)) if offset else q
 
 
 def _has_dimension(q: "pint.Quantity", dim: str) -> bool:
