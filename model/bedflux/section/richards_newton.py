@@ -40,76 +40,115 @@ TOLERANCE = 1e-10
 STALL = 0.9
 #: Halvings of the step length tried by the line search.
 LINE_SEARCH_HALVINGS = 6
-#: Relative residual accepted from the diagonal-pivot factorization before partial pivoting is used.
-DIRECT_CHECK = 1e-10
-#: Relative residual accepted from preconditioned GMRES.
+#: Relative residual of every Newton system (direct or GMRES).
 GMRES_TOLERANCE = 1e-9
+#: Relative residual asked of each Newton system (an inexact Newton method, Dembo, Eisenstat &
+#: Steihaug 1982: the linear residual a fixed small fraction of the nonlinear one).
+LINEAR_FORCING = 1e-4
+#: GMRES iterations allowed with a kept factorization before a new one is built.
+KEPT_ITERATIONS = 12
+#: GMRES iterations allowed with a new AMG hierarchy.
+AMG_ITERATIONS = 400
+#: GMRES restart length.
+GMRES_RESTART = 40
 
 
 class JacobianSolver:
-    """Factorizes the successive Jacobians of a run; counts factorizations and solves.
+    """Solves the Newton systems ``J d = b`` of a run, keeping a preconditioner between them.
 
-    ``method`` is ``"direct"``, ``"amg-gmres"`` or ``"auto"`` (by size).
+    ``method`` is ``"direct"`` (a sparse LU factorization), ``"amg-gmres"`` (an algebraic
+    multigrid hierarchy) or ``"auto"`` (by size). The factorization or hierarchy built on one
+    Jacobian is kept for the following systems, of later iterations and steps: each is solved by
+    GMRES preconditioned with it, and a new one is built on the current Jacobian only when GMRES
+    does not reach :data:`GMRES_TOLERANCE` within :data:`KEPT_ITERATIONS` iterations (the
+    Jacobian has moved too far: a column flooded, a front moved). The Newton step is then the
+    exact one to that tolerance, so the iteration keeps Newton's convergence, unlike a chord
+    iteration on a stale matrix. ``keep=False`` builds a new preconditioner for every system
+    (the direct method then solves with the factorization alone).
+    Counts ``factorizations`` (preconditioners built), ``solves`` and ``krylov_iterations``.
     """
 
-    def __init__(self, n: int, method: str = "auto"):
+    def __init__(self, n: int, method: str = "auto", keep: bool = True):
         if method == "auto":
             method = "direct" if n <= DIRECT_LIMIT else "amg-gmres"
         if method not in ("direct", "amg-gmres"):
             raise ValueError(f"unknown Jacobian solver {method!r}")
         self.method = method
+        self.keep = keep
         self.factorizations = 0
         self.solves = 0
+        self.krylov_iterations = 0
+        self._kept: Callable[[np.ndarray], np.ndarray] | None = None
 
-    def factor(self, J: sp.csr_matrix) -> Callable[[np.ndarray], np.ndarray]:
-        """A solver of ``J d = b`` for this Jacobian."""
+    def solve(self, J: sp.csr_matrix, b: np.ndarray, rtol: float = 0.0) -> np.ndarray:
+        """The solution of ``J d = b`` to the relative residual ``rtol`` (at least
+        :data:`GMRES_TOLERANCE`)."""
+        rtol = max(rtol, GMRES_TOLERANCE)
+        self.solves += 1
+        bnorm = np.linalg.norm(b)
+        if bnorm == 0.0:
+            return np.zeros_like(b)
+        if self.keep and self._kept is not None:
+            x = self._krylov(J, b, bnorm, self._kept, KEPT_ITERATIONS, rtol)
+            if x is not None:
+                return x
         self.factorizations += 1
         if self.method == "direct":
-            return self._direct(J)
-        return self._gmres(J)
-
-    def _direct(self, J: sp.csr_matrix) -> Callable[[np.ndarray], np.ndarray]:
-        A = J.tocsc()
-        try:
-            lu = spla.splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0, options={"SymmetricMode": True})
-        except RuntimeError:
-            lu = None
-        pivoted = None
-
-        def solve(b: np.ndarray) -> np.ndarray:
-            nonlocal lu, pivoted
-            self.solves += 1
-            if lu is not None:
-                x = lu.solve(b)
-                if np.linalg.norm(J @ x - b) <= DIRECT_CHECK * np.linalg.norm(b):
+            for pivots in (False, True):
+                self._kept = self._direct(J, pivots)
+                x = self._kept(b)
+                if np.all(np.isfinite(x)) and np.linalg.norm(J @ x - b) <= GMRES_TOLERANCE * bnorm:
                     return x
-            if pivoted is None:
-                try:
-                    pivoted = spla.splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.1)
-                except RuntimeError as err:
-                    raise SolverError(f"the Jacobian is singular ({err}); is a head fixed somewhere?") from None
-                lu = None
-            return pivoted.solve(b)
-
-        return solve
-
-    def _gmres(self, J: sp.csr_matrix) -> Callable[[np.ndarray], np.ndarray]:
+                x = self._krylov(J, b, bnorm, self._kept, KEPT_ITERATIONS, rtol)
+                if x is not None:
+                    return x
+            raise SolverError("the Richards Jacobian could not be solved to its tolerance")
         import pyamg
 
-        M = pyamg.ruge_stuben_solver(J.tocsr()).aspreconditioner(cycle="V")
+        hierarchy = pyamg.ruge_stuben_solver(J.tocsr())
+        self._kept = hierarchy.aspreconditioner(cycle="V").matvec
+        x = self._krylov(J, b, bnorm, self._kept, AMG_ITERATIONS, rtol)
+        if x is None:
+            raise SolverError("AMG-preconditioned GMRES did not converge on the Richards Jacobian; "
+                              "use the direct solver")
+        return x
 
-        def solve(b: np.ndarray) -> np.ndarray:
-            self.solves += 1
-            bnorm = np.linalg.norm(b)
-            if bnorm == 0.0:
-                return np.zeros_like(b)
-            x, _ = spla.gmres(J, b, M=M, rtol=GMRES_TOLERANCE, atol=0.0, restart=40, maxiter=10)
-            if np.linalg.norm(b - J @ x) > 10 * GMRES_TOLERANCE * bnorm:
-                raise SolverError("AMG-preconditioned GMRES did not converge on the Richards Jacobian; "
-                                  "use the direct solver")
-            return x
+    def factor(self, J: sp.csr_matrix) -> Callable[[np.ndarray], np.ndarray]:
+        """A solver of ``J d = b`` for this Jacobian alone, built afresh (benchmarks)."""
+        return lambda b: JacobianSolver(J.shape[0], self.method, keep=False).solve(J, b)
 
-        return solve
+    def _krylov(self, J: sp.csr_matrix, b: np.ndarray, bnorm: float, apply: Callable[[np.ndarray], np.ndarray],
+                limit: int, rtol: float) -> np.ndarray | None:
+        """GMRES with the preconditioner ``apply``; None when it misses the tolerance in ``limit``
+        iterations."""
+        n = b.size
+        M = spla.LinearOperator((n, n), matvec=apply, dtype=float)
+        count = [0]
+
+        def counted(_):
+            count[0] += 1
+
+        restart = min(limit, GMRES_RESTART)
+        x, _ = spla.gmres(J, b, M=M, rtol=rtol, atol=0.0, restart=restart, maxiter=-(-limit // restart),
+                          callback=counted, callback_type="pr_norm")
+        self.krylov_iterations += count[0]
+        if not np.all(np.isfinite(x)) or np.linalg.norm(b - J @ x) > rtol * bnorm:
+            return None
+        return x
+
+    def _direct(self, J: sp.csr_matrix, pivots: bool) -> Callable[[np.ndarray], np.ndarray]:
+        """The LU factorization of ``J`` (minimum-degree ordering on A^T + A): diagonal pivots, or
+        threshold partial pivoting."""
+        A = J.tocsc()
+        try:
+            if not pivots:
+                return spla.splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
+                                 options={"SymmetricMode": True}).solve
+            return spla.splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.1).solve
+        except RuntimeError as err:
+            if not pivots:
+                return lambda b: np.full_like(b, np.nan)
+            raise SolverError(f"the Jacobian is singular ({err}); is a head fixed somewhere?") from None
 
 
 @dataclass
@@ -143,7 +182,7 @@ def iterate(system: RichardsSystem, psi: np.ndarray, forcing: StepForcing, stora
         if it == max_iterations or not np.all(np.isfinite(ev.residual)):
             break
         try:
-            d = solver.factor(system.jacobian(ev, forcing, storage, newton=newton))(-ev.residual)
+            d = solver.solve(system.jacobian(ev, forcing, storage, newton=newton), -ev.residual, LINEAR_FORCING)
         except SolverError:
             break
         if not np.all(np.isfinite(d)):

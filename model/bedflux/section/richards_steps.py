@@ -50,6 +50,8 @@ MIN_STEP_FRACTION = 1e-6
 STEP_PASSES = 8
 #: Sampling interval of the stage when the flooding instants of the columns are located (s).
 FLOOD_SAMPLE = 30.0
+#: The step landing at a flooding instant ends this long (s) before the stage crosses the ground.
+FLOOD_MARGIN = 1e-3
 #: After a column floods or falls dry the next step is at most this long (s): infiltration into
 #: newly flooded soil starts as t^-1/2 (sorptivity), which only short first steps resolve.
 RESTART_STEP = 30.0
@@ -93,19 +95,35 @@ def forcing_breakpoints(scenario: Scenario, end: float) -> np.ndarray:
 
 
 def flooding_times(section: Section, end: float) -> np.ndarray:
-    """Times in (0, end) at which the stage crosses the ground of a channel column (a column
-    floods or falls dry), from the stage sampled every :data:`FLOOD_SAMPLE` seconds and
-    interpolated linearly between samples."""
+    """Instants in (0, end) at which the stage floods or leaves a piece of a channel column's top
+    face (a transient run wets a piece when the mean stage over it rises above the ground at its
+    midpoint, :meth:`bedflux.section.grid.GroundPieces.below`).
+
+    The stage is sampled every :data:`FLOOD_SAMPLE` seconds and each crossing is bisected to the
+    round-off of the time; the instant returned lies on the *old* side of the crossing, so a step
+    ending there still sees the piece as it was and the next step, which restarts short, is the
+    first to see it flooded or dry.
+    """
     sc = section.scenario
     if sc.stream is None or end <= 0.0:
         return np.zeros(0)
-    cols = np.flatnonzero(section.channel)
+    p = section.pieces
+    keep = section.piece_in_channel > 0.0
+    mid_x, ground = 0.5 * (p.x0 + p.x1)[keep], p.gm[keep]
+
+    def stage(t: np.ndarray) -> np.ndarray:
+        return np.asarray(sc.stream.stage(t), dtype=float)
+
     t = np.linspace(0.0, end, int(np.ceil(end / FLOOD_SAMPLE)) + 1)
-    above = sc.stream.stage(t)[:, None] + sc.stream.slope * section.grid.xc[None, cols] - section.grid.ground[None, cols]
-    k, j = np.nonzero(np.sign(above[1:]) != np.sign(above[:-1]))
-    a, b = above[k, j], above[k + 1, j]
-    times = t[k] + (t[k + 1] - t[k]) * a / (a - b)
-    times = np.unique(times)
+    wet = stage(t)[:, None] + sc.stream.slope * mid_x - ground > 0.0
+    k, j = np.nonzero(wet[1:] != wet[:-1])
+    lo, hi, old = t[k], t[k + 1], wet[k, j]
+    level = ground[j] - sc.stream.slope * mid_x[j]  # the stage at which piece j floods
+    for _ in range(50):
+        mid = 0.5 * (lo + hi)
+        same = (stage(mid) > level) == old
+        lo, hi = np.where(same, mid, lo), np.where(same, hi, mid)
+    times = np.unique(lo - FLOOD_MARGIN)
     return times[(times > 0.0) & (times < end)]
 
 
