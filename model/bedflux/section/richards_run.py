@@ -19,7 +19,7 @@ from bedflux.section.fluxes import BUDGET_LINES, Fluxes, derive
 from bedflux.section.results import add_variables, build_dataset
 from bedflux.section.richards import Evaluation, RichardsSystem, StepForcing
 from bedflux.section.richards_newton import NEWTON, JacobianSolver
-from bedflux.section.richards_steps import (RESTART_STEP, Budget, SectionBoundaries, Stepper, flooding_times,
+from bedflux.section.richards_steps import (RESTART_ON_DRYING, RESTART_STEP, Budget, SectionBoundaries, Stepper, flooding_times,
                                             forcing_breakpoints, run_steps, soil_water, step_budget)
 from bedflux.section.discretisation import Section
 from bedflux.section.steady import solve_steady
@@ -113,6 +113,7 @@ def _stops(section: Section, times: np.ndarray) -> tuple[np.ndarray, np.ndarray]
     flooding instants) and the flooding instants, after which steps restart short."""
     end = section.scenario.time.end
     flooding = flooding_times(section, end)
+    wetting = flooding_times(section, end, drying=RESTART_ON_DRYING)
     later = np.asarray(times, dtype=float)
     later = later[later > 0.0]
     # a column flooding just before an output floods within the output's step instead: a step of
@@ -120,7 +121,8 @@ def _stops(section: Section, times: np.ndarray) -> tuple[np.ndarray, np.ndarray]
     nxt = np.searchsorted(later, flooding)
     gap = np.where(nxt < later.size, later[np.minimum(nxt, later.size - 1)] - flooding, np.inf)
     landing = flooding[gap >= RESTART_STEP]
-    return np.union1d(np.union1d(later, forcing_breakpoints(section.scenario, end)), landing), landing
+    return (np.union1d(np.union1d(later, forcing_breakpoints(section.scenario, end)), landing),
+            np.intersect1d(landing, wetting))
 
 
 def _transient(section: Section, system: RichardsSystem, stepper: Stepper, ev: Evaluation,
@@ -170,7 +172,7 @@ def _transient(section: Section, system: RichardsSystem, stepper: Stepper, ev: E
     except KeyboardInterrupt:
         partial = f"interrupted; outputs up to t = {done[-1]:g} s of {ts.end:g} s"
     attrs.update({"run": "transient", "scheme": "backward-euler", "steps": len(records),
-                  "iterations": stepper.iterations, "failed_steps": stepper.failures,
+                  "iterations": stepper.iterations, "failed_steps": stepper.failures, "rejected_steps": stepper.rejected,
                   "factorizations": stepper.solver.factorizations, "linear_solves": stepper.solver.solves})
     if partial:
         attrs["partial"] = partial

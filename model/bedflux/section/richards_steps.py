@@ -44,6 +44,18 @@ HARD_ITERATIONS = 10
 GROWTH = 1.5
 SHRINK = 0.7
 CUT = 0.25
+#: Local error allowed per step in water content (:func:`local_error`).
+THETA_TOLERANCE = 0.01
+#: The next step is this fraction of the length that would meet the tolerance exactly.
+SAFETY = 0.9
+#: Largest growth of the step from one to the next.
+MAX_GROWTH = 2.0
+#: A step whose error exceeds this many tolerances is rejected and retried shorter ...
+REJECT = 4.0
+#: ... unless it is already shorter than this fraction of :data:`RESTART_STEP`.
+MIN_ERROR_STEP = 0.1
+PREDICT = True
+RESTART_ON_DRYING = True
 #: Shortest step, as a fraction of ``[time] step``, before the run gives up.
 MIN_STEP_FRACTION = 1e-6
 #: Passes of the seepage-face active set per step.
@@ -94,7 +106,7 @@ def forcing_breakpoints(scenario: Scenario, end: float) -> np.ndarray:
     return t[(t > 0.0) & (t < end)]
 
 
-def flooding_times(section: Section, end: float) -> np.ndarray:
+def flooding_times(section: Section, end: float, drying: bool = True) -> np.ndarray:
     """Instants in (0, end) at which the stage floods or leaves a piece of a channel column's top
     face (a transient run wets a piece when the mean stage over it rises above the ground at its
     midpoint, :meth:`bedflux.section.grid.GroundPieces.below`).
@@ -102,7 +114,7 @@ def flooding_times(section: Section, end: float) -> np.ndarray:
     The stage is sampled every :data:`FLOOD_SAMPLE` seconds and each crossing is bisected to the
     round-off of the time; the instant returned lies on the *old* side of the crossing, so a step
     ending there still sees the piece as it was and the next step, which restarts short, is the
-    first to see it flooded or dry.
+    first to see it flooded or dry. ``drying`` False: only the instants when a piece floods.
     """
     sc = section.scenario
     if sc.stream is None or end <= 0.0:
@@ -117,6 +129,8 @@ def flooding_times(section: Section, end: float) -> np.ndarray:
     t = np.linspace(0.0, end, int(np.ceil(end / FLOOD_SAMPLE)) + 1)
     wet = stage(t)[:, None] + sc.stream.slope * mid_x - ground > 0.0
     k, j = np.nonzero(wet[1:] != wet[:-1])
+    if not drying:
+        k, j = k[~wet[k, j]], j[~wet[k, j]]
     lo, hi, old = t[k], t[k + 1], wet[k, j]
     level = ground[j] - sc.stream.slope * mid_x[j]  # the stage at which piece j floods
     for _ in range(50):
@@ -229,16 +243,18 @@ class Stepper:
     solver: JacobianSolver = field(default=None)
     iterations: int = 0
     failures: int = 0
+    rejected: int = 0
 
     def __post_init__(self):
         if self.solver is None:
             self.solver = JacobianSolver(self.system.n)
 
-    def solve_step(self, psi0: np.ndarray, t0: float, t1: float, state: ActiveSet
-                   ) -> tuple[Outcome, StepForcing, Storage, ActiveSet]:
-        """One backward-Euler step with its seepage-face passes (``converged`` False on failure)."""
+    def solve_step(self, psi0: np.ndarray, t0: float, t1: float, state: ActiveSet,
+                   guess: np.ndarray | None = None) -> tuple[Outcome, StepForcing, Storage, ActiveSet]:
+        """One backward-Euler step with its seepage-face passes (``converged`` False on failure);
+        Newton starts from ``guess`` (default ``psi0``)."""
         storage = self.system.storage(psi0, t1 - t0)
-        psi = psi0
+        psi = psi0 if guess is None else guess
         total = 0
         for _ in range(STEP_PASSES):
             forcing = self.boundaries.forcing(t0, t1, state, steady=False)
@@ -312,41 +328,67 @@ def run_steps(stepper: Stepper, psi: np.ndarray, state: ActiveSet, stops: np.nda
               on_step: Callable[[Outcome, StepForcing, Storage, float, float], float],
               on_stop: Callable[[Outcome, StepForcing, float], None],
               progress: Callable[[float], None] | None = None,
-              restarts: np.ndarray | None = None) -> list[StepRecord]:
+              restarts: np.ndarray | None = None,
+              tolerance: float | None = None) -> list[StepRecord]:
     """Adaptive backward-Euler steps through the ``stops`` (output times and breakpoints, sorted,
     after t = 0). ``on_step`` sees every accepted step and returns its budget closure;
     ``on_stop`` sees the state at every stop. At the stops listed in ``restarts`` the next step
-    restarts short (:data:`RESTART_FRACTION`)."""
+    restarts short (:data:`RESTART_STEP`). ``tolerance`` is the local error allowed per step in
+    water content (:func:`local_error`; default :data:`THETA_TOLERANCE`)."""
+    tolerance = THETA_TOLERANCE if tolerance is None else tolerance
     restarts = np.zeros(0) if restarts is None else np.asarray(restarts)
     records: list[StepRecord] = []
     t = 0.0
     dt = dt_max
     end = float(stops[-1])
     dt_min = MIN_STEP_FRACTION * dt_max
+    # the last accepted step's water content rate, length and pressure head rate
+    last: tuple[np.ndarray, float, np.ndarray] | None = None
     for stop in stops:
         while t < stop - 1e-9 * max(stop, 1.0):
             h = min(dt, stop - t)
             if stop - (t + h) < 0.05 * h:
                 # no sliver before the stop: stretch up to the longest step, else halve the rest
                 h = stop - t if stop - t <= dt_max else 0.5 * (stop - t)
-            out, forcing, storage, new_state = stepper.solve_step(psi, t, t + h, state)
+            guess = None if last is None or not PREDICT else psi + h * last[2]
+            out, forcing, storage, new_state = stepper.solve_step(psi, t, t + h, state, guess)
             if not out.converged:
                 dt = h * CUT
                 if dt < dt_min:
                     raise SolverError(f"the variably saturated step from t = {t:g} s did not converge even at "
                                       f"{h:.3g} s; refine the grid or shorten [time] step")
                 continue
+            rate = (out.evaluation.props.theta - storage.theta0) / h
+            if last is None:
+                grow = GROWTH if out.iterations <= EASY_ITERATIONS else 1.0
+            else:
+                error = local_error(rate, h, *last[:2])
+                grow = SAFETY * np.sqrt(tolerance / error) if error > 0.0 else MAX_GROWTH
+                if error > REJECT * tolerance and h > RESTART_STEP * MIN_ERROR_STEP:
+                    stepper.rejected += 1
+                    dt = h * max(grow, CUT)
+                    continue
+                grow = min(grow, MAX_GROWTH)
             t1 = stop if h == stop - t else t + h
             closure = on_step(out, forcing, storage, t, t1)
             records.append(StepRecord(t1, h, out.iterations, closure))
+            last = (rate, h, (out.psi - psi) / h)
             psi, state, t = out.psi, new_state, t1
-            if out.iterations <= EASY_ITERATIONS:
-                dt = min(dt * GROWTH, dt_max) if h >= 0.999 * dt else dt
-            elif out.iterations > HARD_ITERATIONS:
-                dt = h * SHRINK
+            if out.iterations > HARD_ITERATIONS:
+                grow = min(grow, SHRINK)
+            # a step cut short by a stop does not hold back the next
+            dt = min(max(h * grow, dt if h < dt and grow >= 1.0 else 0.0), dt_max)
             if progress is not None:
                 progress(t / end)
         on_stop(out, forcing, t)
         if restarts.size and np.min(np.abs(restarts - t)) <= 1e-9 * max(t, 1.0):
             dt = min(dt, RESTART_STEP)
+            last = None
     return records
+
+
+def local_error(rate: np.ndarray, h: float, last_rate: np.ndarray, last_h: float) -> float:
+    """The local error of a backward-Euler step in water content, largest over the cells:
+    ``h^2 / 2 |theta''|`` with ``theta''`` from the rates of this step and the last,
+    ``2 (rate - last_rate) / (h + last_h)`` (Kavetski, Binning & Sloan 2001)."""
+    return float(h * h * np.max(np.abs(rate - last_rate)) / (h + last_h))
