@@ -19,7 +19,7 @@ from bedflux.section.fluxes import BUDGET_LINES, Fluxes, derive
 from bedflux.section.results import add_variables, build_dataset
 from bedflux.section.richards import Evaluation, RichardsSystem, StepForcing
 from bedflux.section.richards_newton import NEWTON, JacobianSolver
-from bedflux.section.richards_steps import (RESTART_ON_DRYING, RESTART_STEP, Budget, SectionBoundaries, Stepper, flooding_times,
+from bedflux.section.richards_steps import (RESTART_STEP, Budget, SectionBoundaries, Stepper, flooding_times,
                                             forcing_breakpoints, run_steps, soil_water, step_budget)
 from bedflux.section.discretisation import Section
 from bedflux.section.steady import solve_steady
@@ -110,10 +110,11 @@ def states_at(section: Section, times: np.ndarray, method: str = NEWTON
 
 def _stops(section: Section, times: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Where the steps must land after t = 0 (the given times, the forcing's breakpoints and the
-    flooding instants) and the flooding instants, after which steps restart short."""
+    instants when a column floods or falls dry) and the instants when a column floods, after
+    which steps restart short."""
     end = section.scenario.time.end
     flooding = flooding_times(section, end)
-    wetting = flooding_times(section, end, drying=RESTART_ON_DRYING)
+    wetting = flooding_times(section, end, drying=False)
     later = np.asarray(times, dtype=float)
     later = later[later > 0.0]
     # a column flooding just before an output floods within the output's step instead: a step of
@@ -173,7 +174,8 @@ def _transient(section: Section, system: RichardsSystem, stepper: Stepper, ev: E
         partial = f"interrupted; outputs up to t = {done[-1]:g} s of {ts.end:g} s"
     attrs.update({"run": "transient", "scheme": "backward-euler", "steps": len(records),
                   "iterations": stepper.iterations, "failed_steps": stepper.failures, "rejected_steps": stepper.rejected,
-                  "factorizations": stepper.solver.factorizations, "linear_solves": stepper.solver.solves})
+                  "factorizations": stepper.solver.factorizations, "linear_solves": stepper.solver.solves,
+                  "krylov_iterations": stepper.solver.krylov_iterations})
     if partial:
         attrs["partial"] = partial
     ds = build_dataset(section, states, stages, done, attrs)

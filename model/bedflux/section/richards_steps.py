@@ -13,13 +13,18 @@ Boundaries (per step, from the linear model's terms of :mod:`bedflux.section.dis
   linear model, reduced by each cell's pressure head after Feddes et al. (1978), and none in
   columns under the stream. With a daily cycle each step takes the cycle's mean over the step.
 
-Time steps (backward Euler) start at ``[time] step``, which is also the longest; a step that
-converges in at most :data:`EASY_ITERATIONS` iterations lets the next grow by
-:data:`GROWTH`, one that needs more than :data:`HARD_ITERATIONS` shrinks it, and a step that fails
-is cut by :data:`CUT` and retried. Steps land exactly on the output times, on the breakpoints
-of the forcing (pulse start and peak, flood-wave start and end, series times, the daily cycle's
-06:00 and 18:00) and on the instants when the stage floods or leaves a column; after those the
-step restarts at :data:`RESTART_STEP`.
+Time steps (backward Euler) start at ``[time] step``, which is also the longest. After each
+accepted step the local error in water content is estimated from the change of the rate of
+water content between this step and the last (:func:`local_error`); the next step is the one
+that would meet :data:`THETA_TOLERANCE` (times :data:`SAFETY`, at most :data:`MAX_GROWTH` times
+longer), and a step whose error exceeds :data:`REJECT` tolerances is retried shorter. A step that
+needs more than :data:`HARD_ITERATIONS` Newton iterations makes the next shorter, and a step that
+fails is cut by :data:`CUT` and retried. Newton starts each step from the linear extrapolation of
+the last two states. Steps land exactly on the output times, on the breakpoints of the forcing
+(pulse start and peak, flood-wave start and end, series times, the daily cycle's 06:00 and
+18:00) and just before the instants when the stage floods or leaves a piece of a column's top;
+after a column floods the step restarts at :data:`RESTART_STEP` with no error history (the
+rate of water content jumps there), and it then grows with the error estimate.
 """
 from __future__ import annotations
 
@@ -37,12 +42,13 @@ from bedflux.section.richards_newton import NEWTON, JacobianSolver, Outcome, ite
 from bedflux.scenario.units import SECONDS_PER_DAY
 from bedflux.section.discretisation import ActiveSet, Section
 
-#: Iterations at or below which the next step grows.
+#: Iterations at or below which the step after a restart (no error history yet) grows by :data:`GROWTH`.
 EASY_ITERATIONS = 4
-#: Iterations above which the next step shrinks.
+#: Iterations above which the next step shrinks by :data:`SHRINK`.
 HARD_ITERATIONS = 10
 GROWTH = 1.5
 SHRINK = 0.7
+#: A failed step is retried this fraction as long.
 CUT = 0.25
 #: Local error allowed per step in water content (:func:`local_error`).
 THETA_TOLERANCE = 0.01
@@ -54,8 +60,6 @@ MAX_GROWTH = 2.0
 REJECT = 4.0
 #: ... unless it is already shorter than this fraction of :data:`RESTART_STEP`.
 MIN_ERROR_STEP = 0.1
-PREDICT = True
-RESTART_ON_DRYING = True
 #: Shortest step, as a fraction of ``[time] step``, before the run gives up.
 MIN_STEP_FRACTION = 1e-6
 #: Passes of the seepage-face active set per step.
@@ -64,8 +68,9 @@ STEP_PASSES = 8
 FLOOD_SAMPLE = 30.0
 #: The step landing at a flooding instant ends this long (s) before the stage crosses the ground.
 FLOOD_MARGIN = 1e-3
-#: After a column floods or falls dry the next step is at most this long (s): infiltration into
-#: newly flooded soil starts as t^-1/2 (sorptivity), which only short first steps resolve.
+#: After a column floods the next step is at most this long (s): infiltration into newly
+#: flooded soil starts as t^-1/2 (sorptivity), which only short first steps resolve. (A column
+#: falling dry needs no restart: measured, docs/performance.md.)
 RESTART_STEP = 30.0
 #: First pseudo-time step of the steady solve's continuation (s).
 CONTINUATION_START = 600.0
@@ -350,7 +355,7 @@ def run_steps(stepper: Stepper, psi: np.ndarray, state: ActiveSet, stops: np.nda
             if stop - (t + h) < 0.05 * h:
                 # no sliver before the stop: stretch up to the longest step, else halve the rest
                 h = stop - t if stop - t <= dt_max else 0.5 * (stop - t)
-            guess = None if last is None or not PREDICT else psi + h * last[2]
+            guess = None if last is None else psi + h * last[2]  # linear predictor
             out, forcing, storage, new_state = stepper.solve_step(psi, t, t + h, state, guess)
             if not out.converged:
                 dt = h * CUT
