@@ -333,14 +333,12 @@ def run_steps(stepper: Stepper, psi: np.ndarray, state: ActiveSet, stops: np.nda
               on_step: Callable[[Outcome, StepForcing, Storage, float, float], float],
               on_stop: Callable[[Outcome, StepForcing, float], None],
               progress: Callable[[float], None] | None = None,
-              restarts: np.ndarray | None = None,
-              tolerance: float | None = None) -> list[StepRecord]:
+              restarts: np.ndarray | None = None) -> list[StepRecord]:
     """Adaptive backward-Euler steps through the ``stops`` (output times and breakpoints, sorted,
     after t = 0). ``on_step`` sees every accepted step and returns its budget closure;
     ``on_stop`` sees the state at every stop. At the stops listed in ``restarts`` the next step
-    restarts short (:data:`RESTART_STEP`). ``tolerance`` is the local error allowed per step in
-    water content (:func:`local_error`; default :data:`THETA_TOLERANCE`)."""
-    tolerance = THETA_TOLERANCE if tolerance is None else tolerance
+    restarts short (:data:`RESTART_STEP`); the local error per step is held near
+    :data:`THETA_TOLERANCE` (see the module doc)."""
     restarts = np.zeros(0) if restarts is None else np.asarray(restarts)
     records: list[StepRecord] = []
     t = 0.0
@@ -368,8 +366,8 @@ def run_steps(stepper: Stepper, psi: np.ndarray, state: ActiveSet, stops: np.nda
                 grow = GROWTH if out.iterations <= EASY_ITERATIONS else 1.0
             else:
                 error = local_error(rate, h, *last[:2])
-                grow = SAFETY * np.sqrt(tolerance / error) if error > 0.0 else MAX_GROWTH
-                if error > REJECT * tolerance and h > RESTART_STEP * MIN_ERROR_STEP:
+                grow = SAFETY * np.sqrt(THETA_TOLERANCE / error) if error > 0.0 else MAX_GROWTH
+                if error > REJECT * THETA_TOLERANCE and h > RESTART_STEP * MIN_ERROR_STEP:
                     stepper.rejected += 1
                     dt = h * max(grow, CUT)
                     continue
