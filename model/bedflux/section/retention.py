@@ -70,33 +70,43 @@ def van_genuchten(psi: np.ndarray, alpha: np.ndarray | float, n: np.ndarray | fl
         Shape parameters (1/m and -, n > 1).
     theta_r, theta_s
         Residual and saturated water content.
+
+    Only the unsaturated points (``psi < 0``) are computed; the powers are taken through one
+    logarithm and exponential each of ``x`` and ``1 + x^n``.
     """
     psi, alpha, n, theta_r, theta_s = np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in
                                                              (psi, alpha, n, theta_r, theta_s)))
-    m = 1.0 - 1.0 / n
-    dry = psi < 0.0
-    x = np.where(dry, -alpha * psi, 0.0)
-    xs = np.where(dry, x, 1.0)  # a safe base for the powers at saturated points
-    xn = np.where(dry, xs ** n, 0.0)
-    one = 1.0 + xn
-    se = one ** -m
-    a = np.where(dry, xs ** (n - 1.0) * se, 0.0)  # (1 - Se^(1/m))^m
-    kr = np.sqrt(se) * (1.0 - a) ** 2
-    # derivatives with respect to x (x grows as psi falls: dx/dpsi = -alpha)
-    xnm2 = np.where(dry, xs ** (n - 2.0), 0.0)
-    dse_dx = -m * n * xnm2 * xs * one ** (-m - 1.0)
-    da_dx = (n - 1.0) * xnm2 * one ** (-m - 1.0)
-    dkr_dx = np.where(dry, 0.5 / np.sqrt(se) * dse_dx * (1.0 - a) ** 2 - 2.0 * np.sqrt(se) * (1.0 - a) * da_dx, 0.0)
-    d2se_dx2 = -m * n * xnm2 * one ** (-m - 2.0) * ((n - 1.0) * one - (m + 1.0) * n * xn)
     width = theta_s - theta_r
-    return Properties(
-        se=se,
-        theta=theta_r + width * se,
-        kr=kr,
-        capacity=np.where(dry, -width * alpha * dse_dx, 0.0),
-        dkr=-alpha * dkr_dx,
-        dcapacity=np.where(dry, width * alpha ** 2 * d2se_dx2, 0.0),
-    )
+    se = np.ones(psi.shape)
+    kr = np.ones(psi.shape)
+    capacity = np.zeros(psi.shape)
+    dkr = np.zeros(psi.shape)
+    dcapacity = np.zeros(psi.shape)
+    dry = psi < 0.0
+    if dry.any():
+        a_, n_ = alpha[dry], n[dry]
+        m = 1.0 - 1.0 / n_
+        x = -a_ * psi[dry]
+        lnx = np.log(x)
+        xn = np.exp(n_ * lnx)
+        one = 1.0 + xn
+        s_ = np.exp(-m * np.log(one))  # Se = (1 + x^n)^-m
+        xnm2 = xn / (x * x)  # x^(n-2)
+        a = xn / x * s_  # x^(n-1) Se = (1 - Se^(1/m))^m
+        root = np.sqrt(s_)
+        # derivatives with respect to x (x grows as psi falls: dx/dpsi = -alpha)
+        p1 = s_ / one  # (1 + x^n)^(-m-1)
+        dse_dx = -m * n_ * xnm2 * x * p1
+        da_dx = (n_ - 1.0) * xnm2 * p1
+        dkr_dx = 0.5 / root * dse_dx * (1.0 - a) ** 2 - 2.0 * root * (1.0 - a) * da_dx
+        d2se_dx2 = -m * n_ * xnm2 * (p1 / one) * ((n_ - 1.0) * one - (m + 1.0) * n_ * xn)
+        w = width[dry]
+        se[dry] = s_
+        kr[dry] = root * (1.0 - a) ** 2
+        capacity[dry] = -w * a_ * dse_dx
+        dkr[dry] = -a_ * dkr_dx
+        dcapacity[dry] = w * a_ ** 2 * d2se_dx2
+    return Properties(se=se, theta=theta_r + width * se, kr=kr, capacity=capacity, dkr=dkr, dcapacity=dcapacity)
 
 
 def van_genuchten_parameter_derivatives(psi: np.ndarray, alpha: np.ndarray | float, n: np.ndarray | float,

@@ -77,6 +77,7 @@ class StepForcing:
     terms: list[Term]
     face_psi: list[np.ndarray]
     uptake: Uptake | None = None
+    face_kr: list[np.ndarray] | None = None  # Kr at face_psi, filled by the first evaluation
 
 
 @dataclass
@@ -184,10 +185,12 @@ class RichardsSystem:
         inflow = np.bincount(self.hi, weights=q, minlength=self.n) - np.bincount(self.lo, weights=q, minlength=self.n)
         boundary_abs = 0.0
         term_kr, term_from_face = [], []
-        for term, fpsi in zip(forcing.terms, forcing.face_psi):
+        if forcing.face_kr is None:
+            forcing.face_kr = [self._kr_at(fpsi, term.cells) for term, fpsi in zip(forcing.terms, forcing.face_psi)]
+        for term, face_kr in zip(forcing.terms, forcing.face_kr):
             base = term.r - term.conductance * u[term.cells]
             from_face = (term.conductance > 0) & (base > 0.0)
-            tkr = np.where(term.conductance > 0, np.where(from_face, self._kr_at(fpsi, term.cells), kr[term.cells]), 1.0)
+            tkr = np.where(term.conductance > 0, np.where(from_face, face_kr, kr[term.cells]), 1.0)
             flow = tkr * base
             inflow += np.bincount(term.cells, weights=flow, minlength=self.n)
             boundary_abs += float(np.abs(flow).sum())

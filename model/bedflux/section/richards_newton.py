@@ -9,13 +9,14 @@ uptake and storage changes), or when a Newton step leaves 90 % of the residual w
 within 100 times that or at the round-off of the heads psi + z (large sections, heads of tens of
 metres, no flow at all): the water budget then closes to that fraction.
 
-Linear solves: the Newton Jacobian is not symmetric (upstream Kr), so the direct solver is
-SuperLU with minimum-degree ordering on A^T + A (the matrix is structurally symmetric) and
-diagonal pivots, which the diagonally dominant Jacobians allow; the residual of that solve is
-checked and a factorization with threshold partial pivoting replaces it when it is poor. Above
-:data:`bedflux.section.linear.DIRECT_LIMIT` unknowns GMRES preconditioned by a Ruge-Stuben
-algebraic multigrid hierarchy (pyamg) built on the first Jacobian of the step and kept for the
-step's other iterations.
+Linear solves (:class:`JacobianSolver`): the Newton Jacobian is not symmetric (upstream Kr), so
+the direct solver is SuperLU with minimum-degree ordering on A^T + A (the matrix is structurally
+symmetric) and diagonal pivots, which the diagonally dominant Jacobians allow (threshold partial
+pivoting when that solves poorly). Above :data:`bedflux.section.linear.DIRECT_LIMIT` unknowns the
+preconditioner is a Ruge-Stuben algebraic multigrid hierarchy (pyamg). Either is kept across
+iterations and steps as the preconditioner of a right-preconditioned GMRES and rebuilt only when
+GMRES stalls with it; each system is solved to :data:`LINEAR_FORCING` of its right-hand side
+(inexact Newton).
 """
 from __future__ import annotations
 
@@ -40,76 +41,163 @@ TOLERANCE = 1e-10
 STALL = 0.9
 #: Halvings of the step length tried by the line search.
 LINE_SEARCH_HALVINGS = 6
-#: Relative residual accepted from the diagonal-pivot factorization before partial pivoting is used.
-DIRECT_CHECK = 1e-10
-#: Relative residual accepted from preconditioned GMRES.
+#: Relative residual of every Newton system (direct or GMRES).
 GMRES_TOLERANCE = 1e-9
+#: Relative residual asked of each Newton system (an inexact Newton method, Dembo, Eisenstat &
+#: Steihaug 1982: the linear residual a fixed small fraction of the nonlinear one).
+LINEAR_FORCING = 1e-4
+#: GMRES iterations allowed with a kept factorization before a new one is built.
+KEPT_ITERATIONS = 8
+#: GMRES iterations allowed with a new AMG hierarchy.
+AMG_ITERATIONS = 400
+#: GMRES restart length.
+GMRES_RESTART = 40
 
 
 class JacobianSolver:
-    """Factorizes the successive Jacobians of a run; counts factorizations and solves.
+    """Solves the Newton systems ``J d = b`` of a run, keeping a preconditioner between them.
 
-    ``method`` is ``"direct"``, ``"amg-gmres"`` or ``"auto"`` (by size).
+    ``method`` is ``"direct"`` (a sparse LU factorization), ``"amg-gmres"`` (an algebraic
+    multigrid hierarchy) or ``"auto"`` (by size). The factorization or hierarchy built on one
+    Jacobian is kept for the following systems, of later iterations and steps: each is solved by
+    GMRES preconditioned with it, and a new one is built on the current Jacobian only when GMRES
+    does not reach :data:`GMRES_TOLERANCE` within :data:`KEPT_ITERATIONS` iterations (the
+    Jacobian has moved too far: a column flooded, a front moved). The Newton step is then the
+    exact one to that tolerance, so the iteration keeps Newton's convergence, unlike a chord
+    iteration on a stale matrix. ``keep=False`` builds a new preconditioner for every system
+    (the direct method then solves with the factorization alone).
+    Counts ``factorizations`` (preconditioners built), ``solves`` and ``krylov_iterations``.
     """
 
-    def __init__(self, n: int, method: str = "auto"):
+    def __init__(self, n: int, method: str = "auto", keep: bool = True):
         if method == "auto":
             method = "direct" if n <= DIRECT_LIMIT else "amg-gmres"
         if method not in ("direct", "amg-gmres"):
             raise ValueError(f"unknown Jacobian solver {method!r}")
         self.method = method
+        self.keep = keep
         self.factorizations = 0
         self.solves = 0
+        self.krylov_iterations = 0
+        self._kept: Callable[[np.ndarray], np.ndarray] | None = None
 
-    def factor(self, J: sp.csr_matrix) -> Callable[[np.ndarray], np.ndarray]:
-        """A solver of ``J d = b`` for this Jacobian."""
+    def solve(self, J: sp.csr_matrix, b: np.ndarray, rtol: float = 0.0) -> np.ndarray:
+        """The solution of ``J d = b`` to the relative residual ``rtol`` (at least
+        :data:`GMRES_TOLERANCE`)."""
+        rtol = max(rtol, GMRES_TOLERANCE)
+        self.solves += 1
+        bnorm = np.linalg.norm(b)
+        if bnorm == 0.0:
+            return np.zeros_like(b)
+        if self.keep and self._kept is not None:
+            x = self._krylov(J, b, bnorm, self._kept, KEPT_ITERATIONS, rtol)
+            if x is not None:
+                return x
         self.factorizations += 1
         if self.method == "direct":
-            return self._direct(J)
-        return self._gmres(J)
-
-    def _direct(self, J: sp.csr_matrix) -> Callable[[np.ndarray], np.ndarray]:
-        A = J.tocsc()
-        try:
-            lu = spla.splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0, options={"SymmetricMode": True})
-        except RuntimeError:
-            lu = None
-        pivoted = None
-
-        def solve(b: np.ndarray) -> np.ndarray:
-            nonlocal lu, pivoted
-            self.solves += 1
-            if lu is not None:
-                x = lu.solve(b)
-                if np.linalg.norm(J @ x - b) <= DIRECT_CHECK * np.linalg.norm(b):
+            for pivots in (False, True):
+                self._kept = self._direct(J, pivots)
+                x = self._kept(b)
+                if np.all(np.isfinite(x)) and np.linalg.norm(J @ x - b) <= GMRES_TOLERANCE * bnorm:
                     return x
-            if pivoted is None:
-                try:
-                    pivoted = spla.splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.1)
-                except RuntimeError as err:
-                    raise SolverError(f"the Jacobian is singular ({err}); is a head fixed somewhere?") from None
-                lu = None
-            return pivoted.solve(b)
-
-        return solve
-
-    def _gmres(self, J: sp.csr_matrix) -> Callable[[np.ndarray], np.ndarray]:
+                x = self._krylov(J, b, bnorm, self._kept, KEPT_ITERATIONS, rtol)
+                if x is not None:
+                    return x
+            raise SolverError("the Richards Jacobian could not be solved to its tolerance")
         import pyamg
 
-        M = pyamg.ruge_stuben_solver(J.tocsr()).aspreconditioner(cycle="V")
+        hierarchy = pyamg.ruge_stuben_solver(J.tocsr())
+        self._kept = hierarchy.aspreconditioner(cycle="V").matvec
+        x = self._krylov(J, b, bnorm, self._kept, AMG_ITERATIONS, rtol)
+        if x is None:
+            raise SolverError("AMG-preconditioned GMRES did not converge on the Richards Jacobian; "
+                              "use the direct solver")
+        return x
 
-        def solve(b: np.ndarray) -> np.ndarray:
-            self.solves += 1
-            bnorm = np.linalg.norm(b)
-            if bnorm == 0.0:
-                return np.zeros_like(b)
-            x, _ = spla.gmres(J, b, M=M, rtol=GMRES_TOLERANCE, atol=0.0, restart=40, maxiter=10)
-            if np.linalg.norm(b - J @ x) > 10 * GMRES_TOLERANCE * bnorm:
-                raise SolverError("AMG-preconditioned GMRES did not converge on the Richards Jacobian; "
-                                  "use the direct solver")
-            return x
+    def factor(self, J: sp.csr_matrix) -> Callable[[np.ndarray], np.ndarray]:
+        """A solver of ``J d = b`` for this Jacobian alone, built afresh (benchmarks)."""
+        return lambda b: JacobianSolver(J.shape[0], self.method, keep=False).solve(J, b)
 
-        return solve
+    def _krylov(self, J: sp.csr_matrix, b: np.ndarray, bnorm: float, apply: Callable[[np.ndarray], np.ndarray],
+                limit: int, rtol: float) -> np.ndarray | None:
+        """GMRES with the preconditioner ``apply``; None when it misses the tolerance in ``limit``
+        iterations."""
+        x, iterations = right_gmres(J, b, apply, rtol * bnorm, limit, GMRES_RESTART)
+        self.krylov_iterations += iterations
+        if x is None or np.linalg.norm(b - J @ x) > rtol * bnorm:
+            return None
+        return x
+
+    def _direct(self, J: sp.csr_matrix, pivots: bool) -> Callable[[np.ndarray], np.ndarray]:
+        """The LU factorization of ``J`` (minimum-degree ordering on A^T + A): diagonal pivots, or
+        threshold partial pivoting."""
+        A = J.tocsc()
+        try:
+            if not pivots:
+                return spla.splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
+                                 options={"SymmetricMode": True}).solve
+            return spla.splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.1).solve
+        except RuntimeError as err:
+            if not pivots:
+                return lambda b: np.full_like(b, np.nan)
+            raise SolverError(f"the Jacobian is singular ({err}); is a head fixed somewhere?") from None
+
+
+def right_gmres(A: sp.csr_matrix, b: np.ndarray, apply: Callable[[np.ndarray], np.ndarray], tolerance: float,
+                limit: int, restart: int) -> tuple[np.ndarray | None, int]:
+    """Restarted GMRES with right preconditioning (Saad 2003, algorithm 9.5): the residual it
+    minimises is the true residual ``b - A x``, so the stopping test is on that.
+
+    Returns ``x`` with ``|b - A x| <= tolerance`` (None when ``limit`` iterations do not reach
+    it) and the iterations done.
+    """
+    n = b.size
+    x = np.zeros(n)
+    r = b.copy()
+    done = 0
+    while done < limit:
+        beta = np.linalg.norm(r)
+        if beta <= tolerance:
+            return x, done
+        m = min(restart, limit - done)
+        V = np.empty((m + 1, n))
+        H = np.zeros((m + 1, m))
+        V[0] = r / beta
+        g = np.zeros(m + 1)
+        g[0] = beta
+        cs, sn = np.zeros(m), np.zeros(m)
+        k = 0
+        for k in range(m):
+            w = A @ apply(V[k])
+            for _ in range(2):  # classical Gram-Schmidt, twice (Giraud et al. 2005)
+                h = V[: k + 1] @ w
+                w -= h @ V[: k + 1]
+                H[: k + 1, k] += h
+            hn = np.linalg.norm(w)
+            H[k + 1, k] = hn
+            if hn > 0.0:
+                V[k + 1] = w / hn
+            for i in range(k):  # the earlier Givens rotations on the new column
+                H[i, k], H[i + 1, k] = cs[i] * H[i, k] + sn[i] * H[i + 1, k], -sn[i] * H[i, k] + cs[i] * H[i + 1, k]
+            d = np.hypot(H[k, k], H[k + 1, k])
+            if d == 0.0:
+                return None, done + k + 1
+            cs[k], sn[k] = H[k, k] / d, H[k + 1, k] / d
+            H[k, k], H[k + 1, k] = d, 0.0
+            g[k + 1] = -sn[k] * g[k]
+            g[k] = cs[k] * g[k]
+            if abs(g[k + 1]) <= tolerance or hn == 0.0:  # converged, or the space is exhausted
+                break
+        k += 1
+        y = np.linalg.solve(np.triu(H[:k, :k]), g[:k]) if k else np.zeros(0)
+        x = x + apply(y @ V[:k])
+        done += k
+        r = b - A @ x
+        if not np.all(np.isfinite(r)):
+            return None, done
+        if np.linalg.norm(r) <= tolerance:
+            return x, done
+    return None, done
 
 
 @dataclass
@@ -143,7 +231,7 @@ def iterate(system: RichardsSystem, psi: np.ndarray, forcing: StepForcing, stora
         if it == max_iterations or not np.all(np.isfinite(ev.residual)):
             break
         try:
-            d = solver.factor(system.jacobian(ev, forcing, storage, newton=newton))(-ev.residual)
+            d = solver.solve(system.jacobian(ev, forcing, storage, newton=newton), -ev.residual, LINEAR_FORCING)
         except SolverError:
             break
         if not np.all(np.isfinite(d)):

@@ -110,9 +110,11 @@ def states_at(section: Section, times: np.ndarray, method: str = NEWTON
 
 def _stops(section: Section, times: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Where the steps must land after t = 0 (the given times, the forcing's breakpoints and the
-    flooding instants) and the flooding instants, after which steps restart short."""
+    instants when a column floods or falls dry) and the instants when a column floods, after
+    which steps restart short."""
     end = section.scenario.time.end
     flooding = flooding_times(section, end)
+    wetting = flooding_times(section, end, drying=False)
     later = np.asarray(times, dtype=float)
     later = later[later > 0.0]
     # a column flooding just before an output floods within the output's step instead: a step of
@@ -120,7 +122,8 @@ def _stops(section: Section, times: np.ndarray) -> tuple[np.ndarray, np.ndarray]
     nxt = np.searchsorted(later, flooding)
     gap = np.where(nxt < later.size, later[np.minimum(nxt, later.size - 1)] - flooding, np.inf)
     landing = flooding[gap >= RESTART_STEP]
-    return np.union1d(np.union1d(later, forcing_breakpoints(section.scenario, end)), landing), landing
+    return (np.union1d(np.union1d(later, forcing_breakpoints(section.scenario, end)), landing),
+            np.intersect1d(landing, wetting))
 
 
 def _transient(section: Section, system: RichardsSystem, stepper: Stepper, ev: Evaluation,
@@ -170,8 +173,9 @@ def _transient(section: Section, system: RichardsSystem, stepper: Stepper, ev: E
     except KeyboardInterrupt:
         partial = f"interrupted; outputs up to t = {done[-1]:g} s of {ts.end:g} s"
     attrs.update({"run": "transient", "scheme": "backward-euler", "steps": len(records),
-                  "iterations": stepper.iterations, "failed_steps": stepper.failures,
-                  "factorizations": stepper.solver.factorizations, "linear_solves": stepper.solver.solves})
+                  "iterations": stepper.iterations, "failed_steps": stepper.failures, "rejected_steps": stepper.rejected,
+                  "factorizations": stepper.solver.factorizations, "linear_solves": stepper.solver.solves,
+                  "krylov_iterations": stepper.solver.krylov_iterations})
     if partial:
         attrs["partial"] = partial
     ds = build_dataset(section, states, stages, done, attrs)

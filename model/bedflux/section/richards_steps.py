@@ -13,13 +13,18 @@ Boundaries (per step, from the linear model's terms of :mod:`bedflux.section.dis
   linear model, reduced by each cell's pressure head after Feddes et al. (1978), and none in
   columns under the stream. With a daily cycle each step takes the cycle's mean over the step.
 
-Time steps (backward Euler) start at ``[time] step``, which is also the longest; a step that
-converges in at most :data:`EASY_ITERATIONS` iterations lets the next grow by
-:data:`GROWTH`, one that needs more than :data:`HARD_ITERATIONS` shrinks it, and a step that fails
-is cut by :data:`CUT` and retried. Steps land exactly on the output times, on the breakpoints
-of the forcing (pulse start and peak, flood-wave start and end, series times, the daily cycle's
-06:00 and 18:00) and on the instants when the stage floods or leaves a column; after those the
-step restarts at :data:`RESTART_STEP`.
+Time steps (backward Euler) start at ``[time] step``, which is also the longest. After each
+accepted step the local error in water content is estimated from the change of the rate of
+water content between this step and the last (:func:`local_error`); the next step is the one
+that would meet :data:`THETA_TOLERANCE` (times :data:`SAFETY`, at most :data:`MAX_GROWTH` times
+longer), and a step whose error exceeds :data:`REJECT` tolerances is retried shorter. A step that
+needs more than :data:`HARD_ITERATIONS` Newton iterations makes the next shorter, and a step that
+fails is cut by :data:`CUT` and retried. Newton starts each step from the linear extrapolation of
+the last two states. Steps land exactly on the output times, on the breakpoints of the forcing
+(pulse start and peak, flood-wave start and end, series times, the daily cycle's 06:00 and
+18:00) and just before the instants when the stage floods or leaves a piece of a column's top;
+after a column floods the step restarts at :data:`RESTART_STEP` with no error history (the
+rate of water content jumps there), and it then grows with the error estimate.
 """
 from __future__ import annotations
 
@@ -37,21 +42,35 @@ from bedflux.section.richards_newton import NEWTON, JacobianSolver, Outcome, ite
 from bedflux.scenario.units import SECONDS_PER_DAY
 from bedflux.section.discretisation import ActiveSet, Section
 
-#: Iterations at or below which the next step grows.
+#: Iterations at or below which the step after a restart (no error history yet) grows by :data:`GROWTH`.
 EASY_ITERATIONS = 4
-#: Iterations above which the next step shrinks.
+#: Iterations above which the next step shrinks by :data:`SHRINK`.
 HARD_ITERATIONS = 10
 GROWTH = 1.5
 SHRINK = 0.7
+#: A failed step is retried this fraction as long.
 CUT = 0.25
+#: Local error allowed per step in water content (:func:`local_error`).
+THETA_TOLERANCE = 0.01
+#: The next step is this fraction of the length that would meet the tolerance exactly.
+SAFETY = 0.9
+#: Largest growth of the step from one to the next.
+MAX_GROWTH = 2.0
+#: A step whose error exceeds this many tolerances is rejected and retried shorter ...
+REJECT = 4.0
+#: ... unless it is already shorter than this fraction of :data:`RESTART_STEP`.
+MIN_ERROR_STEP = 0.1
 #: Shortest step, as a fraction of ``[time] step``, before the run gives up.
 MIN_STEP_FRACTION = 1e-6
 #: Passes of the seepage-face active set per step.
 STEP_PASSES = 8
 #: Sampling interval of the stage when the flooding instants of the columns are located (s).
 FLOOD_SAMPLE = 30.0
-#: After a column floods or falls dry the next step is at most this long (s): infiltration into
-#: newly flooded soil starts as t^-1/2 (sorptivity), which only short first steps resolve.
+#: The step landing at a flooding instant ends this long (s) before the stage crosses the ground.
+FLOOD_MARGIN = 1e-3
+#: After a column floods the next step is at most this long (s): infiltration into newly
+#: flooded soil starts as t^-1/2 (sorptivity), which only short first steps resolve. (A column
+#: falling dry needs no restart: measured, docs/performance.md.)
 RESTART_STEP = 30.0
 #: First pseudo-time step of the steady solve's continuation (s).
 CONTINUATION_START = 600.0
@@ -92,20 +111,38 @@ def forcing_breakpoints(scenario: Scenario, end: float) -> np.ndarray:
     return t[(t > 0.0) & (t < end)]
 
 
-def flooding_times(section: Section, end: float) -> np.ndarray:
-    """Times in (0, end) at which the stage crosses the ground of a channel column (a column
-    floods or falls dry), from the stage sampled every :data:`FLOOD_SAMPLE` seconds and
-    interpolated linearly between samples."""
+def flooding_times(section: Section, end: float, drying: bool = True) -> np.ndarray:
+    """Instants in (0, end) at which the stage floods or leaves a piece of a channel column's top
+    face (a transient run wets a piece when the mean stage over it rises above the ground at its
+    midpoint, :meth:`bedflux.section.grid.GroundPieces.below`).
+
+    The stage is sampled every :data:`FLOOD_SAMPLE` seconds and each crossing is bisected to the
+    round-off of the time; the instant returned lies on the *old* side of the crossing, so a step
+    ending there still sees the piece as it was and the next step, which restarts short, is the
+    first to see it flooded or dry. ``drying`` False: only the instants when a piece floods.
+    """
     sc = section.scenario
     if sc.stream is None or end <= 0.0:
         return np.zeros(0)
-    cols = np.flatnonzero(section.channel)
+    p = section.pieces
+    keep = section.piece_in_channel > 0.0
+    mid_x, ground = 0.5 * (p.x0 + p.x1)[keep], p.gm[keep]
+
+    def stage(t: np.ndarray) -> np.ndarray:
+        return np.asarray(sc.stream.stage(t), dtype=float)
+
     t = np.linspace(0.0, end, int(np.ceil(end / FLOOD_SAMPLE)) + 1)
-    above = sc.stream.stage(t)[:, None] + sc.stream.slope * section.grid.xc[None, cols] - section.grid.ground[None, cols]
-    k, j = np.nonzero(np.sign(above[1:]) != np.sign(above[:-1]))
-    a, b = above[k, j], above[k + 1, j]
-    times = t[k] + (t[k + 1] - t[k]) * a / (a - b)
-    times = np.unique(times)
+    wet = stage(t)[:, None] + sc.stream.slope * mid_x - ground > 0.0
+    k, j = np.nonzero(wet[1:] != wet[:-1])
+    if not drying:
+        k, j = k[~wet[k, j]], j[~wet[k, j]]
+    lo, hi, old = t[k], t[k + 1], wet[k, j]
+    level = ground[j] - sc.stream.slope * mid_x[j]  # the stage at which piece j floods
+    for _ in range(50):
+        mid = 0.5 * (lo + hi)
+        same = (stage(mid) > level) == old
+        lo, hi = np.where(same, mid, lo), np.where(same, hi, mid)
+    times = np.unique(lo - FLOOD_MARGIN)
     return times[(times > 0.0) & (times < end)]
 
 
@@ -211,16 +248,18 @@ class Stepper:
     solver: JacobianSolver = field(default=None)
     iterations: int = 0
     failures: int = 0
+    rejected: int = 0
 
     def __post_init__(self):
         if self.solver is None:
             self.solver = JacobianSolver(self.system.n)
 
-    def solve_step(self, psi0: np.ndarray, t0: float, t1: float, state: ActiveSet
-                   ) -> tuple[Outcome, StepForcing, Storage, ActiveSet]:
-        """One backward-Euler step with its seepage-face passes (``converged`` False on failure)."""
+    def solve_step(self, psi0: np.ndarray, t0: float, t1: float, state: ActiveSet,
+                   guess: np.ndarray | None = None) -> tuple[Outcome, StepForcing, Storage, ActiveSet]:
+        """One backward-Euler step with its seepage-face passes (``converged`` False on failure);
+        Newton starts from ``guess`` (default ``psi0``)."""
         storage = self.system.storage(psi0, t1 - t0)
-        psi = psi0
+        psi = psi0 if guess is None else guess
         total = 0
         for _ in range(STEP_PASSES):
             forcing = self.boundaries.forcing(t0, t1, state, steady=False)
@@ -298,37 +337,61 @@ def run_steps(stepper: Stepper, psi: np.ndarray, state: ActiveSet, stops: np.nda
     """Adaptive backward-Euler steps through the ``stops`` (output times and breakpoints, sorted,
     after t = 0). ``on_step`` sees every accepted step and returns its budget closure;
     ``on_stop`` sees the state at every stop. At the stops listed in ``restarts`` the next step
-    restarts short (:data:`RESTART_FRACTION`)."""
+    restarts short (:data:`RESTART_STEP`); the local error per step is held near
+    :data:`THETA_TOLERANCE` (see the module doc)."""
     restarts = np.zeros(0) if restarts is None else np.asarray(restarts)
     records: list[StepRecord] = []
     t = 0.0
     dt = dt_max
     end = float(stops[-1])
     dt_min = MIN_STEP_FRACTION * dt_max
+    # the last accepted step's water content rate, length and pressure head rate
+    last: tuple[np.ndarray, float, np.ndarray] | None = None
     for stop in stops:
         while t < stop - 1e-9 * max(stop, 1.0):
             h = min(dt, stop - t)
             if stop - (t + h) < 0.05 * h:
                 # no sliver before the stop: stretch up to the longest step, else halve the rest
                 h = stop - t if stop - t <= dt_max else 0.5 * (stop - t)
-            out, forcing, storage, new_state = stepper.solve_step(psi, t, t + h, state)
+            guess = None if last is None else psi + h * last[2]  # linear predictor
+            out, forcing, storage, new_state = stepper.solve_step(psi, t, t + h, state, guess)
             if not out.converged:
                 dt = h * CUT
                 if dt < dt_min:
                     raise SolverError(f"the variably saturated step from t = {t:g} s did not converge even at "
                                       f"{h:.3g} s; refine the grid or shorten [time] step")
                 continue
+            rate = (out.evaluation.props.theta - storage.theta0) / h
+            if last is None:
+                grow = GROWTH if out.iterations <= EASY_ITERATIONS else 1.0
+            else:
+                error = local_error(rate, h, *last[:2])
+                grow = SAFETY * np.sqrt(THETA_TOLERANCE / error) if error > 0.0 else MAX_GROWTH
+                if error > REJECT * THETA_TOLERANCE and h > RESTART_STEP * MIN_ERROR_STEP:
+                    stepper.rejected += 1
+                    dt = h * max(grow, CUT)
+                    continue
+                grow = min(grow, MAX_GROWTH)
             t1 = stop if h == stop - t else t + h
             closure = on_step(out, forcing, storage, t, t1)
             records.append(StepRecord(t1, h, out.iterations, closure))
+            last = (rate, h, (out.psi - psi) / h)
             psi, state, t = out.psi, new_state, t1
-            if out.iterations <= EASY_ITERATIONS:
-                dt = min(dt * GROWTH, dt_max) if h >= 0.999 * dt else dt
-            elif out.iterations > HARD_ITERATIONS:
-                dt = h * SHRINK
+            if out.iterations > HARD_ITERATIONS:
+                grow = min(grow, SHRINK)
+            # a step cut short by a stop does not hold back the next
+            dt = min(max(h * grow, dt if h < dt and grow >= 1.0 else 0.0), dt_max)
             if progress is not None:
                 progress(t / end)
         on_stop(out, forcing, t)
         if restarts.size and np.min(np.abs(restarts - t)) <= 1e-9 * max(t, 1.0):
             dt = min(dt, RESTART_STEP)
+            last = None
     return records
+
+
+def local_error(rate: np.ndarray, h: float, last_rate: np.ndarray, last_h: float) -> float:
+    """The local error of a backward-Euler step in water content, largest over the cells:
+    ``h^2 / 2 |theta''|`` with ``theta''`` from the rates of this step and the last,
+    ``2 (rate - last_rate) / (h + last_h)`` (Kavetski, Binning & Sloan 2001)."""
+    return float(h * h * np.max(np.abs(rate - last_rate)) / (h + last_h))
