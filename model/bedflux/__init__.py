@@ -5,7 +5,8 @@ channel -> calibration with sensitivities -> placement of the next instruments -
 report.
 
 The public names are imported when first used, so ``import bedflux`` and ``bedflux --help`` stay
-quick: ``bedflux.load``, ``bedflux.simulate``, ``bedflux.fit``, ``bedflux.plan``, ``bedflux.Scenario``.
+quick: ``bedflux.load``, ``bedflux.simulate``, ``bedflux.fit``, ``bedflux.plan``, ``bedflux.ensemble``,
+``bedflux.Scenario``.
 """
 from __future__ import annotations
 
@@ -22,9 +23,10 @@ _PUBLIC = {
     "simulate": "bedflux.section.simulate",
     "fit": "bedflux.calibration.estimate",
     "plan": "bedflux.planning.placement",
+    "ensemble": "bedflux.ensemble.run",
 }
 
-__all__ = ["InputError", "SolverError", "Scenario", "load", "simulate", "fit", "plan", "__version__"]
+__all__ = ["InputError", "SolverError", "Scenario", "load", "simulate", "fit", "plan", "ensemble", "__version__"]
 
 
 def __getattr__(name: str) -> Any:

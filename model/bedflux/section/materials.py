@@ -140,7 +140,8 @@ class Materials:
 
     ``zone`` is the zone at the cell centre (for figures); the properties are the averages over
     the zones a cell holds (see the module docstring). ``cover`` and ``table`` keep what is needed
-    for :meth:`derivative`; ``replaced`` names the properties given as user arrays.
+    for :meth:`derivative`; ``replaced`` names the properties given as user arrays, ``multiplied``
+    those whose zone values carry per-cell multipliers.
     """
 
     kh: np.ndarray
@@ -154,6 +155,7 @@ class Materials:
     cover: ZoneCover | None = None
     table: Mapping[str, np.ndarray] | None = None
     replaced: frozenset = frozenset()
+    multiplied: frozenset = frozenset()
     _memo: dict = field(default_factory=dict, repr=False, compare=False)
 
     def derivative(self, prop: str, zone: int) -> np.ndarray:
@@ -167,6 +169,8 @@ class Materials:
         g = self.grid
         if prop in self.replaced:
             return np.zeros((g.nz, g.nx))
+        if prop in self.multiplied:
+            raise ValueError(f"no sensitivities of {prop} under per-cell zone multipliers")
         f = self.cover.fraction(g, zone)
         value = self.table[prop][zone]
         if prop == "kv":
@@ -211,6 +215,9 @@ def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] |
         Optional ``(nz, nx)`` arrays (SI) for any of kh, kv, specific_storage, specific_yield and porosity
         that replace the zone values:
         a heterogeneous field from the Python API. Values of inactive cells are ignored.
+        A key ``ZONE.PROPERTY`` (``bed.kv``) gives instead a positive per-cell multiplier of that
+        zone's value (a random field over a zone): each cell's share of the zone then carries the
+        zone's value times the cell's multiplier, averaged with its other zones as above.
 
     Raises
     ------
@@ -220,6 +227,8 @@ def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] |
     """
     cover = zone_cover(scenario, grid)
     table = {p: np.array([getattr(z, p) for z in scenario.zones], dtype=float) for p in PROPERTIES}
+    fields = dict(fields or {})
+    scale = _zone_multipliers(scenario, grid, cover, fields)
     sums = {p: np.zeros((grid.nz, cover.strip_col.size)) for p in PROPERTIES}
     active = grid.active[:, cover.strip_col]
     covered = np.zeros(len(scenario.zones), dtype=bool)
@@ -227,8 +236,10 @@ def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] |
         own = cover.owner[:, j]
         covered[np.unique(own[((f > 0) & active).any(axis=0)])] = True
         for p in PROPERTIES:
-            v = 1.0 / table[p][own] if p == "kv" else table[p][own]
-            sums[p] += f * v[None, :]
+            value = table[p][own][None, :]
+            for zone, m in scale.get(p, {}).items():
+                value = np.where(own[None, :] == zone, value * m, value)
+            sums[p] += f * (1.0 / value if p == "kv" else value)
     _require_cover(scenario, grid, covered)
     arrays = {"kv": cover.to_columns(grid, 1.0 / sums.pop("kv")),
               "kh": 1.0 / cover.to_columns(grid, 1.0 / sums.pop("kh"))}
@@ -254,4 +265,25 @@ def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] |
         arrays[name] = np.where(grid.active, a, arrays[name])
     return Materials(arrays["kh"], arrays["kv"], arrays["specific_storage"], arrays["specific_yield"],
                      arrays["porosity"], _centre_zone(cover, grid), tuple(z.name for z in scenario.zones), grid,
-                     cover, table, frozenset(fields or {}))
+                     cover, table, frozenset(fields), frozenset(scale))
+
+
+def _zone_multipliers(scenario: Scenario, grid: Grid, cover: ZoneCover,
+                      fields: dict[str, np.ndarray]) -> dict[str, dict[int, np.ndarray]]:
+    """Take the ``ZONE.PROPERTY`` entries out of ``fields``: property -> zone index -> the
+    ``(nz, n_strips)`` multiplier of that zone's value in each cell-strip."""
+    names = [z.name for z in scenario.zones]
+    out: dict[str, dict[int, np.ndarray]] = {}
+    for key in [k for k in fields if "." in k]:
+        zone, _, prop = key.partition(".")
+        if zone not in names or prop not in PROPERTIES:
+            raise InputError(f"unknown zone multiplier '{key}'; write ZONE.PROPERTY with a zone of "
+                             f"{', '.join(names)} and a property of {', '.join(PROPERTIES)}", where="fields")
+        m = np.asarray(fields.pop(key), dtype=float)
+        if m.shape != (grid.nz, grid.nx):
+            raise InputError(f"multiplier '{key}' has shape {m.shape}; the grid is (nz, nx) = "
+                             f"{(grid.nz, grid.nx)}", where="fields")
+        if not np.all(np.isfinite(m[grid.active]) & (m[grid.active] > 0)):
+            raise InputError(f"multiplier '{key}' must be finite and positive in active cells", where="fields")
+        out.setdefault(prop, {})[names.index(zone)] = np.where(grid.active, m, 1.0)[:, cover.strip_col]
+    return out

@@ -1,0 +1,124 @@
+"""Running members on dask.distributed: a local cluster, or any cluster by its scheduler address.
+
+Without an address the engine starts a ``LocalCluster`` of one single-threaded worker process
+per core, with the BLAS thread pools pinned to one thread (``OMP_NUM_THREADS`` and its kin in
+the workers' environment), so N workers run N solves side by side without oversubscribing the
+cores. With an address (``tcp://host:8786``: a cluster started with ``dask scheduler`` and
+``dask worker``, or any dask deployment) it connects a ``Client`` to it; the workers there need
+bedflux installed, and pinning their BLAS threads is their owner's business (set the same
+variables before ``dask worker``).
+
+The ensemble's description is sent to every worker once; members are then submitted as tasks,
+at most a *window* of them in flight (bounded memory at the client and on the workers), and
+each finished member is handed back as soon as it is done (``as_completed``), in any order. A
+member whose task dies with its worker is recorded as failed, like a member whose run failed.
+"""
+from __future__ import annotations
+
+import os
+from typing import Iterable, Iterator
+
+from bedflux.errors import InputError
+from bedflux.ensemble.members import MemberResult, run_member
+from bedflux.ensemble.spec import EnsembleSpec
+
+#: environment of local workers: one BLAS thread each
+SINGLE_THREAD_ENV = {name: "1" for name in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS",
+                                            "VECLIB_MAXIMUM_THREADS", "NUMEXPR_NUM_THREADS")}
+#: members in flight per worker thread
+WINDOW_PER_WORKER = 4
+
+
+class Engine:
+    """A dask client for the ensemble's members (and anything else that maps tasks).
+
+    Use as a context manager; a cluster and client it started are closed on leaving.
+
+    Parameters
+    ----------
+    scheduler
+        Address of a running scheduler; None starts a local cluster.
+    workers
+        Worker processes of the local cluster (default: the number of cores).
+    """
+
+    def __init__(self, scheduler: str | None = None, workers: int | None = None):
+        if workers is not None and workers < 1:
+            raise InputError(f"--workers {workers}: give at least 1 worker process", where="--workers")
+        if scheduler is not None and workers is not None:
+            raise InputError("--workers sets the size of a local cluster; with --scheduler the cluster's "
+                             "own workers run the members (leave out --workers)", where="--workers")
+        self.scheduler = scheduler
+        self.workers = workers or os.cpu_count() or 1
+        self.client = None
+        self._cluster = None
+
+    def __enter__(self) -> "Engine":
+        from distributed import Client, LocalCluster
+
+        if self.scheduler:
+            try:
+                self.client = Client(self.scheduler, timeout="20s")
+            except (OSError, TimeoutError, ValueError) as err:
+                raise InputError(f"cannot reach a dask scheduler at {self.scheduler!r} ({err}); start one "
+                                 "with 'dask scheduler' and give its address, e.g. tcp://127.0.0.1:8786",
+                                 where="--scheduler") from None
+        else:
+            self._cluster = LocalCluster(n_workers=self.workers, threads_per_worker=1, processes=True,
+                                         dashboard_address=None, env=dict(SINGLE_THREAD_ENV))
+            self.client = Client(self._cluster)
+        return self
+
+    def __exit__(self, *exc) -> None:
+        if self.client is not None:
+            self.client.close()
+        if self._cluster is not None:
+            self._cluster.close()
+
+
+def worker_threads(client) -> int:
+    """Threads of all the client's workers (at least 1)."""
+    return max(1, sum(client.nthreads().values()))
+
+
+def run_members(spec: EnsembleSpec, indices: Iterable[int], client=None, window: int | None = None
+                ) -> Iterator[MemberResult]:
+    """Run the members ``indices`` and yield each result as it finishes.
+
+    Without a client the members run one after another in this process (the same numbers: a
+    member's draws depend on the seed and its index only).
+    """
+    if client is None:
+        for i in indices:
+            yield run_member(spec, spec.draw(i))
+        return
+    from distributed import as_completed
+
+    window = window or WINDOW_PER_WORKER * worker_threads(client)
+    shared = client.scatter(spec, broadcast=True, hash=False)
+    todo = iter(indices)
+    draws = {}
+    pending = as_completed()
+
+    def submit() -> bool:
+        i = next(todo, None)
+        if i is None:
+            return False
+        draw = spec.draw(i)
+        future = client.submit(run_member, shared, draw, pure=False, key=f"bedflux-member-{i}-{id(draws)}")
+        draws[future.key] = draw
+        pending.add(future)
+        return True
+
+    for _ in range(window):
+        if not submit():
+            break
+    for future in pending:
+        draw = draws.pop(future.key)
+        try:
+            result = future.result()
+        except Exception as err:  # the task itself died (a worker lost, a result that would not travel)
+            result = MemberResult(draw.index, draw.values, failure=f"{type(err).__name__}: {err}")
+        future.release()
+        yield result
+        submit()
