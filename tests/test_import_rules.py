@@ -8,7 +8,7 @@ Floors, bottom up (DEVELOPERS.md states the same rule):
 3. ``forward``            what calibration and planning see of the model
 4. ``outputs``            files, summary, figures of a result (never discretises or solves)
 5. ``field``, ``report``  field sheets (knows nothing of the model), the report (reads outputs)
-6. ``calibration``, ``planning``, ``ensemble``  (planning and ensemble may use calibration's fit, never
+6. ``calibration``, ``planning``, ``ensembles``  (planning and ensembles may use calibration's fit, never
    the reverse)
 7. ``cli``, ``bench``, the package's ``__init__``
 
@@ -25,9 +25,9 @@ import pytest
 PACKAGE = Path(__file__).resolve().parents[1] / "model" / "bedflux"
 
 FLOOR = {"errors": 0, "version": 0, "scenario": 1, "section": 2, "forward": 3, "outputs": 4,
-         "field": 5, "report": 5, "calibration": 6, "planning": 6, "ensemble": 6, "cli": 7, "bench": 7, "": 7}
+         "field": 5, "report": 5, "calibration": 6, "planning": 6, "ensembles": 6, "cli": 7, "bench": 7, "": 7}
 #: sideways imports allowed on one floor (from room -> to room)
-SIDEWAYS = {("planning", "calibration"), ("ensemble", "calibration")}
+SIDEWAYS = {("planning", "calibration"), ("ensembles", "calibration")}
 #: rooms that may not import certain lower rooms at all
 FORBIDDEN = {
     "field": {"section", "forward", "calibration", "planning", "report"},  # knows nothing of the model

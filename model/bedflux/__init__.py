@@ -23,7 +23,7 @@ _PUBLIC = {
     "simulate": "bedflux.section.simulate",
     "fit": "bedflux.calibration.estimate",
     "plan": "bedflux.planning.placement",
-    "ensemble": "bedflux.ensemble.run",
+    "ensemble": "bedflux.ensembles.run",
 }
 
 __all__ = ["InputError", "SolverError", "Scenario", "load", "simulate", "fit", "plan", "ensemble", "__version__"]

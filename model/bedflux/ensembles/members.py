@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from bedflux.ensemble.spec import EnsembleSpec, MemberDraw
+from bedflux.ensembles.spec import EnsembleSpec, MemberDraw
 from bedflux.section.events import exchange_events
 from bedflux.section.grid import build_grid
 from bedflux.section.simulate import simulate

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Any, Mapping
 
 import numpy as np
@@ -38,7 +39,7 @@ class Distribution:
     low: float = -math.inf
     high: float = math.inf
 
-    @property
+    @cached_property
     def frozen(self):
         """The scipy distribution (before truncation)."""
         p = dict(self.params)
@@ -51,10 +52,14 @@ class Distribution:
         width = p["max"] - p["min"]
         return stats.triang(c=(p["mode"] - p["min"]) / width, loc=p["min"], scale=width)
 
-    def cdf_bounds(self) -> tuple[float, float]:
-        """CDF at the truncation limits."""
+    @cached_property
+    def _bounds(self) -> tuple[float, float]:
         d = self.frozen
         return float(d.cdf(self.low)), float(d.cdf(self.high))
+
+    def cdf_bounds(self) -> tuple[float, float]:
+        """CDF at the truncation limits."""
+        return self._bounds
 
     def from_uniform(self, u: float | np.ndarray) -> float | np.ndarray:
         """The value at the uniform number ``u`` (in [0, 1))."""

@@ -9,7 +9,7 @@ import numpy as np
 import xarray as xr
 
 from bedflux.outputs.figures import GAINING, LOSING, apply_style, save
-from bedflux.ensemble.summary import ANSWERS, HOUR, answers, losing_probability
+from bedflux.ensembles.summary import ANSWERS, HOUR, answers, losing_probability
 
 #: answers shown as histograms, of transient and of steady ensembles
 HISTOGRAMS = {True: ("reversal_duration", "bank_storage", "penetration_depth", "reversal_start"),

@@ -39,9 +39,9 @@ from bedflux.scenario import checks
 from bedflux.scenario.inputfile import read_toml
 from bedflux.scenario.spec import Scenario, load
 from bedflux.calibration.display import dimension_of
-from bedflux.ensemble.distributions import Distribution, parse_distribution
-from bedflux.ensemble.fields import RandomField, parse_field
-from bedflux.ensemble.posterior import FitPosterior, read_fit
+from bedflux.ensembles.distributions import Distribution, parse_distribution
+from bedflux.ensembles.fields import RandomField, parse_field
+from bedflux.ensembles.posterior import FitPosterior, read_fit
 
 _KEYS = ["scenario", "members", "seed", "from_fit", "uncertain", "random_field"]
 #: most members one ensemble may have

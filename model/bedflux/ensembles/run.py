@@ -10,10 +10,10 @@ import xarray as xr
 from bedflux.errors import SolverError
 from bedflux.scenario.spec import Scenario
 from bedflux.section.grid import build_grid
-from bedflux.ensemble.engine import run_members
-from bedflux.ensemble.members import MemberResult
-from bedflux.ensemble.results import members_dataset
-from bedflux.ensemble.spec import EnsembleSpec, build_spec
+from bedflux.ensembles.engine import run_members
+from bedflux.ensembles.members import MemberResult
+from bedflux.ensembles.results import members_dataset
+from bedflux.ensembles.spec import EnsembleSpec, build_spec
 
 #: members gathered in memory before they are written to a part file
 PART_MEMBERS = 256
@@ -105,7 +105,7 @@ def ensemble(scenario: Scenario, members: int, uncertain: Sequence[Mapping[str, 
     Returns
     -------
     xarray.Dataset
-        See :mod:`bedflux.ensemble.results`: ``parameter_value(member, parameter)``,
+        See :mod:`bedflux.ensembles.results`: ``parameter_value(member, parameter)``,
         ``exchange``, ``stage``, ``bed_flux``, the events, ``failed`` and ``failure``.
 
     Raises

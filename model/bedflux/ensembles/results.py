@@ -15,8 +15,8 @@ import numpy as np
 import xarray as xr
 
 from bedflux.version import __version__
-from bedflux.ensemble.members import EVENTS, MemberResult
-from bedflux.ensemble.spec import EnsembleSpec
+from bedflux.ensembles.members import EVENTS, MemberResult
+from bedflux.ensembles.spec import EnsembleSpec
 
 #: name -> (units, long name)
 VARIABLES = {

@@ -19,8 +19,8 @@ import os
 from typing import Iterable, Iterator
 
 from bedflux.errors import InputError
-from bedflux.ensemble.members import MemberResult, run_member
-from bedflux.ensemble.spec import EnsembleSpec
+from bedflux.ensembles.members import MemberResult, run_member
+from bedflux.ensembles.spec import EnsembleSpec
 
 #: environment of local workers: one BLAS thread each
 SINGLE_THREAD_ENV = {name: "1" for name in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS",

@@ -13,7 +13,7 @@ import math
 import numpy as np
 import xarray as xr
 
-from bedflux.ensemble.members import EVENTS
+from bedflux.ensembles.members import EVENTS
 
 HOUR = 3600.0
 #: quantiles of the distributions of reversal duration and bank storage
@@ -109,7 +109,7 @@ def _listed(p: np.ndarray) -> list:
 
 
 def deterministic_answers(result, transient: bool) -> dict[str, float]:
-    """The answers of the deterministic run (a :class:`~bedflux.ensemble.members.MemberResult`)."""
+    """The answers of the deterministic run (a :class:`~bedflux.ensembles.members.MemberResult`)."""
     if result.failure:
         return {}
     ex = np.asarray(result.exchange, dtype=float)

@@ -12,11 +12,11 @@ def _run(args: argparse.Namespace) -> int:
     from bedflux.outputs.files import input_files
     from bedflux.outputs.progress import ProgressBar
     from bedflux.section.grid import build_grid
-    from bedflux.ensemble.engine import Engine
-    from bedflux.ensemble.members import run_member
-    from bedflux.ensemble.outputs import ensemble_size, write_ensemble
-    from bedflux.ensemble.run import run_spec
-    from bedflux.ensemble.spec import MemberDraw, load_ensemble
+    from bedflux.ensembles.engine import Engine
+    from bedflux.ensembles.members import run_member
+    from bedflux.ensembles.outputs import ensemble_size, write_ensemble
+    from bedflux.ensembles.run import run_spec
+    from bedflux.ensembles.spec import MemberDraw, load_ensemble
 
     spec = load_ensemble(args.file)
     engine = Engine(args.scheduler, args.workers)

@@ -10,9 +10,9 @@ import xarray as xr
 
 from bedflux.outputs.atomic import write_text, write_with
 from bedflux.outputs.files import write_result
-from bedflux.ensemble.figures import ensemble_figures
-from bedflux.ensemble.members import MemberResult
-from bedflux.ensemble.summary import deterministic_answers, summarise, summary_text
+from bedflux.ensembles.figures import ensemble_figures
+from bedflux.ensembles.members import MemberResult
+from bedflux.ensembles.summary import deterministic_answers, summarise, summary_text
 
 #: bytes per member beyond its time series: the events, the values and the failure text
 MEMBER_OVERHEAD = 400
