@@ -55,5 +55,6 @@ def register(sub) -> None:
                    help="address of a running dask scheduler (e.g. tcp://10.0.0.5:8786); default: start a "
                         "local cluster")
     p.add_argument("--workers", metavar="N", type=int, default=None,
-                   help="worker processes of the local cluster (default: one per core)")
+                   help="worker processes of the local cluster (default: one per core; 0: no cluster, the "
+                        "members run one after another in this process)")
     p.set_defaults(func=_run)

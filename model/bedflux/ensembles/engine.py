@@ -39,23 +39,27 @@ class Engine:
     scheduler
         Address of a running scheduler; None starts a local cluster.
     workers
-        Worker processes of the local cluster (default: the number of cores).
+        Worker processes of the local cluster (default: the number of cores); 0 runs the members
+        in this process, one after another, without dask (``client`` stays None).
     """
 
     def __init__(self, scheduler: str | None = None, workers: int | None = None):
-        if workers is not None and workers < 1:
-            raise InputError(f"--workers {workers}: give at least 1 worker process", where="--workers")
+        if workers is not None and workers < 0:
+            raise InputError(f"--workers {workers}: give the number of worker processes (0: none, the members "
+                             "run in this process)", where="--workers")
         if scheduler is not None and workers is not None:
             raise InputError("--workers sets the size of a local cluster; with --scheduler the cluster's "
                              "own workers run the members (leave out --workers)", where="--workers")
         self.scheduler = scheduler
-        self.workers = workers or os.cpu_count() or 1
+        self.workers = (os.cpu_count() or 1) if workers is None else workers
         self.client = None
         self._cluster = None
 
     def __enter__(self) -> "Engine":
         from distributed import Client, LocalCluster
 
+        if not self.scheduler and self.workers == 0:
+            return self
         if self.scheduler:
             try:
                 self.client = Client(self.scheduler, timeout="20s")

@@ -126,9 +126,20 @@ def _uncertain(scenario: Scenario, entry: Mapping[str, Any], i: int) -> tuple[st
                          where=f"uncertain {i + 1}")
     path = entry["path"]
     where = f"uncertain '{path}'"
+    _known_path(scenario, path, where)
     dist = parse_distribution(entry, where, dimension_of(path))
     _check_path(scenario, path, dist.centre(), where)
     return path, dist
+
+
+def _known_path(scenario: Scenario, path: str, where: str) -> None:
+    """The path must name a value of the scenario (a table value such as ``stream.pulse.peak``
+    has no resolved SI value of its own but is a known path)."""
+    try:
+        scenario.value_at(path)
+    except InputError as err:
+        if "has no single SI value" not in err.message:
+            raise InputError(err.message, where=where) from None
 
 
 def _check_path(scenario: Scenario, path: str, value: float, where: str) -> None:
