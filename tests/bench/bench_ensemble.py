@@ -1,14 +1,15 @@
 """Benchmark of ensembles (not collected by pytest).
 
-    python tests/bench/bench_ensemble.py [--members 200]
+    python tests/bench/bench_ensemble.py [--members 200] [--repeats 7] [--skip-scaling]
 
 1. Overhead per member over a bare ``simulate`` of the same scenario, in one process: a steady
    8-cell column (where Python overhead shows) and the transient example
    scenarios/heterogeneous_bed.toml. A member = draw + ``with_values`` + random field + simulate +
    answers; the event answers (reversal, bank storage, penetration by particle tracking) are
    timed apart, as they are answers rather than overhead.
-2. Scheduling overhead per task on a LocalCluster of one worker: (wall time - sum of the
-   members' own run times) / members, for the column ensemble.
+2. Engine overhead per member on a LocalCluster of one worker: (wall time - sum of the
+   members' own run times) / members, for the column ensemble, one member per task and as many
+   as the command would put in a task.
 3. Scaling: the example ensemble (transient members) on LocalClusters of 1 and 2 single-threaded
    workers, wall time from the first submission to the last result (cluster start-up apart);
    efficiency = T1 / (2 T2).
@@ -27,6 +28,7 @@ from pathlib import Path
 import numpy as np
 
 import bedflux
+from bedflux.ensembles.engine import chunk_size
 from bedflux.ensembles.members import member_events, run_member
 from bedflux.ensembles.run import run_spec
 from bedflux.ensembles.spec import MemberDraw, build_spec, load_ensemble
@@ -74,9 +76,9 @@ def local(n: int):
     return cluster, client, time.perf_counter() - t
 
 
-def timed_run(spec, client) -> tuple[float, float]:
+def timed_run(spec, client, chunk: int = 1) -> tuple[float, float]:
     t = time.perf_counter()
-    ds = run_spec(spec, client)
+    ds = run_spec(spec, client, chunk=chunk)
     return time.perf_counter() - t, float(ds["run_seconds"].sum())
 
 
@@ -84,6 +86,7 @@ def main() -> None:
     p = argparse.ArgumentParser()
     p.add_argument("--members", type=int, default=200)
     p.add_argument("--repeats", type=int, default=5)
+    p.add_argument("--skip-scaling", action="store_true")
     a = p.parse_args()
     print(f"cores {os.cpu_count()}, load average at start {os.getloadavg()}")
     col = build_spec(column(), 400, [{"path": "bed.kv", "distribution": "lognormal", "median": 1e-6,
@@ -98,9 +101,15 @@ def main() -> None:
               f"| {1e3 * o['with_values']:.1f} ms | {1e3 * o['field']:.1f} ms | {1e3 * o['overhead']:.1f} ms "
               f"| {100 * o['overhead'] / o['simulate']:.0f} % |")
     cluster, client, start = local(1)
-    wall, own = timed_run(col, client)
-    print(f"\nLocalCluster(1) start-up {start:.1f} s; column ensemble of {col.members}: wall {wall:.2f} s, members' "
-          f"own time {own:.2f} s, scheduling overhead {1e3 * (wall - own) / col.members:.1f} ms per member")
+    print(f"\nLocalCluster(1) start-up {start:.1f} s")
+    t_member = best(lambda: run_member(col, col.draw(0)), a.repeats)
+    for chunk in (1, chunk_size(t_member)):
+        wall, own = timed_run(col, client, chunk)
+        print(f"column ensemble of {col.members}, {chunk} members per task: wall {wall:.2f} s, members' "
+              f"own time {own:.2f} s, engine overhead {1e3 * (wall - own) / col.members:.1f} ms per member")
+    if a.skip_scaling:
+        client.close(); cluster.close()
+        return
     rows = []
     for n in (1, 2):
         if n == 2:

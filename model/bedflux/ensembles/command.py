@@ -12,7 +12,7 @@ def _run(args: argparse.Namespace) -> int:
     from bedflux.outputs.files import input_files
     from bedflux.outputs.progress import ProgressBar
     from bedflux.section.grid import build_grid
-    from bedflux.ensembles.engine import Engine
+    from bedflux.ensembles.engine import Engine, chunk_size
     from bedflux.ensembles.members import run_member
     from bedflux.ensembles.outputs import ensemble_size, write_ensemble
     from bedflux.ensembles.run import run_spec
@@ -31,7 +31,8 @@ def _run(args: argparse.Namespace) -> int:
             reference = run_member(spec, MemberDraw(-1, {}, ()))
             bar = ProgressBar(enabled=not args.quiet, label="members")
             try:
-                ds = run_spec(spec, engine.client, bar.update, scratch=stage.parent)
+                ds = run_spec(spec, engine.client, bar.update, scratch=stage.parent,
+                              chunk=chunk_size(reference.seconds))
             finally:
                 bar.close()
             summary = write_ensemble(ds, stage, reference)

@@ -10,23 +10,31 @@ variables before ``dask worker``).
 
 The ensemble's description is sent to every worker once; members are then submitted as tasks,
 at most a *window* of them in flight (bounded memory at the client and on the workers), and
-each finished member is handed back as soon as it is done (``as_completed``), in any order. A
+each finished member is handed back as soon as it is done (``as_completed``), in any order.
+Members quicker than a few tenths of a second go several to a task (:func:`chunk_size`), so that
+the scheduler's cost per task does not outweigh them. A
 member whose task dies with its worker is recorded as failed, like a member whose run failed.
 """
 from __future__ import annotations
 
+import itertools
 import os
+import uuid
 from typing import Iterable, Iterator
 
 from bedflux.errors import InputError
 from bedflux.ensembles.members import MemberResult, run_member
-from bedflux.ensembles.spec import EnsembleSpec
+from bedflux.ensembles.spec import EnsembleSpec, MemberDraw
 
 #: environment of local workers: one BLAS thread each
 SINGLE_THREAD_ENV = {name: "1" for name in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS",
                                             "VECLIB_MAXIMUM_THREADS", "NUMEXPR_NUM_THREADS")}
-#: members in flight per worker thread
+#: tasks in flight per worker thread
 WINDOW_PER_WORKER = 4
+#: a task of quick members runs about this long (s)
+TASK_SECONDS = 0.25
+#: most members in one task
+CHUNK_MAX = 64
 
 
 class Engine:
@@ -85,12 +93,25 @@ def worker_threads(client) -> int:
     return max(1, sum(client.nthreads().values()))
 
 
-def run_members(spec: EnsembleSpec, indices: Iterable[int], client=None, window: int | None = None
-                ) -> Iterator[MemberResult]:
+def run_chunk(spec: EnsembleSpec, draws: list[MemberDraw]) -> list[MemberResult]:
+    """Run several members in one task (for members so quick that a task each would cost more in
+    scheduling than in running)."""
+    return [run_member(spec, d) for d in draws]
+
+
+def chunk_size(member_seconds: float) -> int:
+    """Members per task: enough to make a task last about :data:`TASK_SECONDS` (at most
+    :data:`CHUNK_MAX`), one for members that take that long by themselves."""
+    return int(min(CHUNK_MAX, max(1, TASK_SECONDS // max(member_seconds, 1e-6))))
+
+
+def run_members(spec: EnsembleSpec, indices: Iterable[int], client=None, window: int | None = None,
+                chunk: int = 1) -> Iterator[MemberResult]:
     """Run the members ``indices`` and yield each result as it finishes.
 
     Without a client the members run one after another in this process (the same numbers: a
-    member's draws depend on the seed and its index only).
+    member's draws depend on the seed and its index only). With one, each task runs ``chunk``
+    members and at most ``window`` tasks are in flight.
     """
     if client is None:
         for i in indices:
@@ -101,16 +122,16 @@ def run_members(spec: EnsembleSpec, indices: Iterable[int], client=None, window:
     window = window or WINDOW_PER_WORKER * worker_threads(client)
     shared = client.scatter(spec, broadcast=True, hash=False)
     todo = iter(indices)
-    draws = {}
+    chunks: dict[str, list[MemberDraw]] = {}
     pending = as_completed()
 
     def submit() -> bool:
-        i = next(todo, None)
-        if i is None:
+        draws = [spec.draw(i) for i in itertools.islice(todo, chunk)]
+        if not draws:
             return False
-        draw = spec.draw(i)
-        future = client.submit(run_member, shared, draw, pure=False, key=f"bedflux-member-{i}-{id(draws)}")
-        draws[future.key] = draw
+        future = client.submit(run_chunk, shared, draws, pure=False,
+                               key=f"bedflux-members-{draws[0].index}-{uuid.uuid4().hex[:8]}")
+        chunks[future.key] = draws
         pending.add(future)
         return True
 
@@ -118,11 +139,11 @@ def run_members(spec: EnsembleSpec, indices: Iterable[int], client=None, window:
         if not submit():
             break
     for future in pending:
-        draw = draws.pop(future.key)
+        draws = chunks.pop(future.key)
         try:
-            result = future.result()
+            results = future.result()
         except Exception as err:  # the task itself died (a worker lost, a result that would not travel)
-            result = MemberResult(draw.index, draw.values, failure=f"{type(err).__name__}: {err}")
+            results = [MemberResult(d.index, d.values, failure=f"{type(err).__name__}: {err}") for d in draws]
         future.release()
-        yield result
+        yield from results
         submit()

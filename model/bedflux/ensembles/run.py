@@ -120,11 +120,11 @@ def ensemble(scenario: Scenario, members: int, uncertain: Sequence[Mapping[str, 
 
 
 def run_spec(spec: EnsembleSpec, client=None, progress: Callable[[float], None] | None = None,
-             scratch: Path | None = None) -> xr.Dataset:
+             scratch: Path | None = None, chunk: int = 1) -> xr.Dataset:
     """Run a checked ensemble (see :func:`ensemble`); with ``scratch``, members stream to part
-    files there as they finish."""
+    files there as they finish; on a client, ``chunk`` members go to a task."""
     gather = Gatherer(spec, scratch)
-    for result in run_members(spec, range(spec.members), client):
+    for result in run_members(spec, range(spec.members), client, chunk=chunk):
         gather.add(result)
         if progress is not None:
             progress(gather.done / spec.members)
