@@ -4,7 +4,8 @@ correlation, and a zone multiplier enters the model as Darcy's law says.
 Sources: the exponential covariance C(r) = s^2 exp(-r / l) and the Gaussian C(r) = s^2 exp(-(r / l)^2)
 with the length scale l as GSTools defines them (Mueller, Schueler, Zech, Attinger & Heße 2022,
 Geosci. Model Dev. 15, 3161, and the GSTools model docs; the exponential form also in Gelhar 1993,
-Stochastic Subsurface Hydrology, eq. 2.6.7, from memory); the sampling error of a mean (s / sqrt(n)),
+Stochastic Subsurface Hydrology, eq. 2.6.7, from memory); simple kriging with one datum
+(Journel & Huijbregts 1978, Mining Geostatistics, from memory); the sampling error of a mean (s / sqrt(n)),
 of a variance (s^2 sqrt(2 / (n - 1)) for normal samples) and of a correlation coefficient
 ((1 - rho^2) / sqrt(n), Fisher 1915) - textbook statistics; Darcy's law for layers in series
 (Freeze & Cherry 1979, ch. 2).
@@ -94,3 +95,26 @@ def test_zone_multiplier_is_darcy_in_series():
     # the sand (multiplier 1 there) is untouched, and the median bed (all m = 1) is the zone's value
     assert float(bedflux.simulate(s, fields={"bed.kv": np.ones_like(m)})["bed_flux"][0]) == pytest.approx(
         (BOTTOM_HEAD - STAGE) / (BED_THICKNESS / kv + SAND_THICKNESS / SAND_KV), rel=1e-10)
+
+
+@pytest.mark.slow
+def test_conditioned_field_honours_the_data_and_simple_kriging():
+    # one measured value: every member passes through it, and a cell at lag h along the layering
+    # has the simple-kriging mean rho(h) z_d and variance 1 - rho(h)^2 (in units of the field:
+    # Journel & Huijbregts 1978, Mining Geostatistics, simple kriging with one datum, from memory)
+    s = section()
+    grid = build_grid(s)
+    j0, row = 2, 3
+    x0, depth0 = float(grid.xc[j0]), float(grid.ground[j0] - grid.z_centre[row, j0])
+    median, k_data = 1e-5, 1e-5 * 10 ** 0.6  # z_d = 0.6 / SD_LOG10 = 1.2
+    rf = parse_field({"zone": "bed", "property": "kv", "sd_log10": SD_LOG10, "along": ALONG, "across": ACROSS,
+                      "condition": [{"x": x0, "depth": depth0, "k": k_data}]}, "test", s.zone_names())
+    f = np.stack([np.log10(rf.multipliers(grid, seed, median)["bed.kv"]) for seed in range(FIELDS)]) / SD_LOG10
+    np.testing.assert_allclose(f[:, row, j0], 0.6 / SD_LOG10, rtol=1e-6)
+    z_d = 0.6 / SD_LOG10
+    for lag_m in (ALONG / 2, ALONG):
+        rho = math.exp(-lag_m / ALONG)
+        v = f[:, row, j0 + round(lag_m / 0.25)]
+        var = 1 - rho**2
+        assert abs(v.mean() - rho * z_d) < Z * math.sqrt(var / FIELDS), (lag_m, v.mean(), rho * z_d)
+        assert abs(v.var(ddof=1) - var) < Z * var * math.sqrt(2.0 / (FIELDS - 1)), (lag_m, v.var(), var)

@@ -48,7 +48,8 @@ def run_member(spec: EnsembleSpec, draw: MemberDraw) -> MemberResult:
         if spec.fields:
             grid = build_grid(scenario)
             for rf, seed in zip(spec.fields, draw.field_seeds):
-                multipliers.update(rf.multipliers(grid, seed))
+                median = scenario.value_at(f"{rf.zone}.{rf.property}") if rf.condition else None
+                multipliers.update(rf.multipliers(grid, seed, median))
         ds = simulate(scenario, fields=multipliers or None)
         times = ds["time"].values if "time" in ds.dims else None
         result = MemberResult(draw.index, draw.values, times=times, exchange=ds["exchange"].values,
