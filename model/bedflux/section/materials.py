@@ -276,6 +276,8 @@ def _zone_multipliers(scenario: Scenario, grid: Grid, cover: ZoneCover,
     out: dict[str, dict[int, np.ndarray]] = {}
     for key in [k for k in fields if "." in k]:
         zone, _, prop = key.partition(".")
+        if prop in RENAMED_FIELDS:
+            raise InputError(f"'{key}' was renamed; pass it as '{zone}.{RENAMED_FIELDS[prop]}'", where="fields")
         if zone not in names or prop not in PROPERTIES:
             raise InputError(f"unknown zone multiplier '{key}'; write ZONE.PROPERTY with a zone of "
                              f"{', '.join(names)} and a property of {', '.join(PROPERTIES)}", where="fields")
