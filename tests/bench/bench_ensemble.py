@@ -35,7 +35,7 @@ from bedflux.ensembles.spec import MemberDraw, build_spec, load_ensemble
 
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT / "tests" / "ensemble"))
-from columns import column  # noqa: E402
+from ensemble_columns import column  # noqa: E402
 
 
 def best(f, repeats: int) -> float:

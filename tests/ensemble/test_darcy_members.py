@@ -17,7 +17,7 @@ from scipy import stats
 import bedflux
 from bedflux.ensembles.spec import build_spec
 
-from columns import column, series_flux
+from ensemble_columns import column, series_flux
 
 MEDIAN = 1e-6   # m/s
 SD_LOG10 = 0.4  # decades

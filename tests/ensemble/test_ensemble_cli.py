@@ -12,7 +12,7 @@ import tomli_w
 
 from bedflux.cli import main
 
-from columns import column
+from ensemble_columns import column
 
 ROOT = Path(__file__).resolve().parents[2]
 GOOD = {"scenario": "column.toml", "members": 6, "seed": 1,

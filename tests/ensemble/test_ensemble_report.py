@@ -14,7 +14,7 @@ import tomli_w
 
 from bedflux.cli import main
 
-from columns import column, series_flux
+from ensemble_columns import column, series_flux
 
 
 def test_report_shows_ranges_beside_the_run(tmp_path):

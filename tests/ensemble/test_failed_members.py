@@ -17,7 +17,7 @@ from bedflux.cli import main
 from bedflux.errors import SolverError
 from bedflux.ensembles import members as member_module
 
-from columns import column, series_flux
+from ensemble_columns import column, series_flux
 
 K_MAX = 1.0  # m/s
 

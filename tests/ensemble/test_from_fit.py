@@ -20,7 +20,7 @@ from bedflux.calibration import fit
 from bedflux.calibration.outputs import write_fit
 from bedflux.ensembles.spec import build_spec
 
-from columns import column
+from ensemble_columns import column
 
 DRAWS = 3000
 Z = 4.0

@@ -8,7 +8,7 @@ from bedflux.ensembles.members import run_member
 from bedflux.ensembles.run import Gatherer
 from bedflux.ensembles.spec import build_spec
 
-from columns import column
+from ensemble_columns import column
 
 
 def test_parts_read_back_as_in_memory(tmp_path):

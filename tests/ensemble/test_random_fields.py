@@ -21,7 +21,7 @@ import bedflux
 from bedflux.section.grid import build_grid
 from bedflux.ensembles.fields import parse_field
 
-from columns import BED_THICKNESS, BOTTOM_HEAD, DZ, SAND_KV, SAND_THICKNESS, STAGE, column
+from ensemble_columns import BED_THICKNESS, BOTTOM_HEAD, DZ, SAND_KV, SAND_THICKNESS, STAGE, column
 
 FIELDS = 200      # independent fields (seeds)
 SD_LOG10 = 0.5

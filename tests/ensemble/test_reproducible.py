@@ -20,7 +20,7 @@ import xarray as xr
 
 import bedflux
 
-from columns import column
+from ensemble_columns import column
 
 ROOT = Path(__file__).resolve().parents[2]
 UNCERTAIN = [{"path": "bed.kv", "distribution": "lognormal", "median": 1e-6, "sd_log10": 0.4},
