@@ -18,6 +18,7 @@ member whose task dies with its worker is recorded as failed, like a member whos
 from __future__ import annotations
 
 import itertools
+import logging
 import os
 import uuid
 from typing import Iterable, Iterator
@@ -76,8 +77,10 @@ class Engine:
                                  "with 'dask scheduler' and give its address, e.g. tcp://127.0.0.1:8786",
                                  where="--scheduler") from None
         else:
+            # silence_logs: the workers' start and stop chatter stays out of the command's output
             self._cluster = LocalCluster(n_workers=self.workers, threads_per_worker=1, processes=True,
-                                         dashboard_address=None, env=dict(SINGLE_THREAD_ENV))
+                                         dashboard_address=None, env=dict(SINGLE_THREAD_ENV),
+                                         silence_logs=logging.ERROR)
             self.client = Client(self._cluster)
         return self
 
