@@ -62,3 +62,22 @@ def test_an_ensemble_runs_on_the_fit(fitted):
     ds = bedflux.ensemble(s, 5, seed=1, from_fit=folder)
     assert not ds["failed"].any()
     assert list(ds["parameter"].values) == ["bed.kv", "sides.bottom.head"]
+
+
+def test_the_deterministic_run_of_a_fit_ensemble_is_the_best_fit(fitted, tmp_path):
+    # the answer beside the ranges is the calibrated scenario's (Darcy for the best kv and head:
+    # Freeze & Cherry 1979, ch. 2), not the scenario as written
+    import json
+
+    import tomli_w
+
+    from bedflux.cli import main
+    from ensemble_columns import BED_THICKNESS, SAND_KV, SAND_THICKNESS, STAGE
+
+    s, result, folder = fitted
+    (tmp_path / "column.toml").write_text(tomli_w.dumps(dict(s.raw)))
+    (tmp_path / "ens.toml").write_text(f'scenario = "column.toml"\nmembers = 4\nfrom_fit = "{folder}"\n')
+    assert main(["ensemble", str(tmp_path / "ens.toml"), "-o", str(tmp_path / "out"), "-q", "--workers", "0"]) == 0
+    det = json.loads((tmp_path / "out" / "ensemble_summary.json").read_text())["deterministic"]["net_exchange"]
+    kv, head = result.best["bed.kv"], result.best["sides.bottom.head"]
+    assert det == pytest.approx((head - STAGE) / (BED_THICKNESS / kv + SAND_THICKNESS / SAND_KV), rel=1e-6)

@@ -27,8 +27,8 @@ def _run(args: argparse.Namespace) -> int:
     inputs = [Path(args.file), *input_files(spec.scenario)]
     with staged_outputs(args.output, "ensemble", inputs, need, how, provenance=True) as stage:
         with engine:
-            # the scenario as written, for the answers beside the ranges
-            reference = run_member(spec, MemberDraw(-1, {}, ()))
+            # the scenario as written (with a fit's best values), for the answers beside the ranges
+            reference = run_member(spec, MemberDraw(-1, spec.fit.best() if spec.fit else {}, ()))
             bar = ProgressBar(enabled=not args.quiet, label="members")
             try:
                 ds = run_spec(spec, engine.client, bar.update, scratch=stage.parent,

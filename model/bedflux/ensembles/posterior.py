@@ -35,6 +35,11 @@ class FitPosterior:
     high: np.ndarray
     log: np.ndarray
 
+    def best(self) -> dict[str, float]:
+        """The fit's best values (SI) by path."""
+        value = np.where(self.log, 10.0 ** self.mean, self.mean)
+        return {p: float(v) for p, v in zip(self.paths, value)}
+
     def draw(self, rng: np.random.Generator) -> dict[str, float]:
         """One set of values (SI) by path."""
         for _ in range(MAX_REDRAWS):
