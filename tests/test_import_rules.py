@@ -9,7 +9,8 @@ Floors, bottom up (DEVELOPERS.md states the same rule):
    ``flowpaths``          flow paths and residence times traced through a solved run
 4. ``outputs``            files, summary, figures of a result (never discretises or solves)
 5. ``field``, ``report``  field sheets (knows nothing of the model), the report (reads outputs)
-6. ``calibration``, ``planning``  (planning may use calibration's fit, never the reverse)
+6. ``calibration``, ``planning``, ``ensembles``  (planning and ensembles may use calibration's fit, never
+   the reverse)
 7. ``cli``, ``bench``, the package's ``__init__``
 
 The test parses every module (imports inside functions count too) and fails on an upward or
@@ -26,9 +27,9 @@ PACKAGE = Path(__file__).resolve().parents[1] / "model" / "bedflux"
 
 FLOOR = {"errors": 0, "version": 0, "scenario": 1, "section": 2, "forward": 3, "flowpaths": 3,
          "outputs": 4,
-         "field": 5, "report": 5, "calibration": 6, "planning": 6, "cli": 7, "bench": 7, "": 7}
+         "field": 5, "report": 5, "calibration": 6, "planning": 6, "ensembles": 6, "cli": 7, "bench": 7, "": 7}
 #: sideways imports allowed on one floor (from room -> to room)
-SIDEWAYS = {("planning", "calibration")}
+SIDEWAYS = {("planning", "calibration"), ("ensembles", "calibration")}
 #: rooms that may not import certain lower rooms at all
 FORBIDDEN = {
     "field": {"section", "forward", "calibration", "planning", "report"},  # knows nothing of the model

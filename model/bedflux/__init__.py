@@ -6,6 +6,7 @@ report.
 
 The public names are imported when first used, so ``import bedflux`` and ``bedflux --help`` stay
 quick: ``bedflux.load``, ``bedflux.simulate``, ``bedflux.fit``, ``bedflux.plan``, ``bedflux.flowpaths``,
+``bedflux.ensemble``,
 ``bedflux.Scenario``.
 """
 from __future__ import annotations
@@ -24,9 +25,11 @@ _PUBLIC = {
     "fit": "bedflux.calibration.estimate",
     "plan": "bedflux.planning.placement",
     "flowpaths": "bedflux.flowpaths",
+    "ensemble": "bedflux.ensembles.run",
 }
 
-__all__ = ["InputError", "SolverError", "Scenario", "load", "simulate", "fit", "plan", "flowpaths", "__version__"]
+__all__ = ["InputError", "SolverError", "Scenario", "load", "simulate", "fit", "plan", "flowpaths", "ensemble",
+           "__version__"]
 
 
 def __getattr__(name: str) -> Any:

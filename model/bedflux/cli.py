@@ -104,7 +104,8 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 #: Verbs defined in their own rooms: each module has ``register(subparsers)``.
-_VERB_MODULES = ("bedflux.calibration.command", "bedflux.planning.command", "bedflux.report.command")
+_VERB_MODULES = ("bedflux.calibration.command", "bedflux.planning.command", "bedflux.report.command",
+                 "bedflux.ensembles.command")
 _EXTRA_VERBS = [import_module(name).register for name in _VERB_MODULES]
 
 

@@ -19,7 +19,7 @@ from bedflux.version import __version__
 from bedflux.errors import InputError
 
 #: The commands that write an output folder.
-VERBS = ("run", "field", "fit", "plan")
+VERBS = ("run", "field", "fit", "plan", "ensemble")
 
 
 def manifest_name(verb: str) -> str:

@@ -7,6 +7,7 @@ run        ``summary.json`` with a net exchange (beside ``result.nc``)
 field      ``field_summary.json``
 fit        ``fit_results.json``
 plan       ``plan_summary.json`` or ``plan_table.csv``
+ensemble   ``ensemble_summary.json``
 =========  ===========================================================
 
 The folder is searched recursively; hidden folders (staging folders of a run in progress) are
@@ -38,6 +39,7 @@ FIELD_FIGURES = ("transect_profiles.png", "bed_flux_map.png", "gradient_vs_flux.
                  "thermal_flux.png")
 FIT_FIGURES = ("observed_vs_simulated.png", "residuals.png", "parameter_intervals.png")
 PLAN_FIGURES = ("plan_map.png", "detectability.png")
+ENSEMBLE_FIGURES = ("ensemble_fan.png", "ensemble_losing.png", "ensemble_histograms.png")
 #: Field tables shown in the report (others are listed by name).
 FIELD_TABLES = ("seepage_meters.csv", "piezometers.csv", "slug_tests.csv", "permeameter_tests.csv",
                 "consistency.csv", "flags.csv", "flagged_observations.csv", "rejected.csv", "not_read.csv")
@@ -53,14 +55,15 @@ class Output:
     Attributes
     ----------
     kind
-        ``run``, ``field``, ``fit`` or ``plan``.
+        ``run``, ``field``, ``fit``, ``plan`` or ``ensemble``.
     folder
         The folder holding the marker file.
     label
         The folder relative to the project folder (``.`` for the project folder itself).
     data
         The parsed marker file(s): ``summary`` (run), ``field_summary`` (field), ``fit_results``
-        (fit), ``plan_summary`` and ``plan_table`` (plan; either may be None).
+        (fit), ``plan_summary`` and ``plan_table`` (plan; either may be None),
+        ``ensemble_summary`` (ensemble).
     figures
         Figure files present, in display order.
     inputs
@@ -242,6 +245,18 @@ def _plan(folder: Path, root: Path, trust: _Trusted) -> Output:
     return out
 
 
+def _ensemble(folder: Path, root: Path, trust: _Trusted) -> Output:
+    summary = read_json(folder / "ensemble_summary.json")
+    if not isinstance(summary.get("answers"), dict):
+        raise InputError("the key 'answers' is missing or not a table; re-run bedflux ensemble",
+                         str(folder / "ensemble_summary.json"))
+    out = Output("ensemble", folder, _label(folder, root), {"ensemble_summary": summary},
+                 trust.present(ENSEMBLE_FIGURES), trust.inputs(), files=[folder / "ensemble_summary.json"])
+    if trust("ensemble_failed.csv"):
+        out.tables["ensemble_failed.csv"] = folder / "ensemble_failed.csv"
+    return out
+
+
 def _read_output(marker: Path, kind: str, reader, root: Path, skipped: list[tuple[Path, str]]) -> Output | None:
     """One output through its manifest, or None (with the reason in ``skipped``)."""
     folder = marker.parent
@@ -308,6 +323,7 @@ def collect(folder: str | Path) -> Project:
         "fit_results.json": ("fit", _fit),
         "plan_summary.json": ("plan", _plan),
         "plan_table.csv": ("plan", _plan),
+        "ensemble_summary.json": ("ensemble", _ensemble),
     }
     tried: set[tuple[str, Path]] = set()
     for name, (kind, reader) in markers.items():
@@ -328,6 +344,6 @@ def collect(folder: str | Path) -> Project:
                          "plan_summary.json or plan_table.csv of bedflux plan, each with the manifest "
                          "its command writes, in this folder and below); run those commands with -o "
                          f"inside this folder first{why}", str(root))
-    order = {"run": 0, "field": 1, "fit": 2, "plan": 3}
+    order = {"run": 0, "field": 1, "fit": 2, "plan": 3, "ensemble": 4}
     outputs = sorted(found.values(), key=lambda o: (order[o.kind], o.label))
     return Project(root, outputs, sorted(set(skipped)))

@@ -28,6 +28,7 @@ TOPICS = {
     "temperature": "What the temperature records say",
     "conductivity": "How well is the bed conductivity known?",
     "next": "Where to measure next",
+    "ranges": "How sure are these answers?",
 }
 
 _KIND_WORDS = {"seepage": "seepage meter", "vhg": "mini-piezometer (vertical gradient)",
@@ -594,6 +595,45 @@ def next_finding(plans: Iterable[tuple[str, dict | None, pd.DataFrame | None]],
     return f
 
 
+def _range_text(r: dict, show) -> str:
+    return f"{show(r['median'])} (5-95 %: {show(r['p5'])} to {show(r['p95'])})"
+
+
+def ensemble_finding(summary: dict, source: str = ".") -> Finding:
+    """The ranges of an ensemble: the probability of a reversal, the medians and 5-95 % ranges of
+    its answers, beside the deterministic run."""
+    f = Finding("ranges", source)
+    n, ran, failed = summary.get("members"), summary.get("members_ran"), summary.get("members_failed")
+    f.sentences.append(f"Over {n} members of an ensemble ({ran} ran"
+                       + (f", {failed} failed and are left out" if failed else "") + "):")
+    det = summary.get("deterministic") or {}
+    answers = summary.get("answers") or {}
+    if summary.get("transient"):
+        p = summary.get("probability_of_reversal")
+        if finite(p):
+            f.sentences.append(f"the net exchange reverses in {percent(p)} of the members.")
+        for key, words, show in (("reversal_duration", "A reversal lasts", hours),
+                                 ("bank_storage", "Bank storage takes in", lambda v: f"{number(v)} m³ per metre"),
+                                 ("penetration_depth", "Stream water reaches", length)):
+            r = answers.get(key) or {}
+            if r.get("members"):
+                text = f"{words} {_range_text(r, show)}"
+                if finite(det.get(key)):
+                    text += f"; the deterministic run gives {show(det[key])}"
+                f.sentences.append(text + ".")
+    else:
+        r = answers.get("net_exchange") or {}
+        if r.get("members"):
+            text = f"the net exchange is {_range_text(r, signed_per_metre)}"
+            if finite(det.get("net_exchange")):
+                text += f"; the deterministic run gives {signed_per_metre(det['net_exchange'])}"
+            f.sentences.append(text + ".")
+        p = summary.get("probability_of_losing_reach")
+        if finite(p):
+            f.sentences.append(f"The reach loses water in {percent(p)} of the members.")
+    return f
+
+
 def findings(project, unit: str = "m/d") -> list[Finding]:
     """Every finding of a project (a :class:`bedflux.report.collect.Project`), grouped by topic."""
     from bedflux.report.collect import read_table
@@ -629,5 +669,6 @@ def findings(project, unit: str = "m/d") -> list[Finding]:
         out.append(conductivity_finding(res, label))
     plans = [(o.label, o.data["plan_summary"], o.data["plan_table"]) for o in project.of_kind("plan")]
     out.append(next_finding(plans, fits))
+    out += [ensemble_finding(o.data["ensemble_summary"], o.label) for o in project.of_kind("ensemble")]
     order = list(TOPICS)
     return sorted(out, key=lambda f: order.index(f.topic))

@@ -49,6 +49,11 @@ CAPTIONS = {
     ("fit", "parameter_intervals.png"): "Best values and 95 % intervals, relative to the best value.",
     ("plan", "plan_map.png"): "Where the next instruments would go, in ranked order.",
     ("plan", "detectability.png"): "How well a reversal could be detected by each candidate instrument.",
+    ("ensemble", "ensemble_fan.png"): "Stage (median and 5-95 %) above the net exchange of the ensemble's members: "
+                                      "median, 25-75 % and 5-95 % bands, and the deterministic run (dashed).",
+    ("ensemble", "ensemble_losing.png"): "Share of the members whose bed loses water at each x, at some time "
+                                         "and at the end of the run.",
+    ("ensemble", "ensemble_histograms.png"): "How the members' answers are spread.",
 }
 
 CAUTIONS = [
@@ -341,6 +346,27 @@ def _plan_section(o: Output) -> dict:
     return section(o.anchor, "Plan for the next measurements", blocks, f"folder {o.label}")
 
 
+def _ensemble_section(o: Output) -> dict:
+    s = o.data["ensemble_summary"]
+    det = s.get("deterministic") or {}
+    rows = [{"answer": k.replace("_", " "), "median": r.get("median"), "5 %": r.get("p5"), "95 %": r.get("p95"),
+             "members": r.get("members"), "deterministic run": det.get(k)}
+            for k, r in (s.get("answers") or {}).items() if isinstance(r, dict)]
+    keys = [(k.replace("_", " "), cell(v) if isinstance(v, float) else str(v)) for k, v in s.items()
+            if k in ("members", "members_ran", "members_failed", "seed", "probability_of_reversal",
+                     "probability_still_reversed_at_end", "probability_of_losing_reach")]
+    blocks = [keys_table(keys, "Ensemble")]
+    blocks += table(pd.DataFrame(rows), "Answers over the members that ran (SI: s, m³/m, m, m²/s) beside "
+                                        "the deterministic run")
+    blocks += [figure(fig, "ensemble", f"{fig.stem} of the ensemble") for fig in o.figures]
+    if "ensemble_failed.csv" in o.tables:
+        failed = read_table(o.tables["ensemble_failed.csv"])
+        if not failed.empty:
+            blocks += table(failed, "Failed members", source=f"{o.label}/ensemble_failed.csv")
+    blocks += inputs(o, "Ensemble file and scenario")
+    return section(o.anchor, "Ensemble", blocks, f"folder {o.label}")
+
+
 def _provenance_section(project: Project, created: str) -> dict:
     blocks = [keys_table([("report written", created), ("by bedflux", __version__),
                           ("from the folder", str(project.folder))])]
@@ -405,9 +431,12 @@ def render(project: Project, unit: str = "m/d") -> str:
         elif o.kind == "plan":
             sections.append(_plan_section(o))
             toc.append((o.anchor, f"Plan ({o.label})"))
+        elif o.kind == "ensemble":
+            sections.append(_ensemble_section(o))
+            toc.append((o.anchor, f"Ensemble ({o.label})"))
     sections.append(_provenance_section(project, created))
     toc.append(("provenance", "Provenance"))
-    kinds = sorted({o.kind for o in project.outputs}, key=["run", "field", "fit", "plan"].index)
+    kinds = sorted({o.kind for o in project.outputs}, key=["run", "field", "fit", "plan", "ensemble"].index)
     env = jinja2.Environment(loader=jinja2.PackageLoader("bedflux.report", "templates"),
                              autoescape=True, undefined=jinja2.StrictUndefined, keep_trailing_newline=True)
     return env.get_template("report.html").render(

@@ -147,7 +147,8 @@ class Materials:
 
     ``zone`` is the zone at the cell centre (for figures); the properties are the averages over
     the zones a cell holds (see the module docstring). ``cover`` and ``table`` keep what is needed
-    for :meth:`derivative`; ``replaced`` names the properties given as user arrays.
+    for :meth:`derivative`; ``replaced`` names the properties given as user arrays, ``multiplied``
+    those whose zone values carry per-cell multipliers.
     """
 
     kh: np.ndarray
@@ -161,6 +162,7 @@ class Materials:
     cover: ZoneCover | None = None
     table: Mapping[str, np.ndarray] | None = None
     replaced: frozenset = frozenset()
+    multiplied: frozenset = frozenset()
     _memo: dict = field(default_factory=dict, repr=False, compare=False)
     #: what depends on the geometry only (the cover's overlaps, zone fractions; made when first
     #: needed, for derivatives and new zone values), shared with :meth:`with_zone_values` copies
@@ -181,8 +183,8 @@ class Materials:
         """The materials for new zone values (``table``: per property, one value per zone) on the
         same geometry: the averages recomputed from the cached volume fractions, as
         :func:`materials` computes them. Not for materials with user arrays (``replaced``)."""
-        if self.replaced:
-            raise ValueError("materials with user arrays cannot take new zone values")
+        if self.replaced or self.multiplied:
+            raise ValueError("materials with user arrays or zone multipliers cannot take new zone values")
         table = {p: np.asarray(table[p], dtype=float) for p in PROPERTIES}
         changed = [p for p in PROPERTIES if not np.array_equal(table[p], self.table[p])]
         arrays = {p: getattr(self, p) for p in PROPERTIES}
@@ -202,6 +204,8 @@ class Materials:
         g = self.grid
         if prop in self.replaced:
             return np.zeros((g.nz, g.nx))
+        if prop in self.multiplied:
+            raise ValueError(f"no sensitivities of {prop} under per-cell zone multipliers")
         f = self._fraction(zone)
         value = self.table[prop][zone]
         if prop == "kv":
@@ -248,6 +252,9 @@ def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] |
         Optional ``(nz, nx)`` arrays (SI) for any of kh, kv, specific_storage, specific_yield and porosity
         that replace the zone values:
         a heterogeneous field from the Python API. Values of inactive cells are ignored.
+        A key ``ZONE.PROPERTY`` (``bed.kv``) gives instead a positive per-cell multiplier of that
+        zone's value (a random field over a zone): each cell's share of the zone then carries the
+        zone's value times the cell's multiplier, averaged with its other zones as above.
 
     Raises
     ------
@@ -257,6 +264,8 @@ def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] |
     """
     cover = zone_cover(scenario, grid)
     table = zone_table(scenario)
+    fields = dict(fields or {})
+    scale = _zone_multipliers(scenario, grid, cover, fields)
     active = grid.active[:, cover.strip_col]
     covered = np.zeros(len(scenario.zones), dtype=bool)
 
@@ -267,7 +276,7 @@ def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] |
             covered[np.unique(own[((f > 0) & active).any(axis=0)])] = True
             yield j, f
 
-    arrays = _zone_averages(cover, grid, noting_cover(cover.overlaps(grid)), table)
+    arrays = _zone_averages(cover, grid, noting_cover(cover.overlaps(grid)), table, scale=scale)
     _require_cover(scenario, grid, covered)
     for name, value in (fields or {}).items():
         if name in RENAMED_FIELDS:
@@ -289,7 +298,7 @@ def materials(scenario: Scenario, grid: Grid, fields: Mapping[str, np.ndarray] |
         arrays[name] = np.where(grid.active, a, arrays[name])
     return Materials(arrays["kh"], arrays["kv"], arrays["specific_storage"], arrays["specific_yield"],
                      arrays["porosity"], _centre_zone(cover, grid), tuple(z.name for z in scenario.zones), grid,
-                     cover, table, frozenset(fields or {}))
+                     cover, table, frozenset(fields), frozenset(scale))
 
 
 def zone_table(scenario: Scenario) -> dict[str, np.ndarray]:
@@ -298,15 +307,19 @@ def zone_table(scenario: Scenario) -> dict[str, np.ndarray]:
 
 
 def _zone_averages(cover: ZoneCover, grid: Grid, overlaps: Iterable, table: Mapping[str, np.ndarray],
-                   properties: tuple | list = PROPERTIES) -> dict[str, np.ndarray]:
+                   properties: tuple | list = PROPERTIES,
+                   scale: Mapping[str, Mapping[int, np.ndarray]] | None = None) -> dict[str, np.ndarray]:
     """``(nz, nx)`` arrays of the ``properties``: the averages of the zone values (see the module
-    docstring) over the volume fractions ``overlaps`` (:meth:`ZoneCover.overlaps`, read once)."""
+    docstring) over the volume fractions ``overlaps`` (:meth:`ZoneCover.overlaps`, read once);
+    ``scale`` (property -> zone -> ``(nz, n_strips)`` multipliers) makes a zone's value vary per cell."""
     sums = {p: np.zeros((grid.nz, cover.strip_col.size)) for p in properties}
     for j, f in overlaps:
         own = cover.owner[:, j]
         for p in properties:
-            v = 1.0 / table[p][own] if p == "kv" else table[p][own]
-            sums[p] += f * v[None, :]
+            value = table[p][own][None, :]
+            for zone, m in (scale or {}).get(p, {}).items():
+                value = np.where(own[None, :] == zone, value * m, value)
+            sums[p] += f * (1.0 / value if p == "kv" else value)
     arrays = {}
     if "kv" in sums:
         arrays["kv"] = cover.to_columns(grid, 1.0 / sums.pop("kv"))
@@ -315,3 +328,26 @@ def _zone_averages(cover: ZoneCover, grid: Grid, overlaps: Iterable, table: Mapp
     for p, s in sums.items():
         arrays[p] = cover.to_columns(grid, s)
     return arrays
+
+
+def _zone_multipliers(scenario: Scenario, grid: Grid, cover: ZoneCover,
+                      fields: dict[str, np.ndarray]) -> dict[str, dict[int, np.ndarray]]:
+    """Take the ``ZONE.PROPERTY`` entries out of ``fields``: property -> zone index -> the
+    ``(nz, n_strips)`` multiplier of that zone's value in each cell-strip."""
+    names = [z.name for z in scenario.zones]
+    out: dict[str, dict[int, np.ndarray]] = {}
+    for key in [k for k in fields if "." in k]:
+        zone, _, prop = key.partition(".")
+        if prop in RENAMED_FIELDS:
+            raise InputError(f"'{key}' was renamed; pass it as '{zone}.{RENAMED_FIELDS[prop]}'", where="fields")
+        if zone not in names or prop not in PROPERTIES:
+            raise InputError(f"unknown zone multiplier '{key}'; write ZONE.PROPERTY with a zone of "
+                             f"{', '.join(names)} and a property of {', '.join(PROPERTIES)}", where="fields")
+        m = np.asarray(fields.pop(key), dtype=float)
+        if m.shape != (grid.nz, grid.nx):
+            raise InputError(f"multiplier '{key}' has shape {m.shape}; the grid is (nz, nx) = "
+                             f"{(grid.nz, grid.nx)}", where="fields")
+        if not np.all(np.isfinite(m[grid.active]) & (m[grid.active] > 0)):
+            raise InputError(f"multiplier '{key}' must be finite and positive in active cells", where="fields")
+        out.setdefault(prop, {})[names.index(zone)] = np.where(grid.active, m, 1.0)[:, cover.strip_col]
+    return out
