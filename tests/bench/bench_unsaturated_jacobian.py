@@ -18,10 +18,9 @@ import os
 import time
 import warnings
 
+import bedflux
 import numpy as np
 import pandas as pd
-
-import bedflux
 from bedflux.forward.sensitivity import Forward, free_parameters
 
 
@@ -80,9 +79,9 @@ def main() -> None:
         s = scenario(width, dx)
         fw = Forward(s, observations(width), free_parameters(s, FREE))
         m = fw.start()
-        forward = best_of(lambda: fw.predict(m), repeats)
-        with_j = best_of(lambda: fw.predict_and_jacobian(m), repeats)
-        central = best_of(lambda: fw.jacobian_fd(m), 1)
+        forward = best_of(lambda fw=fw, m=m: fw.predict(m), repeats)
+        with_j = best_of(lambda fw=fw, m=m: fw.predict_and_jacobian(m), repeats)
+        central = best_of(lambda fw=fw, m=m: fw.jacobian_fd(m), 1)
         cells = int(bedflux.simulate(s).attrs["cells"])
         extra = (with_j - forward) / forward
         print(f"| {cells:,} | {fw.n_params} | {fw.n_data} | {forward:.2f} | {with_j:.2f} | {extra:.2f} | "

@@ -13,11 +13,10 @@ from __future__ import annotations
 import copy
 import warnings
 
+import bedflux
 import numpy as np
 import pandas as pd
 import pytest
-
-import bedflux
 from bedflux.forward.sensitivity import Forward, free_parameters
 
 TRUE = {"alpha": 3.6, "n": 1.56, "kh": 1e-5}

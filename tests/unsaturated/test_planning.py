@@ -20,11 +20,10 @@ import copy
 import json
 import warnings
 
+import bedflux
 import numpy as np
 import pandas as pd
 import pytest
-
-import bedflux
 from bedflux.cli import main
 from bedflux.forward.sensitivity import Forward, free_parameters
 from bedflux.planning import plan

@@ -16,9 +16,11 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-
-from bedflux.section.retention import (SoilWater, exponential_parameter_derivatives,
-                                       van_genuchten_parameter_derivatives)
+from bedflux.section.retention import (
+    SoilWater,
+    exponential_parameter_derivatives,
+    van_genuchten_parameter_derivatives,
+)
 
 H = 1e-30
 # A loam (Carsel & Parrish 1988, class means, from memory), a sand-like soil with n > 2 and a
@@ -41,8 +43,8 @@ def complex_step(f, x):
 def test_van_genuchten_alpha_and_n(alpha, n, tr, ts):
     d = van_genuchten_parameter_derivatives(PSI, alpha, n, tr, ts)
     for i, name in enumerate(("theta", "kr")):
-        by_alpha = complex_step(lambda a: published_van_genuchten(PSI, a, n, tr, ts)[i], alpha)
-        by_n = complex_step(lambda nn: published_van_genuchten(PSI, alpha, nn, tr, ts)[i], n)
+        by_alpha = complex_step(lambda a, i=i: published_van_genuchten(PSI, a, n, tr, ts)[i], alpha)
+        by_n = complex_step(lambda nn, i=i: published_van_genuchten(PSI, alpha, nn, tr, ts)[i], n)
         np.testing.assert_allclose(getattr(d, name + "_alpha"), by_alpha, rtol=1e-9, atol=1e-14, err_msg=name)
         np.testing.assert_allclose(getattr(d, name + "_n"), by_n, rtol=1e-9, atol=1e-14, err_msg=name)
 

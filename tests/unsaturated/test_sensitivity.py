@@ -28,11 +28,10 @@ import copy
 import functools
 import warnings
 
+import bedflux
 import numpy as np
 import pandas as pd
 import pytest
-
-import bedflux
 from bedflux.forward.sensitivity import Forward, derivative_rule, free_parameters
 
 EPS = np.finfo(float).eps
@@ -178,7 +177,7 @@ def assert_taylor(r0, r1, label: str) -> None:
 @pytest.mark.parametrize("case", CASES)
 def test_analytic_jacobian_takes_one_forward_run(case):
     # no central differences behind the analytic columns: one run gives the data and J
-    _, fw, m, d, J, runs, solves = evaluate(case)
+    _, fw, _, _, J, runs, solves = evaluate(case)
     assert all(derivative_rule(fw.scenario, p.path).name != "numeric" for p in fw.free)
     assert runs == 1 and np.all(np.isfinite(J))
     if case == "steady":
@@ -187,7 +186,7 @@ def test_analytic_jacobian_takes_one_forward_run(case):
 
 def test_agrees_with_central_differences(evaluated):
     # central differences, truncation O(h^2) (Nocedal & Wright 2006, eq. 8.7); per kind of datum
-    case, fw, m, d0, J = evaluated
+    case, fw, m, _, J = evaluated
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         F = central_differences(fw, m)
@@ -233,7 +232,7 @@ def test_taylor_random_direction(smooth):
 
 def test_taylor_harness_rejects_a_wrong_jacobian():
     # the harness must fail on a slightly wrong derivative: one column 0.1 % off
-    case, fw, m, d0, J = evaluate("steady")[:5]
+    _, fw, m, d0, J = evaluate("steady")[:5]
     j = [p.path for p in fw.free].index("aquifer.retention.n")
     bad = J.copy()
     bad[:, j] *= 1.001

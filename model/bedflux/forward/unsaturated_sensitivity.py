@@ -43,13 +43,22 @@ import numpy as np
 import scipy.sparse as sp
 
 from bedflux.forward.observe import Operators, _seepage_weights, predict
-from bedflux.forward.sensitivity import DerivativeRule, face_conductance_derivative, term_conductance_derivative
+from bedflux.forward.sensitivity import (
+    DerivativeRule,
+    face_conductance_derivative,
+    term_conductance_derivative,
+)
 from bedflux.section.discretisation import Section
 from bedflux.section.retention import SoilWater
 from bedflux.section.richards import Evaluation, RichardsSystem, StepForcing, Storage
 from bedflux.section.richards_newton import NEWTON, JacobianSolver
 from bedflux.section.richards_run import _start, _stops
-from bedflux.section.richards_steps import SectionBoundaries, Stepper, run_steps, soil_water
+from bedflux.section.richards_steps import (
+    SectionBoundaries,
+    Stepper,
+    run_steps,
+    soil_water,
+)
 
 
 @dataclass
@@ -207,7 +216,7 @@ def observation_jacobian(system: RichardsSystem, ops: Operators, ev: Evaluation,
     k = next(i for i, t in enumerate(forcing.terms) if t.kind == "stream" and t.face == "top")
     term, tkr, from_face = forcing.terms[k], ev.term_kr[k], ev.term_from_face[k]
     view, terms = system.flow_view(ev, forcing)
-    w, top = _seepage_weights(view, ops, terms, source)
+    w, _ = _seepage_weights(view, ops, terms, source)
     u = system.head_u(ev.psi)
     base = term.r - term.conductance * u[term.cells]
     own = (term.conductance > 0) & ~from_face
