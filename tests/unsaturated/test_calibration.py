@@ -128,6 +128,7 @@ def pulse_observations() -> pd.DataFrame:
     return pd.DataFrame(rows, columns=["kind", "x", "depth", "time", "sigma"]).assign(value=0.0)
 
 
+@pytest.mark.slow  # about 10 s alone, 30 s on a shared machine
 def test_fit_recovers_parameters_from_noisy_transient_data():
     # synthetic data from the model at the true values plus seeded Gaussian noise of the stated
     # spread (one seed, fixed before the first run); the fitted 95 % intervals hold the truth
