@@ -19,6 +19,9 @@ _UNITS = {
 def dimension_of(path: str) -> str:
     """The dimension word of a parameter path's values (for unit strings in fit and plan files)."""
     last = path.rsplit(".", 1)[-1]
+    if ".retention." in path:
+        # van Genuchten / exponential alpha (1/m); n and the water contents are pure numbers
+        return "per_length" if last == "alpha" else "dimensionless"
     if last in ("kh", "kv", "rate", "max_rate", "flux"):
         return "velocity"
     if last == "specific_storage":

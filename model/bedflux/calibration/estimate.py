@@ -86,7 +86,15 @@ def _residual_functions(forward: Forward):
     def evaluate(m):
         key = tuple(np.round(m, 15))
         if cache.get("key") != key:
-            d, J = forward.predict_and_jacobian(m)
+            try:
+                d, J = forward.predict_and_jacobian(m)
+            except SolverError:
+                if "key" not in cache:
+                    raise
+                # a trial point where a variably saturated run does not converge: non-finite
+                # residuals make the trust-region solver reject the step and shrink the region
+                d = np.full(forward.n_data, np.nan)
+                J = np.full((forward.n_data, forward.n_params), np.nan)
             cache.update(key=key, d=d, J=J)
         return cache["d"], cache["J"]
 

@@ -14,9 +14,16 @@ Sensitivities are computed with the forward factorization reused:
   forward run (``(S/dt + theta A1) s1 = ...``, see :func:`_step_sensitivity`).
 
 The active set (submerged, seeping, ET branch) is held at the one the forward run chose, so the
-derivative is that of the branch the solution lies on. Parameters without an analytic derivative
-(for example a layer depth or the stage) fall back to central differences, and so do all
-parameters of a variably saturated run (zone conductivities and ``ZONE.retention.alpha`` / ``.n``).
+derivative is that of the branch the solution lies on.
+
+A variably saturated run (Richards' equation) takes its sensitivities by the direct method along
+the steps of the base run, one factorization of the converged Newton Jacobian per state shared by
+all parameters (:mod:`bedflux.forward.unsaturated_sensitivity`), for zone ``kh``, ``kv``,
+``specific_storage`` (``specific_yield``: zero), ``ZONE.retention.alpha`` / ``.n``,
+``recharge.rate`` and ``stream.leakance``.
+
+Parameters without an analytic derivative (for example a layer depth or the stage; and, in a
+variably saturated run, a side head or a riparian rate) fall back to central differences.
 """
 from __future__ import annotations
 
@@ -37,6 +44,13 @@ from bedflux.section.steady import SteadySolution, solve_steady
 LN10 = math.log(10.0)
 #: Derivative rules of storage parameters (no effect in a steady run).
 _STORAGE_RULES = ("zone-specific_storage", "zone-specific_yield")
+#: Rules with an analytic derivative in the linear model.
+_LINEAR_RULES = ("zone-kh", "zone-kv", "zone-specific_storage", "zone-specific_yield", "recharge", "riparian",
+                 "side-head", "leakance")
+#: Rules with an analytic derivative in a variably saturated run
+#: (:mod:`bedflux.forward.unsaturated_sensitivity`).
+VARIABLY_SATURATED_RULES = ("zone-kh", "zone-kv", "retention-alpha", "retention-n", "zone-specific_storage",
+             "zone-specific_yield", "recharge", "leakance")
 
 
 @dataclass(frozen=True)
@@ -185,7 +199,7 @@ class DerivativeRule:
     """How one parameter enters the discrete equations, and so which analytic derivative applies."""
 
     # zone-kh, zone-kv, zone-specific_storage, zone-specific_yield, recharge, riparian, side-head,
-    # leakance, numeric (central differences)
+    # leakance, retention-alpha, retention-n (variably saturated runs), numeric (central differences)
     name: str
     zone: int = -1
     side: str = ""
@@ -197,6 +211,8 @@ def derivative_rule(scenario: Scenario, path: str) -> DerivativeRule:
     names = scenario.zone_names()
     if len(parts) == 2 and parts[0] in names and parts[1] in ("kh", "kv", "specific_storage", "specific_yield"):
         return DerivativeRule(f"zone-{parts[1]}", zone=names.index(parts[0]))
+    if len(parts) == 3 and parts[0] in names and parts[1] == "retention" and parts[2] in ("alpha", "n"):
+        return DerivativeRule(f"retention-{parts[2]}", zone=names.index(parts[0]))
     if path == "recharge.rate":
         return DerivativeRule("recharge")
     if len(parts) == 3 and parts[0] == "riparian" and parts[2] == "max_rate":
@@ -220,6 +236,57 @@ def _top_position(section: Section, cols: np.ndarray) -> np.ndarray:
     return section.grid.top_row[cols] * section.grid.nx + cols
 
 
+def face_conductance_derivative(section: Section, rule: DerivativeRule, value: float
+                                ) -> tuple[np.ndarray, np.ndarray]:
+    """``d(conductance)/dp`` of the interior faces (horizontal, vertical) for a zone's kh or kv
+    (zero for other rules): ``dC/dp = C (r_lo rho_lo + r_hi rho_hi) / (r_lo + r_hi) / p`` with
+    ``r`` the half-cell resistances in series and ``rho = (dK/dp)(p/K)`` the zone's share."""
+    g = section.grid
+    m = section.materials
+    out = [np.zeros(section.hfaces.lo.size), np.zeros(section.vfaces.lo.size)]
+    if rule.name not in ("zone-kh", "zone-kv"):
+        return out[0], out[1]
+    horizontal = rule.name == "zone-kh"
+    f = section.hfaces if horizontal else section.vfaces
+    if horizontal:
+        res = half_cell_resistance(np.broadcast_to(g.dx[None, :], g.active.shape), m.kh).ravel()
+    else:
+        res = half_cell_resistance(g.thickness, m.kv).ravel()
+    r_lo, r_hi = res[f.lo_pos], res[f.hi_pos]
+    rho = _share(section, "kh" if horizontal else "kv", rule.zone, value)
+    out[0 if horizontal else 1] = f.conductance * (r_lo * rho[f.lo_pos] + r_hi * rho[f.hi_pos]) / (r_lo + r_hi) / value
+    return out[0], out[1]
+
+
+def term_conductance_derivative(section: Section, t: Term, rule: DerivativeRule, value: float
+                                ) -> np.ndarray | None:
+    """``d(conductance)/dp`` of the entries of a head-dependent boundary term for a zone's kh or
+    kv or the bed leakance (None where the term does not depend on the parameter)."""
+    g = section.grid
+    if t.face == "cell" or not np.any(t.conductance > 0):
+        return None
+    if rule.name == "leakance":
+        if t.kind == "stream" and t.face == "top":
+            inv = 1.0 / value
+            return t.conductance * (inv / (section.top_half_resistance[t.column_or_row] + inv)) / value
+        return None
+    if rule.name not in ("zone-kh", "zone-kv"):
+        return None
+    horizontal = rule.name == "zone-kh"
+    rho = _share(section, "kh" if horizontal else "kv", rule.zone, value)
+    if horizontal and t.face in ("left", "right"):
+        col = 0 if t.face == "left" else g.nx - 1
+        return t.conductance * rho[t.column_or_row * g.nx + col] / value
+    if not horizontal and t.face == "bottom":
+        return t.conductance * rho[(g.nz - 1) * g.nx + t.column_or_row] / value
+    if not horizontal and t.face == "top":
+        half = section.top_half_resistance[t.column_or_row]
+        width = g.dx[t.column_or_row] if t.width is None else t.width
+        frac = half * t.conductance / width  # half / (half + 1/leakance)
+        return t.conductance * frac * rho[_top_position(section, t.column_or_row)] / value
+    return None
+
+
 def residual_derivative(section: Section, terms: list[Term], u: np.ndarray, rule: DerivativeRule, value: float
                         ) -> tuple[np.ndarray, np.ndarray | None]:
     """``dR/dp`` at fixed heads (per unknown) and ``d(conductance)/dp`` of the stream-top entries
@@ -231,46 +298,17 @@ def residual_derivative(section: Section, terms: list[Term], u: np.ndarray, rule
     dR = np.zeros(n)
     dconductance_top = None
     g = section.grid
-    m = section.materials
-    if rule.name in ("zone-kh", "zone-kv"):
-        horizontal = rule.name == "zone-kh"
-        f = section.hfaces if horizontal else section.vfaces
-        if horizontal:
-            res = half_cell_resistance(np.broadcast_to(g.dx[None, :], g.active.shape), m.kh).ravel()
-        else:
-            res = half_cell_resistance(g.thickness, m.kv).ravel()
-        r_lo, r_hi = res[f.lo_pos], res[f.hi_pos]
-        rho = _share(section, "kh" if horizontal else "kv", rule.zone, value)
-        share = r_lo * rho[f.lo_pos] + r_hi * rho[f.hi_pos]
-        dC = f.conductance * share / (r_lo + r_hi) / value
-        dF = dC * (u[f.lo] - u[f.hi])
-        dR -= np.bincount(f.lo, weights=dF, minlength=n)
-        dR += np.bincount(f.hi, weights=dF, minlength=n)
+    if rule.name in ("zone-kh", "zone-kv", "leakance"):
+        for f, dC in zip((section.hfaces, section.vfaces), face_conductance_derivative(section, rule, value)):
+            dF = dC * (u[f.lo] - u[f.hi])
+            dR -= np.bincount(f.lo, weights=dF, minlength=n)
+            dR += np.bincount(f.hi, weights=dF, minlength=n)
         for t in terms:
-            if t.face == "cell" or not np.any(t.conductance > 0):
-                continue
-            if horizontal and t.face in ("left", "right"):
-                col = 0 if t.face == "left" else g.nx - 1
-                dconductance = t.conductance * rho[t.column_or_row * g.nx + col] / value
-            elif not horizontal and t.face == "bottom":
-                dconductance = t.conductance * rho[(g.nz - 1) * g.nx + t.column_or_row] / value
-            elif not horizontal and t.face == "top":
-                half = section.top_half_resistance[t.column_or_row]
-                width = g.dx[t.column_or_row] if t.width is None else t.width
-                frac = half * t.conductance / width  # half / (half + 1/leakance)
-                dconductance = t.conductance * frac * rho[_top_position(section, t.column_or_row)] / value
-                if t.kind == "stream":
-                    dconductance_top = dconductance
-            else:
+            dconductance = term_conductance_derivative(section, t, rule, value)
+            if dconductance is None:
                 continue
             dR += np.bincount(t.cells, weights=dconductance * (t.r / t.conductance - u[t.cells]), minlength=n)
-        return dR, dconductance_top
-    if rule.name == "leakance":
-        for t in terms:
             if t.kind == "stream" and t.face == "top":
-                inv = 1.0 / value
-                dconductance = t.conductance * (inv / (section.top_half_resistance[t.column_or_row] + inv)) / value
-                dR += np.bincount(t.cells, weights=dconductance * (t.r / t.conductance - u[t.cells]), minlength=n)
                 dconductance_top = dconductance
         return dR, dconductance_top
     if rule.name == "recharge":
@@ -405,10 +443,9 @@ class Forward:
     def predict_and_jacobian(self, m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Simulated observations and the Jacobian in one pass (analytic where available)."""
         m = np.asarray(m, dtype=float)
-        # variably saturated runs: every column by central differences
-        analytic = [] if self.scenario.variably_saturated else [
-            j for j, rule in enumerate(self.rules) if rule.name != "numeric"
-            and not (rule.name in _STORAGE_RULES and not self.scenario.transient)]
+        with_rule = VARIABLY_SATURATED_RULES if self.scenario.variably_saturated else _LINEAR_RULES
+        analytic = [j for j, rule in enumerate(self.rules) if rule.name in with_rule
+                    and not (rule.name in _STORAGE_RULES and not self.scenario.transient)]
         d, J = self._run(m, analytic)
         for j, rule in enumerate(self.rules):
             if j in analytic:
@@ -468,6 +505,8 @@ class Forward:
         return _ForwardState(key, section, ops, d, carried=carry, columns=columns)
 
     def _run(self, m: np.ndarray, analytic: list[int]) -> tuple[np.ndarray, np.ndarray]:
+        if self.scenario.variably_saturated and analytic:
+            return self._variably_saturated_run(m, analytic)
         state = self._state(m, analytic if self.scenario.transient else None)
         J = np.zeros((self.n_data, self.n_params))
         if state.section.scenario.variably_saturated or not analytic:
@@ -481,6 +520,24 @@ class Forward:
             Jsub = state.columns
         J[:, analytic] = Jsub * chain[analytic][None, :]
         return state.predicted.copy(), J
+
+    def _variably_saturated_run(self, m: np.ndarray, analytic: list[int]) -> tuple[np.ndarray, np.ndarray]:
+        """Predicted data and the direct-method sensitivities of the parameters ``analytic`` of a
+        variably saturated run (:mod:`bedflux.forward.unsaturated_sensitivity`); the run is kept."""
+        from bedflux.forward.unsaturated_sensitivity import run_with_sensitivities
+
+        section = self._section_at(m)
+        ops = self._operators.operators(section, self.observations)
+        self.n_forward_runs += 1
+        values = [p.natural(v) for p, v in zip(self.free, m)]
+        chain = np.array([p.dnatural(v) for p, v in zip(self.free, m)])
+        d, Jsub, counts = run_with_sensitivities(section, ops, [self.rules[j] for j in analytic],
+                                                 [values[j] for j in analytic], self.source)
+        self.n_sensitivity_solves += counts.solves
+        self._last = _ForwardState(m.tobytes(), section, ops, d)
+        J = np.zeros((self.n_data, self.n_params))
+        J[:, analytic] = Jsub * chain[analytic][None, :]
+        return d.copy(), J
 
     def _steady_jacobian(self, section: Section, ops, sol, rules: list[DerivativeRule], values: list[float]
                          ) -> np.ndarray:
@@ -498,19 +555,6 @@ class Forward:
         lam = sol.factor.solve(W.T.toarray())
         self.n_sensitivity_solves += ops.n
         return lam.T @ dR + E
-
-    def _variably_saturated(self, section: Section, ops) -> np.ndarray:
-        """Predicted data of a variably saturated run (Richards' equation), its steps landing on
-        the observation times."""
-        from bedflux.section.richards_run import states_at
-
-        times = ops.table["time"].to_numpy() if section.scenario.transient else np.zeros(ops.n)
-        wanted = np.unique(times)
-        d = np.empty(ops.n)
-        for t, (u, terms, view) in zip(wanted, states_at(section, wanted)):
-            at = times == t
-            d[at] = predict(view, ops, u, terms, float(t), self.source)[at]
-        return d
 
     def _transient(self, section: Section, ops, rules: list[DerivativeRule], values: list[float]):
         from bedflux.section.transient import run_transient

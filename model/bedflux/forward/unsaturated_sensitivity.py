@@ -1,0 +1,289 @@
+"""Sensitivities of a variably saturated run (Richards' equation) by the direct method.
+
+The discrete equations of a run are ``F(psi; p) = 0`` at a steady state and
+``F_n(psi_n, psi_{n-1}; p) = 0`` for each backward-Euler step (:mod:`bedflux.section.richards`).
+Differentiating them at the converged states of the base run gives the sensitivities
+``s = dpsi/dp`` (Kelley 1995, sec. 5.4, for the steady Newton system; Hindmarsh & Serban 2002,
+the sensitivity equations of an implicit time stepper; both from memory):
+
+    steady:     J s = -dF/dp
+    transient:  J_n s_n = -(dF_n/dpsi_{n-1} s_{n-1} + dF_n/dp)
+
+with ``J`` and ``J_n`` the Newton Jacobians at the converged states (exact derivatives of ``F``:
+upstream Kr with its pressure derivative, Feddes uptake, mixed-form storage). Each state is
+factorised once and the factor serves every parameter. The step sequence and the active sets
+(submerged faces, seepage faces) are those of the base run, so the derivative is that of the branch
+the solution lies on, as in the linear model (:mod:`bedflux.forward.sensitivity`).
+
+``dF/dp`` of each parameter kind with an analytic rule:
+
+- a zone's ``kh`` / ``kv``: the saturated face conductances ``C`` (harmonic means over the
+  volume fractions of the zones, as in the linear model) times the face's upstream ``Kr``:
+  ``d(inflow)/dp = dC/dp Kr_up dh``; boundary terms ``Kr (r - g u)`` likewise through ``dg/dp``;
+- ``ZONE.retention.alpha`` / ``.n``: through ``Kr`` of the upstream cells of faces and boundary
+  terms (the boundary's own pressure head where water flows in) and, in a step, through the
+  water content ``theta(psi_n) - theta(psi_{n-1})`` and the elastic storage
+  ``V Ss theta(psi_{n-1}) / theta_s`` (:func:`bedflux.section.retention.van_genuchten_parameter_derivatives`);
+- a zone's ``specific_storage``: the elastic storage of a step; ``specific_yield`` does not act in a
+  variably saturated run (zero);
+- ``recharge.rate`` (a flux on the exposed top faces) and ``stream.leakance`` (the bed conductance
+  of the submerged faces, times its ``Kr``).
+
+Observations are linear in the heads (``head``, ``vhg``); the bed flux under a seepage meter is
+``-Kr (r - g u) / w`` of the stream-top entries, differentiated here in the state (with ``dKr/dpsi``
+where the cell's Kr applies) and in the parameter. Other parameters (a layer depth, the stage,
+a side head, the riparian rate) have no rule here and :class:`~bedflux.forward.sensitivity.Forward`
+takes them by central differences.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+
+from bedflux.forward.observe import Operators, _seepage_weights, predict
+from bedflux.forward.sensitivity import (
+    DerivativeRule,
+    face_conductance_derivative,
+    term_conductance_derivative,
+)
+from bedflux.section.discretisation import Section
+from bedflux.section.retention import SoilWater
+from bedflux.section.richards import Evaluation, RichardsSystem, StepForcing, Storage
+from bedflux.section.richards_newton import NEWTON, JacobianSolver
+from bedflux.section.richards_run import _start, _stops
+from bedflux.section.richards_steps import (
+    SectionBoundaries,
+    Stepper,
+    run_steps,
+    soil_water,
+)
+
+
+@dataclass
+class Counts:
+    """Work of one run: factorizations and solves of the sensitivity systems."""
+
+    factorizations: int = 0
+    solves: int = 0
+
+
+class ResidualDerivatives:
+    """``d(inflow)/dp`` and ``d(storage rate)/dp`` of the Richards residual at fixed pressure heads.
+
+    Parameters
+    ----------
+    system
+        The Richards operator of the run.
+    rules, values
+        The parameters (rules named in
+        :data:`bedflux.forward.sensitivity.VARIABLY_SATURATED_RULES`) and their SI values.
+    """
+
+    def __init__(self, system: RichardsSystem, rules: list[DerivativeRule], values: list[float]):
+        self.system = system
+        self.rules = rules
+        self.values = values
+        section = system.section
+        owner = section.materials.zone[section.grid.active]
+        self.in_zone = [owner == r.zone for r in rules]
+        self.face_dC = [np.concatenate(face_conductance_derivative(section, r, v)) for r, v in zip(rules, values)]
+
+    @property
+    def n_params(self) -> int:
+        return len(self.rules)
+
+    def _kr_parameter(self, rule: DerivativeRule, d) -> np.ndarray | None:
+        if rule.name == "retention-alpha":
+            return d.kr_alpha
+        if rule.name == "retention-n":
+            return d.kr_n
+        return None
+
+    def term_flows(self, ev: Evaluation, forcing: StepForcing) -> list[np.ndarray]:
+        """Per boundary term, ``d(flow)/dp`` of its entries (entries x parameters) at fixed heads."""
+        sys_ = self.system
+        section = sys_.section
+        u = sys_.head_u(ev.psi)
+        cell_d = sys_.soil.parameter_derivatives(ev.psi) if self._has_retention() else None
+        out = []
+        for term, fpsi, tkr, from_face in zip(forcing.terms, forcing.face_psi, ev.term_kr, ev.term_from_face):
+            base = term.r - term.conductance * u[term.cells]
+            face_d = None
+            D = np.zeros((term.cells.size, self.n_params))
+            for j, (rule, value) in enumerate(zip(self.rules, self.values)):
+                dg = term_conductance_derivative(section, term, rule, value)
+                if dg is not None:
+                    # r = g H: d(Kr (r - g u))/dg = Kr (H - u)
+                    D[:, j] = tkr * dg * (term.r / np.where(term.conductance > 0, term.conductance, 1.0) - u[term.cells])
+                elif rule.name == "recharge" and term.kind == "recharge":
+                    D[:, j] = section.grid.dx[term.column_or_row] if term.width is None else term.width
+                elif rule.name in ("retention-alpha", "retention-n"):
+                    if face_d is None and from_face.any():
+                        face_d = self._face_parameter_derivatives(fpsi, term.cells, from_face)
+                    own = self._kr_parameter(rule, cell_d)[term.cells]
+                    dkr = own if face_d is None else np.where(from_face, self._kr_parameter(rule, face_d), own)
+                    dkr = np.where((term.conductance > 0) & self.in_zone[j][term.cells], dkr, 0.0)
+                    D[:, j] = dkr * base
+            out.append(D)
+        return out
+
+    def _has_retention(self) -> bool:
+        return any(r.name in ("retention-alpha", "retention-n") for r in self.rules)
+
+    def _face_parameter_derivatives(self, fpsi: np.ndarray, cells: np.ndarray, from_face: np.ndarray):
+        """Parameter derivatives of Kr of the cells' soil at the boundary's pressure heads."""
+        s = self.system.soil
+        sub = SoilWater(s.van_genuchten[cells], s.alpha[cells], s.n[cells], s.theta_r[cells], s.theta_s[cells])
+        return sub.parameter_derivatives(np.where(from_face, np.nan_to_num(fpsi), 0.0))
+
+    def inflow(self, ev: Evaluation, forcing: StepForcing, term_flows: list[np.ndarray]) -> np.ndarray:
+        """``d(inflow)/dp`` per unknown and parameter (n x P)."""
+        sys_ = self.system
+        n, P = sys_.n, self.n_params
+        u = sys_.head_u(ev.psi)
+        dh = u[sys_.lo] - u[sys_.hi]
+        cell_d = sys_.soil.parameter_derivatives(ev.psi) if self._has_retention() else None
+        out = np.zeros((n, P))
+        up = np.where(ev.face_up_is_lo, sys_.lo, sys_.hi)
+        for j, rule in enumerate(self.rules):
+            dq = self.face_dC[j] * ev.face_kr * dh
+            kr_p = self._kr_parameter(rule, cell_d) if cell_d is not None else None
+            if kr_p is not None:
+                dq = dq + sys_.conductance * np.where(self.in_zone[j][up], kr_p[up], 0.0) * dh
+            out[:, j] = np.bincount(sys_.hi, weights=dq, minlength=n) - np.bincount(sys_.lo, weights=dq, minlength=n)
+        for term, D in zip(forcing.terms, term_flows):
+            for j in range(P):
+                out[:, j] += np.bincount(term.cells, weights=D[:, j], minlength=n)
+        return out
+
+    def storage_rate(self, ev: Evaluation, storage: Storage) -> np.ndarray:
+        """``d(storage rate)/dp`` of a backward-Euler step (n x P), mixed form:
+        ``(V (theta(psi) - theta(psi0)) + V Ss theta(psi0) / theta_s (psi - psi0)) / dt``."""
+        sys_ = self.system
+        out = np.zeros((sys_.n, self.n_params))
+        change = ev.psi - storage.psi0
+        d1 = d0 = None
+        if self._has_retention():
+            d1 = sys_.soil.parameter_derivatives(ev.psi)
+            d0 = sys_.soil.parameter_derivatives(storage.psi0)
+        V = sys_.volume
+        for j, rule in enumerate(self.rules):
+            if rule.name in ("retention-alpha", "retention-n"):
+                key = "theta_alpha" if rule.name == "retention-alpha" else "theta_n"
+                t1, t0 = getattr(d1, key), getattr(d0, key)
+                col = V * (t1 - t0) + V * sys_.ss * t0 / sys_.soil.theta_s * change
+                out[:, j] = np.where(self.in_zone[j], col, 0.0) / storage.dt
+            elif rule.name == "zone-specific_storage":
+                section = sys_.section
+                dss = section.materials.derivative("specific_storage", rule.zone)[section.grid.active]
+                theta0 = storage.theta0
+                out[:, j] = V * dss * theta0 / sys_.soil.theta_s * change / storage.dt
+        return out
+
+    def lag(self, ev: Evaluation, storage: Storage) -> np.ndarray:
+        """``dF_n/dpsi_{n-1}`` (diagonal, per unknown) of the mixed-form storage."""
+        sys_ = self.system
+        p0 = sys_.soil.properties(storage.psi0)
+        V = sys_.volume
+        return (-V * p0.capacity + V * sys_.ss * p0.capacity / sys_.soil.theta_s * (ev.psi - storage.psi0)
+                - storage.elastic) / storage.dt
+
+
+def _solve(solver: JacobianSolver, J: sp.csr_matrix, B: np.ndarray, counts: Counts) -> np.ndarray:
+    """``J X = B`` for every column of ``B`` with one factorization of ``J``."""
+    solve = solver.factor(J)
+    counts.factorizations += 1
+    counts.solves += B.shape[1]
+    if solver.method == "direct":
+        return solve(B)
+    return np.column_stack([solve(B[:, j]) for j in range(B.shape[1])])
+
+
+def observation_jacobian(system: RichardsSystem, ops: Operators, ev: Evaluation,
+                         forcing: StepForcing, s: np.ndarray, term_flows: list[np.ndarray],
+                         source: str) -> np.ndarray:
+    """``d(observation)/dp`` (n_obs x P) of a state with sensitivities ``s``."""
+    kind = ops.kind
+    seep = kind == "seepage"
+    scale = np.where(seep, 0.0, 1.0)
+    vhg = kind == "vhg"
+    scale[vhg] = 1.0 / ops.table["depth"].to_numpy()[vhg]
+    out = (sp.diags(scale) @ ops.head_weights) @ s
+    if not seep.any():
+        return out
+    k = next(i for i, t in enumerate(forcing.terms) if t.kind == "stream" and t.face == "top")
+    term, tkr, from_face = forcing.terms[k], ev.term_kr[k], ev.term_from_face[k]
+    view, terms = system.flow_view(ev, forcing)
+    w, _ = _seepage_weights(view, ops, terms, source)
+    u = system.head_u(ev.psi)
+    base = term.r - term.conductance * u[term.cells]
+    own = (term.conductance > 0) & ~from_face
+    dflow_du = -tkr * term.conductance + np.where(own, base * ev.props.dkr[term.cells], 0.0)
+    dflow = dflow_du[:, None] * s[term.cells] + term_flows[k]
+    width = system.section.grid.dx[term.column_or_row] if term.width is None else term.width
+    out[seep] = (w @ (-dflow / width[:, None]))[seep]
+    return out
+
+
+def run_with_sensitivities(section: Section, ops: Operators, rules: list[DerivativeRule], values: list[float],
+                           source: str = "observations") -> tuple[np.ndarray, np.ndarray, Counts]:
+    """Predicted observations of a variably saturated run and their derivatives with respect to
+    the parameters (SI), the steps landing on the observation times.
+
+    Returns
+    -------
+    predicted, jacobian, counts
+        ``(n_obs,)``, ``(n_obs, P)`` and the work of the sensitivity solves.
+    """
+    sc = section.scenario
+    system = RichardsSystem(section, soil_water(sc, section))
+    boundaries = SectionBoundaries(section)
+    stepper = Stepper(system, boundaries, NEWTON, JacobianSolver(section.n))
+    sens_solver = JacobianSolver(section.n)
+    derivs = ResidualDerivatives(system, rules, values)
+    P = len(rules)
+    counts = Counts()
+    times = ops.table["time"].to_numpy() if sc.transient else np.zeros(ops.n)
+    d = np.full(ops.n, np.nan)
+    J = np.zeros((ops.n, P))
+    ev, forcing, state = _start(section, system, stepper, boundaries)
+    steady_start = not sc.transient or sc.initial_head is None
+
+    def observe(ev: Evaluation, forcing: StepForcing, s: np.ndarray, t: float, flows=None) -> None:
+        at = times == t
+        view, terms = system.flow_view(ev, forcing)
+        d[at] = predict(view, ops, system.head_u(ev.psi), terms, t, source)[at]
+        if P:
+            flows = derivs.term_flows(ev, forcing) if flows is None else flows
+            J[at] = observation_jacobian(system, ops, ev, forcing, s, flows, source)[at]
+
+    current = {"s": np.zeros((section.n, P)), "flows": None}
+    if P and steady_start:
+        flows = derivs.term_flows(ev, forcing)
+        current["s"] = _solve(sens_solver, system.jacobian(ev, forcing, None, newton=True),
+                              derivs.inflow(ev, forcing, flows), counts)
+        current["flows"] = flows
+    observe(ev, forcing, current["s"], 0.0, current["flows"])
+    later = np.unique(times[times > 0.0])
+    if later.size:
+        stops, flooding = _stops(section, later)
+
+        def on_step(out, forcing, storage, t0, t1) -> float:
+            if P:
+                ev1 = out.evaluation
+                flows = derivs.term_flows(ev1, forcing)
+                rhs = (derivs.inflow(ev1, forcing, flows) - derivs.storage_rate(ev1, storage)
+                       - derivs.lag(ev1, storage)[:, None] * current["s"])
+                current["s"] = _solve(sens_solver, system.jacobian(ev1, forcing, storage, newton=True), rhs, counts)
+                current["flows"] = flows
+            return 0.0
+
+        def on_stop(out, forcing, t) -> None:
+            i = np.argmin(np.abs(later - t))
+            if abs(later[i] - t) <= 1e-9 * max(t, 1.0):
+                observe(out.evaluation, forcing, current["s"], float(later[i]), current["flows"])
+
+        run_steps(stepper, ev.psi, state, stops, sc.time.step, on_step, on_stop, restarts=flooding)
+    return d, J, counts
