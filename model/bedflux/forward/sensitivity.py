@@ -496,7 +496,9 @@ class Forward:
         self.n_forward_runs += 1
         key = m.tobytes()
         if section.scenario.variably_saturated:
-            return _ForwardState(key, section, ops, self._variably_saturated(section, ops))
+            from bedflux.forward.unsaturated_sensitivity import run_with_sensitivities
+
+            return _ForwardState(key, section, ops, run_with_sensitivities(section, ops, [], [], self.source)[0])
         if not section.scenario.transient:
             sol = solve_steady(section, reuse=True)
             return _ForwardState(key, section, ops, predict(section, ops, sol.u, sol.terms, 0.0, self.source), sol)
