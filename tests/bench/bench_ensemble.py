@@ -25,13 +25,12 @@ import sys
 import time
 from pathlib import Path
 
-import numpy as np
 
 import bedflux
 from bedflux.ensembles.engine import chunk_size
 from bedflux.ensembles.members import member_events, run_member
 from bedflux.ensembles.run import run_spec
-from bedflux.ensembles.spec import MemberDraw, build_spec, load_ensemble
+from bedflux.ensembles.spec import build_spec, load_ensemble
 
 ROOT = Path(__file__).resolve().parents[2]
 sys.path.insert(0, str(ROOT / "tests" / "ensemble"))
