@@ -15,6 +15,31 @@ are derived step by step and checked against the equation by finite differences 
    ``f = (1 - exp(alpha h_r)) exp(alpha (L - z) / 2) sinh(beta z) / sinh(beta L)``,
    ``beta = sqrt(alpha^2 / 4 + (pi / a)^2)``.
 
+   Transient (the same box, Tracy 2006 treats the transient case too; this is derived here):
+   ``theta = theta_r + c Kr`` with ``c = theta_s - theta_r``, ``Kr = exp(alpha h_r)``
+   everywhere at ``t = 0`` and the top profile above switched on at ``t = 0``. With
+   ``Kr = exp(alpha h_r) + v(z, t) sin(pi x / a)`` and ``D = Ks / alpha``:
+   ``c v_t = D v_zz + Ks v_z - D (pi/a)^2 v``, ``v(0, t) = 0``, ``v(L, t) = f(L)``, ``v(z, 0) = 0``.
+   Split ``v = f + w`` with ``f`` the steady profile: ``w(0) = w(L) = 0``, ``w(z, 0) = -f(z)``.
+   Put ``w = exp(alpha (L - z) / 2) u``; since ``D alpha = Ks`` the first derivative drops out:
+   ``D w_zz + Ks w_z = D exp(alpha (L - z) / 2) (u_zz - alpha^2 / 4 u)``, so
+   ``c u_t = D (u_zz - beta^2 u)``, ``u(0) = u(L) = 0``,
+   ``u(z, 0) = -(1 - exp(alpha h_r)) sinh(beta z) / sinh(beta L)``. Sine series,
+   ``lambda_n = n pi / L``:
+   ``u = sum_n b_n sin(lambda_n z) exp(-gamma_n t)``, ``gamma_n = Ks (lambda_n^2 + beta^2) / (alpha c)``,
+   ``b_n = (2 / L) int_0^L u(z, 0) sin(lambda_n z) dz``; with
+   ``int_0^L sinh(beta z) sin(lambda_n z) dz = (-1)^(n+1) lambda_n sinh(beta L) / (beta^2 + lambda_n^2)``
+   (integrate by parts twice; ``sin(lambda_n L) = 0``):
+   ``b_n = (1 - exp(alpha h_r)) (2 / L) (-1)^n lambda_n / (beta^2 + lambda_n^2)``. Hence
+
+       Kr = exp(alpha h_r) + (1 - exp(alpha h_r)) sin(pi x / a) exp(alpha (L - z) / 2)
+            [sinh(beta z) / sinh(beta L) + (2 / L) sum_n (-1)^n lambda_n / (beta^2 + lambda_n^2)
+             sin(lambda_n z) exp(-gamma_n t)]
+
+   At ``t = 0`` the bracket is the sine series of ``sinh(beta z) / sinh(beta L)`` subtracted from
+   itself (zero, converging as ``1/n``); for ``t > 0`` the terms fall as ``exp(-gamma_n t)``; as
+   ``t -> infinity`` the steady solution remains.
+
 2. Srivastava & Yeh (1991), one dimension, the water table at ``z = 0`` (``Kr = 1``), layers with
    a common ``alpha`` (so ``Kr`` is continuous where ``psi`` is), infiltration ``q_A`` at the
    surface ``z = L`` before ``t = 0`` (steady) and ``q_B`` after. In each layer the steady flux
@@ -44,6 +69,37 @@ def tracy_relative_conductivity(x, z, a: float, L: float, alpha: float, h_r: flo
 def tracy_pressure(x, z, a: float, L: float, alpha: float, h_r: float) -> np.ndarray:
     """Pressure head of the steady two-dimensional solution."""
     return np.log(tracy_relative_conductivity(x, z, a, L, alpha, h_r)) / alpha
+
+
+def tracy_transient_relative_conductivity(x, z, t: float, a: float, L: float, alpha: float, h_r: float,
+                                          ks: float, width: float, terms: int | None = None) -> np.ndarray:
+    """``Kr = exp(alpha psi)`` of the transient two-dimensional solution at time ``t > 0`` (s).
+
+    ``ks`` is the saturated conductivity (m/s), ``width`` is ``theta_s - theta_r``. The series is
+    summed until its terms fall below 1e-16 of the leading one (``terms`` fixes the count).
+    """
+    x, z = np.asarray(x, dtype=float), np.asarray(z, dtype=float)
+    beta2 = alpha**2 / 4 + (np.pi / a) ** 2
+    rate = ks / (alpha * width)
+    if terms is None:
+        if t <= 0:
+            raise ValueError("give the number of terms at t = 0 (the series converges slowly there)")
+        # exp(-rate lambda_n^2 t) < 1e-16 exp(-rate lambda_1^2 t)
+        terms = int(np.ceil(L / np.pi * np.sqrt(np.log(1e16) / (rate * t) + (np.pi / L) ** 2))) + 1
+    n = np.arange(1, terms + 1)
+    lam = n * np.pi / L
+    coef = (2 / L) * (-1.0) ** n * lam / (beta2 + lam**2) * np.exp(-rate * (lam**2 + beta2) * t)
+    series = np.tensordot(np.sin(np.multiply.outer(z, lam)), coef, axes=([-1], [0]))
+    beta = np.sqrt(beta2)
+    er = np.exp(alpha * h_r)
+    bracket = np.sinh(beta * z) / np.sinh(beta * L) + series
+    return er + (1 - er) * np.sin(np.pi * x / a) * np.exp(alpha * (L - z) / 2) * bracket
+
+
+def tracy_transient_pressure(x, z, t: float, a: float, L: float, alpha: float, h_r: float,
+                             ks: float, width: float) -> np.ndarray:
+    """Pressure head of the transient two-dimensional solution at time ``t > 0`` (s)."""
+    return np.log(tracy_transient_relative_conductivity(x, z, t, a, L, alpha, h_r, ks, width)) / alpha
 
 
 def _s(b2: float, z):
