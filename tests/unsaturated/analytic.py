@@ -176,8 +176,8 @@ class BoxRecharge:
         m, beta, q_k = self.m[keep_k], self.beta[keep_k], qk[keep_k]
         mu = self.mu[keep_j]
         L, half = self.L, self.alpha / 2
-        # C_k sinh(beta L) and C_k cosh(beta L) in scaled form: C_k exp(-beta L) e^... avoided by
-        # writing the projection of sinh(beta z) / (beta cosh + alpha/2 sinh) directly
+        # b_kj with C_k written as q_k exp(alpha L / 2) / D over (beta cosh + alpha/2 sinh), the
+        # hyperbolic functions scaled by exp(-beta L) against overflow
         den = beta * (1 + np.exp(-2 * beta * L)) + half * (1 - np.exp(-2 * beta * L))
         ch = (1 + np.exp(-2 * beta * L)) / den  # cosh(beta L) / (beta cosh + alpha/2 sinh)
         sh = (1 - np.exp(-2 * beta * L)) / den  # sinh(beta L) / (...)
