@@ -15,6 +15,31 @@ are derived step by step and checked against the equation by finite differences 
    ``f = (1 - exp(alpha h_r)) exp(alpha (L - z) / 2) sinh(beta z) / sinh(beta L)``,
    ``beta = sqrt(alpha^2 / 4 + (pi / a)^2)``.
 
+   Transient (the same box, Tracy 2006 treats the transient case too; this is derived here):
+   ``theta = theta_r + c Kr`` with ``c = theta_s - theta_r``, ``Kr = exp(alpha h_r)``
+   everywhere at ``t = 0`` and the top profile above switched on at ``t = 0``. With
+   ``Kr = exp(alpha h_r) + v(z, t) sin(pi x / a)`` and ``D = Ks / alpha``:
+   ``c v_t = D v_zz + Ks v_z - D (pi/a)^2 v``, ``v(0, t) = 0``, ``v(L, t) = f(L)``, ``v(z, 0) = 0``.
+   Split ``v = f + w`` with ``f`` the steady profile: ``w(0) = w(L) = 0``, ``w(z, 0) = -f(z)``.
+   Put ``w = exp(alpha (L - z) / 2) u``; since ``D alpha = Ks`` the first derivative drops out:
+   ``D w_zz + Ks w_z = D exp(alpha (L - z) / 2) (u_zz - alpha^2 / 4 u)``, so
+   ``c u_t = D (u_zz - beta^2 u)``, ``u(0) = u(L) = 0``,
+   ``u(z, 0) = -(1 - exp(alpha h_r)) sinh(beta z) / sinh(beta L)``. Sine series,
+   ``lambda_n = n pi / L``:
+   ``u = sum_n b_n sin(lambda_n z) exp(-gamma_n t)``, ``gamma_n = Ks (lambda_n^2 + beta^2) / (alpha c)``,
+   ``b_n = (2 / L) int_0^L u(z, 0) sin(lambda_n z) dz``; with
+   ``int_0^L sinh(beta z) sin(lambda_n z) dz = (-1)^(n+1) lambda_n sinh(beta L) / (beta^2 + lambda_n^2)``
+   (integrate by parts twice; ``sin(lambda_n L) = 0``):
+   ``b_n = (1 - exp(alpha h_r)) (2 / L) (-1)^n lambda_n / (beta^2 + lambda_n^2)``. Hence
+
+       Kr = exp(alpha h_r) + (1 - exp(alpha h_r)) sin(pi x / a) exp(alpha (L - z) / 2)
+            [sinh(beta z) / sinh(beta L) + (2 / L) sum_n (-1)^n lambda_n / (beta^2 + lambda_n^2)
+             sin(lambda_n z) exp(-gamma_n t)]
+
+   At ``t = 0`` the bracket is the sine series of ``sinh(beta z) / sinh(beta L)`` subtracted from
+   itself (zero, converging as ``1/n``); for ``t > 0`` the terms fall as ``exp(-gamma_n t)``; as
+   ``t -> infinity`` the steady solution remains.
+
 2. Srivastava & Yeh (1991), one dimension, the water table at ``z = 0`` (``Kr = 1``), layers with
    a common ``alpha`` (so ``Kr`` is continuous where ``psi`` is), infiltration ``q_A`` at the
    surface ``z = L`` before ``t = 0`` (steady) and ``q_B`` after. In each layer the steady flux
@@ -26,6 +51,26 @@ are derived step by step and checked against the equation by finite differences 
    ``exp(alpha z / 2) (A cos(b z) + B sin(b z))`` with ``b^2 = mu c alpha / Ks - alpha^2 / 4`` in
    each layer; the eigenvalues ``mu`` are the roots of ``w_z(L; mu) = 0`` and the coefficients
    are weighted projections of ``w(z, 0)``.
+3. Recharge on a box over a water table, two dimensions (after the Tracy 2006 and Srivastava &
+   Yeh 1991 transformation; the boundaries are those a scenario states): box ``0 <= x <= a``,
+   ``0 <= z <= L``, the water table at the base (``psi = 0``), hydrostatic sides
+   (``psi = -z``, ``Kr = exp(-alpha z)``), at rest (``psi = -z``) until ``t = 0``, then a
+   uniform downward flux ``q`` at the top: ``D Kr_z + Ks Kr = q`` at ``z = L``. ``exp(-alpha z)``
+   carries no flux, so ``Kr = exp(-alpha z) + U`` with ``U = 0`` on the sides, the base and at
+   ``t = 0`` and ``D U_z + Ks U = q`` on the top. Expand ``q = sum_{k odd} q_k sin(m_k x)``,
+   ``q_k = 4 q / (k pi)``, ``m_k = k pi / a``; each mode ``V_k(z, t)`` obeys
+   ``c V_t = D V_zz + Ks V_z - D m_k^2 V``. Steady part (``beta_k^2 = alpha^2 / 4 + m_k^2``):
+   ``V = C_k exp(-alpha z / 2) sinh(beta_k z)``, and the top condition gives
+   ``C_k = q_k exp(alpha L / 2) / (D (beta_k cosh(beta_k L) + alpha / 2 sinh(beta_k L)))``.
+   The rest ``exp(-alpha z / 2) phi`` (first derivative drops out as in 1.) obeys
+   ``c phi_t = D (phi_zz - beta_k^2 phi)``, ``phi(0) = 0`` and, from
+   ``D W_z + Ks W = D exp(-alpha z / 2) (phi_z + alpha / 2 phi)``, ``phi_z + alpha phi / 2 = 0``
+   at ``z = L``: eigenfunctions ``sin(mu_j z)`` with ``mu_j cos(mu_j L) + alpha / 2 sin(mu_j L) = 0``
+   (one root in each ``((j - 1/2) pi / L, j pi / L)``, the same for every ``k``), decay rates
+   ``D (mu_j^2 + beta_k^2) / c``, and coefficients
+   ``b_kj = -C_k int_0^L sinh(beta_k z) sin(mu_j z) dz / int_0^L sin^2(mu_j z) dz`` with
+   ``int_0^L sinh(beta z) sin(mu z) dz = (beta cosh(beta L) sin(mu L) - mu sinh(beta L) cos(mu L)) / (beta^2 + mu^2)``
+   and ``int_0^L sin^2(mu z) dz = L / 2 - sin(2 mu L) / (4 mu)``.
 """
 from __future__ import annotations
 
@@ -44,6 +89,109 @@ def tracy_relative_conductivity(x, z, a: float, L: float, alpha: float, h_r: flo
 def tracy_pressure(x, z, a: float, L: float, alpha: float, h_r: float) -> np.ndarray:
     """Pressure head of the steady two-dimensional solution."""
     return np.log(tracy_relative_conductivity(x, z, a, L, alpha, h_r)) / alpha
+
+
+def tracy_transient_relative_conductivity(x, z, t: float, a: float, L: float, alpha: float, h_r: float,
+                                          ks: float, width: float, terms: int | None = None) -> np.ndarray:
+    """``Kr = exp(alpha psi)`` of the transient two-dimensional solution at time ``t > 0`` (s).
+
+    ``ks`` is the saturated conductivity (m/s), ``width`` is ``theta_s - theta_r``. The series is
+    summed until its terms fall below 1e-16 of the leading one (``terms`` fixes the count).
+    """
+    x, z = np.asarray(x, dtype=float), np.asarray(z, dtype=float)
+    beta2 = alpha**2 / 4 + (np.pi / a) ** 2
+    rate = ks / (alpha * width)
+    if terms is None:
+        if t <= 0:
+            raise ValueError("give the number of terms at t = 0 (the series converges slowly there)")
+        # exp(-rate lambda_n^2 t) < 1e-16 exp(-rate lambda_1^2 t)
+        terms = int(np.ceil(L / np.pi * np.sqrt(np.log(1e16) / (rate * t) + (np.pi / L) ** 2))) + 1
+    n = np.arange(1, terms + 1)
+    lam = n * np.pi / L
+    coef = (2 / L) * (-1.0) ** n * lam / (beta2 + lam**2) * np.exp(-rate * (lam**2 + beta2) * t)
+    series = np.tensordot(np.sin(np.multiply.outer(z, lam)), coef, axes=([-1], [0]))
+    beta = np.sqrt(beta2)
+    er = np.exp(alpha * h_r)
+    bracket = np.sinh(beta * z) / np.sinh(beta * L) + series
+    return er + (1 - er) * np.sin(np.pi * x / a) * np.exp(alpha * (L - z) / 2) * bracket
+
+
+def tracy_transient_pressure(x, z, t: float, a: float, L: float, alpha: float, h_r: float,
+                             ks: float, width: float) -> np.ndarray:
+    """Pressure head of the transient two-dimensional solution at time ``t > 0`` (s)."""
+    return np.log(tracy_transient_relative_conductivity(x, z, t, a, L, alpha, h_r, ks, width)) / alpha
+
+
+class BoxRecharge:
+    """Problem 3 of the module doc: uniform recharge on a box over a water table with hydrostatic sides.
+
+    Parameters
+    ----------
+    a, L
+        Width and height of the box (m); the water table is the base.
+    alpha, ks, width
+        Exponential-model alpha (1/m), saturated conductivity (m/s) and ``theta_s - theta_r``.
+    q
+        Downward flux at the top from ``t = 0`` (m/s).
+    modes
+        Number of odd ``x`` modes of the steady part (the transient part needs far fewer).
+    """
+
+    def __init__(self, a: float, L: float, alpha: float, ks: float, width: float, q: float, modes: int = 4000):
+        self.a, self.L, self.alpha, self.ks, self.width, self.q = a, L, alpha, ks, width, q
+        self.k = 2 * np.arange(modes) + 1.0
+        self.m = self.k * np.pi / a
+        self.beta = np.sqrt(alpha**2 / 4 + self.m**2)
+        self.diffusivity = ks / alpha
+        self.mu = self._roots(400)
+
+    def _roots(self, count: int) -> np.ndarray:
+        L, half = self.L, self.alpha / 2
+        f = lambda mu: mu * np.cos(mu * L) + half * np.sin(mu * L)
+        return np.array([brentq(f, (j - 0.5) * np.pi / L, j * np.pi / L, xtol=1e-15, rtol=1e-15)
+                         for j in range(1, count + 1)])
+
+    def _steady_shape(self, z, beta):
+        """``exp(alpha (L - z) / 2) sinh(beta z) / (beta cosh(beta L) + alpha / 2 sinh(beta L))``
+        without overflow (``C_k exp(-alpha z / 2) sinh(beta_k z) = q_k / D`` times this)."""
+        L, half = self.L, self.alpha / 2
+        num = np.exp(beta * (z - L)) - np.exp(-beta * (z + L))
+        den = beta * (1 + np.exp(-2 * beta * L)) + half * (1 - np.exp(-2 * beta * L))
+        return np.exp(half * (L - z)) * num / den
+
+    def relative_conductivity(self, x, z, t: float) -> np.ndarray:
+        """``Kr = exp(alpha psi)`` at points ``(x, z)`` (same shape) and time ``t > 0`` (s)."""
+        x, z = np.broadcast_arrays(np.asarray(x, dtype=float), np.asarray(z, dtype=float))
+        shape = x.shape
+        x, z = x.ravel(), z.ravel()
+        qk = 4 * self.q / (self.k * np.pi)
+        sx = np.sin(np.outer(x, self.m))  # (points, modes)
+        steady = np.sum(sx * qk / self.diffusivity * self._steady_shape(z[:, None], self.beta), axis=1)
+        # transient part: only the modes that have not decayed below 1e-16 of the slowest
+        rate = self.diffusivity / self.width
+        keep_k = rate * self.m**2 * t < np.log(1e16) + rate * self.m[0] ** 2 * t
+        keep_j = rate * self.mu**2 * t < np.log(1e16) + rate * self.mu[0] ** 2 * t
+        if keep_j.all():
+            raise ValueError("t is too small for the eigenfunctions kept")
+        m, beta, q_k = self.m[keep_k], self.beta[keep_k], qk[keep_k]
+        mu = self.mu[keep_j]
+        L, half = self.L, self.alpha / 2
+        # b_kj with C_k written as q_k exp(alpha L / 2) / D over (beta cosh + alpha/2 sinh), the
+        # hyperbolic functions scaled by exp(-beta L) against overflow
+        den = beta * (1 + np.exp(-2 * beta * L)) + half * (1 - np.exp(-2 * beta * L))
+        ch = (1 + np.exp(-2 * beta * L)) / den  # cosh(beta L) / (beta cosh + alpha/2 sinh)
+        sh = (1 - np.exp(-2 * beta * L)) / den  # sinh(beta L) / (...)
+        proj = (beta[:, None] * ch[:, None] * np.sin(mu * L) - mu * sh[:, None] * np.cos(mu * L)) \
+            / (beta[:, None] ** 2 + mu**2)
+        norm = L / 2 - np.sin(2 * mu * L) / (4 * mu)
+        b = -(q_k * np.exp(half * L) / self.diffusivity)[:, None] * proj / norm  # (k, j)
+        decay = np.exp(-rate * (mu**2 + beta[:, None] ** 2) * t)
+        zs = np.sin(np.outer(z, mu))  # (points, j)
+        transient = np.exp(-half * z) * np.einsum("pk,kj,pj->p", np.sin(np.outer(x, m)), b * decay, zs)
+        return (np.exp(-self.alpha * z) + steady + transient).reshape(shape)
+
+    def pressure(self, x, z, t: float) -> np.ndarray:
+        return np.log(self.relative_conductivity(x, z, t)) / self.alpha
 
 
 def _s(b2: float, z):

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .analytic import LayeredInfiltration, tracy_pressure
+from .analytic import LayeredInfiltration, tracy_pressure, tracy_transient_relative_conductivity
 
 DAY = 86400.0
 
@@ -87,3 +87,39 @@ def test_two_layer_infiltration_solution():
     ks, width, alpha = (1e-6, 2.5e-6), (0.34, 0.30), 2.0
     sol = LayeredInfiltration(2.0, alpha, ks, width, 1.0, 0.1e-6, 0.8e-6)
     check_infiltration(sol, ks, width, alpha)
+
+
+def test_transient_tracy_solution_satisfies_the_equation():
+    # Tracy (2006), transient: (theta_s - theta_r) d(Kr)/dt = div(K grad(psi + z)), K = Ks Kr,
+    # the series derived in analytic.py, put back into the equation by centred differences
+    a, L, alpha, hr, ks, width = 2.0, 2.0, 1.0, -1.0, 1e-5, 0.35
+    h, dt = 1e-3, 1.0
+    x = np.array([0.3, 0.9, 1.4])[:, None]
+    z = np.array([0.2, 1.0, 1.7])[None, :]
+    for t in (300.0, 1800.0, 7200.0):
+        def kr(x, z, t=t):
+            return tracy_transient_relative_conductivity(x, z, t, a, L, alpha, hr, ks, width)
+
+        def H(x, z):
+            return np.log(kr(x, z)) / alpha + z
+
+        def K(x, z):
+            return ks * kr(x, z)
+
+        div = ((K(x + h / 2, z) * (H(x + h, z) - H(x, z)) - K(x - h / 2, z) * (H(x, z) - H(x - h, z)))
+               + (K(x, z + h / 2) * (H(x, z + h) - H(x, z)) - K(x, z - h / 2) * (H(x, z) - H(x, z - h)))) / h**2
+        rate = width * (kr(x, z, t + dt) - kr(x, z, t - dt)) / (2 * dt)
+        assert np.max(np.abs(rate - div)) < 1e-4 * np.max(np.abs(rate)), t
+        # boundary values: h_r on the base and the sides, the switched-on profile on the top
+        xs = np.linspace(0, a, 9)
+        assert np.allclose(np.log(kr(xs, 0.0)) / alpha, hr, atol=1e-12, rtol=0)
+        assert np.allclose(np.log(kr(np.array([0.0, a]), 1.3)) / alpha, hr, atol=1e-12, rtol=0)
+        top = np.exp(alpha * hr) + (1 - np.exp(alpha * hr)) * np.sin(np.pi * xs / a)
+        assert np.allclose(kr(xs, L), top, atol=1e-12, rtol=0)
+    # t = 0: the dry start (the series converges as 1/n, so many terms and away from the top)
+    zs = np.linspace(0, 0.9 * L, 10)
+    start = tracy_transient_relative_conductivity(0.7, zs, 0.0, a, L, alpha, hr, ks, width, terms=20000)
+    assert np.max(np.abs(start - np.exp(alpha * hr))) < 1e-4
+    # long times: the steady solution
+    late = tracy_transient_relative_conductivity(x, z, 40 * 86400.0, a, L, alpha, hr, ks, width)
+    assert np.max(np.abs(late - np.exp(alpha * tracy_pressure(x, z, a, L, alpha, hr)))) < 1e-12
