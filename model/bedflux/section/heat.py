@@ -161,7 +161,7 @@ def line_of(term: Term) -> str:
     return term.kind
 
 
-@dataclass
+@dataclass(eq=False)
 class HeatOperator:
     """``A theta = b(sources)`` for one water-flow state: the face coefficients, the boundary heat
     terms and the matrix ``A`` (heat outflow per kelvin, W per metre per K)."""
@@ -178,12 +178,22 @@ class HeatOperator:
         geo = self.geometry
         return float(np.abs(self.a_lo * theta[geo.lo]).sum() + np.abs(self.a_hi * theta[geo.hi]).sum())
 
+    @cached_property
+    def _source_vectors(self) -> dict[str, np.ndarray]:
+        """Per source, the right-hand side of a source temperature of 1 K."""
+        out: dict[str, np.ndarray] = {}
+        for t in self.terms:
+            if t.source is not None:
+                v = out.setdefault(t.source, np.zeros(self.geometry.n))
+                v += np.bincount(t.cells, weights=t.s, minlength=v.size)
+        return out
+
     def rhs(self, sources: dict[str, float]) -> np.ndarray:
         """``b``: the heat the boundary sources bring in at their temperatures."""
         b = np.zeros(self.geometry.n)
-        for t in self.terms:
-            if t.source is not None and sources[t.source] != 0.0:
-                b += np.bincount(t.cells, weights=t.s * sources[t.source], minlength=b.size)
+        for name, v in self._source_vectors.items():
+            if sources[name] != 0.0:
+                b += sources[name] * v
         return b
 
     def budget(self, theta: np.ndarray, sources: dict[str, float], weight: float = 1.0,

@@ -85,7 +85,10 @@ class HeatModel:
     def factor(self, M: sp.spmatrix):
         self.factorizations += 1
         try:
-            return spla.splu(sp.csc_matrix(M))
+            # the matrix is structurally symmetric and diagonally dominant (an M-matrix): the
+            # symmetric ordering of the flow solves, no pivoting
+            return spla.splu(sp.csc_matrix(M), permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
+                             options={"SymmetricMode": True})
         except RuntimeError as err:
             raise SolverError(f"the heat matrix is singular ({err})") from None
 
