@@ -11,6 +11,9 @@ An observation table has the columns ``kind, x, depth, time, value, sigma`` (SI)
 ``seepage``
     bed flux averaged over the pan footprint ``[x - D/2, x + D/2]`` (submerged columns only,
     weighted by overlap), positive upward (discharge into the stream).
+``temperature``
+    temperature (degC) of a logger at the point ``depth`` below the ground at ``x``, bilinear like a
+    head; predicted by :mod:`bedflux.forward.heat_observe` (scenarios with ``[heat]``).
 
 Each operator is linear in the heads: ``value = W h + c``; for seepage the weights carry the bed
 conductances, whose dependence on the parameters the sensitivity code adds explicitly.
@@ -29,7 +32,7 @@ from bedflux.scenario.units import SECONDS_PER_DAY
 from bedflux.section.discretisation import Section, Term
 
 COLUMNS = ("kind", "x", "depth", "time", "value", "sigma")
-KINDS = ("head", "vhg", "seepage")
+KINDS = ("head", "vhg", "seepage", "temperature")
 #: Pan diameter when none is given: the end of a 208 L (55 US gal) drum, about 0.57 m (common practice).
 DEFAULT_PAN_DIAMETER = 0.57
 #: Scatter of a seepage-meter reading about the true flux, as a fraction (about 30 % for careful
@@ -245,6 +248,7 @@ def predict(section: Section, ops: Operators, u: np.ndarray, terms: list[Term], 
     h = u + section.h_ref
     out = ops.head_weights @ h
     kind = ops.kind
+    out[kind == "temperature"] = np.nan  # filled from the heat run (bedflux.forward.heat_observe)
     vhg = kind == "vhg"
     if vhg.any():
         x = ops.table["x"].to_numpy()[vhg]
@@ -268,7 +272,7 @@ def linear_parts(section: Section, ops: Operators, u: np.ndarray, terms: list[Te
     scale = np.ones(ops.n)
     vhg = kind == "vhg"
     scale[vhg] = 1.0 / ops.table["depth"].to_numpy()[vhg]
-    rows = sp.diags(np.where(kind == "seepage", 0.0, scale)) @ ops.head_weights
+    rows = sp.diags(np.where((kind == "seepage") | (kind == "temperature"), 0.0, scale)) @ ops.head_weights
     seep = kind == "seepage"
     if not seep.any():
         return rows.tocsr(), np.zeros((ops.n, 0)), np.zeros(0), stream_top(terms)

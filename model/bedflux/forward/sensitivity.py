@@ -27,7 +27,9 @@ import numpy as np
 import pandas as pd
 
 from bedflux.errors import InputError
+from bedflux.forward.heat_observe import observe_temperatures, require_heat
 from bedflux.forward.observe import (DEFAULT_PAN_DIAMETER, build_operators, check_observations, linear_parts, predict)
+from bedflux.scenario.heat import THERMAL_PROPERTIES
 from bedflux.scenario.spec import Scenario
 from bedflux.section.discretisation import ET_LINEAR, Section, Term, discretise
 from bedflux.section.operator import half_cell_resistance
@@ -196,6 +198,8 @@ def derivative_rule(scenario: Scenario, path: str) -> DerivativeRule:
     names = scenario.zone_names()
     if len(parts) == 2 and parts[0] in names and parts[1] in ("kh", "kv", "specific_storage", "specific_yield"):
         return DerivativeRule(f"zone-{parts[1]}", zone=names.index(parts[0]))
+    if len(parts) == 2 and parts[0] in names and parts[1] in THERMAL_PROPERTIES:
+        return DerivativeRule(f"thermal-{parts[1]}", zone=names.index(parts[0]))
     if path == "recharge.rate":
         return DerivativeRule("recharge")
     if len(parts) == 3 and parts[0] == "riparian" and parts[2] == "max_rate":
@@ -335,8 +339,11 @@ class Forward:
     def __post_init__(self):
         self.observations = check_observations(self.observations, self.source, self.scenario.transient)
         self.rules = [derivative_rule(self.scenario, p.path) for p in self.free]
+        self.has_temperature = bool((self.observations["kind"] == "temperature").any())
         # every observation must lie in the section (checked once, before any fitting)
-        build_operators(discretise(self.scenario_at(self.start())), self.observations, self.pan_diameter, self.source)
+        section = discretise(self.scenario_at(self.start()))
+        build_operators(section, self.observations, self.pan_diameter, self.source)
+        require_heat(section, self.has_temperature, self.source)
         if self.scenario.transient:
             t = self.observations["time"]
             late = t > self.scenario.time.end
@@ -376,6 +383,9 @@ class Forward:
         analytic = [] if self.scenario.variably_saturated else [
             j for j, rule in enumerate(self.rules) if rule.name != "numeric"
             and not (rule.name in _STORAGE_RULES and not self.scenario.transient)]
+        if self.has_temperature:
+            # temperatures depend on the flow parameters through the whole run: central differences
+            analytic = [j for j in analytic if self.rules[j].name.startswith("thermal-")]
         d, J = self._run(m, analytic)
         for j, rule in enumerate(self.rules):
             if j in analytic:
@@ -420,11 +430,26 @@ class Forward:
                 Jsub = self._steady_jacobian(section, ops, sol, [self.rules[j] for j in analytic],
                                              [values[j] for j in analytic])
                 J[:, analytic] = Jsub * chain[analytic][None, :]
-            return d, J
-        d, Jsub = self._transient(section, ops, [self.rules[j] for j in analytic], [values[j] for j in analytic])
-        if analytic:
-            J[:, analytic] = Jsub * chain[analytic][None, :]
+        else:
+            d, Jsub = self._transient(section, ops, [self.rules[j] for j in analytic], [values[j] for j in analytic])
+            if analytic:
+                J[:, analytic] = Jsub * chain[analytic][None, :]
+        if self.has_temperature:
+            self._temperatures(section, ops, d, J, analytic, values, chain)
         return d, J
+
+    def _temperatures(self, section: Section, ops, d: np.ndarray, J: np.ndarray, analytic: list[int],
+                      values: list[float], chain: np.ndarray) -> None:
+        """Fill the temperature rows of ``d`` and the thermal columns of ``J`` (the others are zero
+        for temperatures only when they are thermal parameters; see :mod:`bedflux.forward.heat_observe`)."""
+        rows = ops.kind == "temperature"
+        thermal = [j for j in analytic if self.rules[j].name.startswith("thermal-")]
+        params = [(self.rules[j].name.split("-", 1)[1], self.rules[j].zone, values[j]) for j in thermal]
+        times = ops.table["time"].to_numpy()[rows] if section.scenario.transient else np.zeros(int(rows.sum()))
+        vals, jac = observe_temperatures(section, ops.head_weights[rows], times, params)
+        d[rows] = vals
+        if thermal:
+            J[np.ix_(rows, thermal)] = jac * chain[thermal][None, :]
 
     def _steady_jacobian(self, section: Section, ops, sol, rules: list[DerivativeRule], values: list[float]
                          ) -> np.ndarray:

@@ -28,8 +28,8 @@ from bedflux.scenario.spec import Scenario
 from bedflux.section.discretisation import Section, Term
 from bedflux.section.flood import peak_attrs
 from bedflux.section.fluxes import CLOSURE_LIMIT, check_closure, derive
-from bedflux.section.heat import (HEAT_LINES, PECLET_ADVICE, HeatGeometry, HeatOperator, heat_operator,
-                                  thermal_cells)
+from bedflux.section.heat import (HEAT_LINES, PECLET_ADVICE, HeatGeometry, HeatOperator, ThermalCells,
+                                  heat_operator, thermal_cells)
 from bedflux.section.results import add_variables, build_dataset
 from bedflux.section.steady import solve_steady
 from bedflux.section.transient import RANNACHER_STEPS, StepInfo, output_times, run_transient
@@ -56,10 +56,10 @@ def steady_value(signal: Signal) -> float:
 class HeatModel:
     """Temperatures relative to the groundwater temperature, their sources and their steps."""
 
-    def __init__(self, section: Section):
+    def __init__(self, section: Section, cells: ThermalCells | None = None):
         self.section = section
         self.spec = section.scenario.heat
-        self.cells = thermal_cells(section)
+        self.cells = thermal_cells(section) if cells is None else cells
         self.geometry = HeatGeometry(section, self.cells)
         self.t_ref = self.spec.groundwater
         self.storage = self.cells.capacity * section.cell_volume  # J/K per metre of width
@@ -171,6 +171,41 @@ def _steady(section: Section, model: HeatModel, method: str) -> xr.Dataset:
     return _with_heat(ds, model, [theta], [budget], [gross], steady=True, attrs={"heat_run": "steady"})
 
 
+def step_plan(ts) -> tuple[list[tuple[float, float, float]], set[int]]:
+    """The heat steps of a steady-flow run: ``(t0, t1, weight)`` of every (sub)step (Crank-Nicolson
+    starts with two pairs of backward-Euler half steps) and the indices of the steps that end on an
+    output time."""
+    weight = 0.5 if ts.scheme == "crank-nicolson" else 1.0
+    plan: list[tuple[float, float, float]] = []
+    ends: set[int] = set()
+    t, starts = 0.0, RANNACHER_STEPS if weight != 1.0 else 0
+    for t_out in output_times(ts.end, ts.output_every)[1:]:
+        while t < t_out - 1e-9 * max(t_out, 1.0):
+            dt = min(ts.step, t_out - t)
+            if t_out - (t + dt) < 1e-6 * ts.step:
+                dt = t_out - t
+            parts = [(dt / 2, 1.0)] * 2 if starts > 0 else [(dt, weight)]
+            starts = max(starts - 1, 0)
+            for h, w in parts:
+                plan.append((t, t + h, w))
+                t += h
+        ends.add(len(plan) - 1)
+    return plan, ends
+
+
+class StepFactors:
+    """Factorizations of ``storage/dt + w A`` for one operator, by step length and weight."""
+
+    def __init__(self, model: HeatModel, op: HeatOperator):
+        self.model, self.op, self._store = model, op, {}
+
+    def __call__(self, dt: float, w: float):
+        key = (round(dt, 9), w)
+        if key not in self._store:
+            self._store[key] = self.model.factor(self.model.step_matrix(self.op, dt, w))
+        return self._store[key]
+
+
 def _steady_flow(section: Section, model: HeatModel, progress) -> xr.Dataset:
     sc = section.scenario
     ts = sc.time
@@ -179,35 +214,20 @@ def _steady_flow(section: Section, model: HeatModel, progress) -> xr.Dataset:
     fl = derive(section, sol.u, sol.terms, np.zeros(section.n), wet=section.submerged(0.0))
     op = model.operator([(1.0, sol.u, sol.terms)], sol.terms, 0.0)
     theta, budget, gross = model.initial(op)
-    weight = 0.5 if ts.scheme == "crank-nicolson" else 1.0
-    factors: dict[tuple[float, float], object] = {}
-
-    def factor(dt: float, w: float):
-        key = (round(dt, 9), w)
-        if key not in factors:
-            factors[key] = model.factor(model.step_matrix(op, dt, w))
-        return factors[key]
-
-    times = output_times(ts.end, ts.output_every)
+    factor = StepFactors(model, op)
+    plan, ends = step_plan(ts)
     thetas, budgets, grosses = [theta], [budget], [gross]
-    t, steps, starts = 0.0, 0, RANNACHER_STEPS if weight != 1.0 else 0
-    for t_out in times[1:]:
-        while t < t_out - 1e-9 * max(t_out, 1.0):
-            dt = min(ts.step, t_out - t)
-            if t_out - (t + dt) < 1e-6 * ts.step:
-                dt = t_out - t
-            parts = [(dt / 2, 1.0)] * 2 if starts > 0 else [(dt, weight)]
-            starts = max(starts - 1, 0)
-            for h, w in parts:
-                theta, budget, gross = model.step(op, factor(h, w), theta, t, t + h, w)
-                t += h
-            steps += 1
+    for i, (t0, t1, w) in enumerate(plan):
+        theta, budget, gross = model.step(op, factor(t1 - t0, w), theta, t0, t1, w)
+        if i in ends:
+            thetas.append(theta)
+            budgets.append(budget)
+            grosses.append(gross)
             if progress is not None:
-                progress(t / ts.end)
-        thetas.append(theta)
-        budgets.append(budget)
-        grosses.append(gross)
+                progress(t1 / ts.end)
+    times = output_times(ts.end, ts.output_every)
     n = len(times)
+    steps = len(plan) - (RANNACHER_STEPS if ts.scheme == "crank-nicolson" else 0)  # half-step pairs are one
     attrs = {"run": "transient", "scheme": ts.scheme, "solver": "direct", "cells": section.n, "steps": steps,
              "factorizations": 1, "flow": "steady: one flow solve for every step", **peak_attrs(sc)}
     if ts.origin is not None:
