@@ -213,13 +213,14 @@ def run_figures(ds: xr.Dataset, outdir: str | Path, unit: str = "m/d") -> list[P
 
 
 _KIND_UNITS = {"head": ("head (m)", 1.0), "vhg": ("vertical gradient (-), up > 0", 1.0),
-               "seepage": ("seepage flux (m/d), up > 0", SECONDS_PER_DAY)}
+               "seepage": ("seepage flux (m/d), up > 0", SECONDS_PER_DAY),
+               "temperature": ("temperature (degC)", 1.0)}
 
 
 def observed_vs_simulated(residuals, path: str | Path) -> Path:
     """Observed against simulated values with error bars (2 sigma), one panel per kind."""
     apply_style()
-    kinds = [k for k in ("head", "vhg", "seepage") if (residuals["kind"] == k).any()]
+    kinds = [k for k in _KIND_UNITS if (residuals["kind"] == k).any()]
     fig, axes = plt.subplots(1, len(kinds), figsize=(3.6 * len(kinds), 3.4), squeeze=False)
     for ax, k in zip(axes[0], kinds):
         r = residuals[residuals["kind"] == k]
@@ -242,7 +243,7 @@ def residual_figure(residuals, path: str | Path, steady: bool = False) -> Path:
     row number, since a steady run has no clock)."""
     apply_style()
     fig, (a, b) = plt.subplots(1, 2, figsize=(8, 3.2), sharey=True)
-    markers = {"head": "s", "vhg": "^", "seepage": "o"}
+    markers = {"head": "s", "vhg": "^", "seepage": "o", "temperature": "D"}
     row = np.arange(1, len(residuals) + 1)
     for k, r in residuals.groupby("kind"):
         a.plot(r["x"], r["weighted_residual"], markers.get(k, "o"), ms=4, label=k, mfc="none", color="k")
