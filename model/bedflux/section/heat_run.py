@@ -217,24 +217,37 @@ def _steady_flow(section: Section, model: HeatModel, progress) -> xr.Dataset:
     factor = StepFactors(model, op)
     plan, ends = step_plan(ts)
     thetas, budgets, grosses = [theta], [budget], [gross]
-    for i, (t0, t1, w) in enumerate(plan):
-        theta, budget, gross = model.step(op, factor(t1 - t0, w), theta, t0, t1, w)
-        if i in ends:
-            thetas.append(theta)
-            budgets.append(budget)
-            grosses.append(gross)
-            if progress is not None:
-                progress(t1 / ts.end)
-    times = output_times(ts.end, ts.output_every)
+    partial, failure, t = "", None, 0.0
+    try:
+        for i, (t0, t1, w) in enumerate(plan):
+            t = t0
+            theta, budget, gross = model.step(op, factor(t1 - t0, w), theta, t0, t1, w)
+            if i in ends:
+                thetas.append(theta)
+                budgets.append(budget)
+                grosses.append(gross)
+                if progress is not None:
+                    progress(t1 / ts.end)
+    except KeyboardInterrupt:
+        partial = "interrupted at t = {t:g} s; outputs up to t = {last:g} s of {end:g} s"
+    except SolverError as err:
+        failure = err
+        partial = f"stopped: {err}; outputs up to t = {{last:g}} s of {{end:g}} s"
+    times = output_times(ts.end, ts.output_every)[: len(thetas)]
     n = len(times)
     steps = len(plan) - (RANNACHER_STEPS if ts.scheme == "crank-nicolson" else 0)  # half-step pairs are one
     attrs = {"run": "transient", "scheme": ts.scheme, "solver": "direct", "cells": section.n, "steps": steps,
              "factorizations": 1, "flow": "steady: one flow solve for every step", **peak_attrs(sc)}
     if ts.origin is not None:
         attrs["start"] = str(np.datetime64(int(round(ts.origin)), "s"))
+    if partial:
+        attrs["partial"] = partial.format(t=t, last=float(times[-1]), end=ts.end)
     ds = build_dataset(section, [fl] * n, [section.stage(0.0)] * n, list(times), attrs)
-    return _with_heat(ds, model, thetas, budgets, grosses, steady=False,
-                      attrs={"heat_run": "transient, steady flow", "heat_scheme": ts.scheme})
+    ds = _with_heat(ds, model, thetas, budgets, grosses, steady=False,
+                    attrs={"heat_run": "transient, steady flow", "heat_scheme": ts.scheme})
+    if failure is not None:
+        raise SolverError(str(failure), partial=ds) from failure
+    return ds
 
 
 def _transient_flow(section: Section, model: HeatModel, progress) -> xr.Dataset:
@@ -257,11 +270,20 @@ def _transient_flow(section: Section, model: HeatModel, progress) -> xr.Dataset:
         current["theta"] = theta
         record[round(info.t1, 6)] = (theta, budget, gross)
 
-    run = run_transient(section, progress=progress, on_start=on_start, on_step=on_step)
-    ds = build_dataset(section, run.states, run.stages, run.times, run.attrs)
-    picked = [record[0.0]] + [record[round(t, 6)] for t in run.times[1:]]
-    return _with_heat(ds, model, *zip(*picked), steady=False,
-                      attrs={"heat_run": "transient flow, heat after every flow step", "heat_scheme": "backward-euler"})
+    def package(run) -> xr.Dataset:
+        ds = build_dataset(section, run.states, run.stages, run.times, run.attrs)
+        picked = [record[0.0]] + [record[round(t, 6)] for t in run.times[1:]]
+        return _with_heat(ds, model, *zip(*picked), steady=False,
+                          attrs={"heat_run": "transient flow, heat after every flow step",
+                                 "heat_scheme": "backward-euler"})
+
+    try:
+        run = run_transient(section, progress=progress, on_start=on_start, on_step=on_step)
+    except SolverError as err:
+        if err.partial is None:
+            raise
+        raise SolverError(str(err), partial=package(err.partial)) from err
+    return package(run)
 
 
 def _with_heat(ds: xr.Dataset, model: HeatModel, thetas, budgets, grosses, steady: bool,
