@@ -90,7 +90,7 @@ def test_amplitude_ratio_method_gives_back_the_model_flux(records):
 def test_field_estimator_gives_back_the_model_flux(records, method):
     t, shallow, deep, q_model = records
     out = bedflux.field.flux_from_temperature(t, shallow, deep, 0.10, LAMBDA, BULK, period=PERIOD, method=method)
-    late = out[out["time"] >= 5 * PERIOD]
+    late = out[(out["time"] >= 5 * PERIOD) & np.isfinite(out["flux"])]  # after the start-up transient
     assert len(late) > 0
     a1, _ = harmonic(t[t >= 7 * PERIOD - 1], shallow[t >= 7 * PERIOD - 1], PERIOD)
     a2, _ = harmonic(t[t >= 7 * PERIOD - 1], deep[t >= 7 * PERIOD - 1], PERIOD)
