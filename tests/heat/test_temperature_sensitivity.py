@@ -90,3 +90,24 @@ def test_temperature_observations_need_heat():
     s = bedflux.Scenario.from_dict(d)
     with pytest.raises(InputError, match=r"\[heat\]"):
         Forward(s, OBS, free_parameters(s, [{"path": "bed.kv", "low": 1e-7, "high": 1e-3}]))
+
+
+def test_temperatures_through_a_flood_are_the_model_temperatures():
+    # a run whose flow changes (stage pulse over a floodplain): heat follows every flow step, and a
+    # logger's prediction is the model temperature at its point (a cell centre at an output time)
+    from .test_energy_budget import SECTION
+
+    s = bedflux.Scenario.from_dict(SECTION)
+    ds = bedflux.simulate(s)
+    col = ds.temperature.sel(x=0.25, method="nearest")
+    active = np.flatnonzero(np.isfinite(col.isel(time=0).values))
+    k = int(active[2])  # the third cell below the bed: a full cell, its centre at the row centre
+    depth = float(ds.ground.sel(x=0.25, method="nearest")) - float(ds.z.values[k])
+    assert 0.05 < depth < 1.0  # in the bed layer or just below it
+    obs = pd.DataFrame({"kind": ["temperature", "temperature"], "x": [0.25, 0.25], "depth": [depth, depth],
+                        "time": [14400.0, 36000.0], "value": [15.0, 15.0], "sigma": [0.1, 0.1]})
+    f = Forward(s, obs, free_parameters(s, [{"path": "bed.thermal_conductivity", "low": 0.5, "high": 4.0}]))
+    d = f.predict(f.start())
+    expected = [float(col.sel(time=t).values[k]) for t in (14400.0, 36000.0)]
+    assert d == pytest.approx(expected, abs=1e-9)
+    assert abs(expected[1] - expected[0]) > 0.1  # the temperature moved between the two readings

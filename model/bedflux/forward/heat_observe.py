@@ -3,10 +3,11 @@ thermal properties.
 
 A ``temperature`` observation is the model temperature at the point ``depth`` below the ground at
 ``x``, interpolated like a head (bilinear), and linearly in time between the heat steps around it.
-Scenarios with ``[heat]`` whose flow is steady (a steady run, or a transient run with constant
-forcing) are supported.
+In a run whose flow changes (a flood), heat follows every flow step and the temperatures come
+without analytic sensitivities (every Jacobian column by central differences of whole runs).
 
-Sensitivities to ``ZONE.thermal_conductivity``, ``ZONE.heat_capacity`` and ``ZONE.dispersivity``
+With steady flow (a steady run, or a transient run with constant forcing), sensitivities to
+``ZONE.thermal_conductivity``, ``ZONE.heat_capacity`` and ``ZONE.dispersivity``
 (the direct method, carried along the heat steps with the forward run's factors):
 
     steady:  A s = dR/dp,        R = b - A theta
@@ -32,7 +33,7 @@ from bedflux.errors import InputError
 from bedflux.scenario.heat import WATER_HEAT_CAPACITY
 from bedflux.section.discretisation import Section
 from bedflux.section.heat import ThermalCells
-from bedflux.section.heat_run import HeatModel, StepFactors, flow_is_steady, step_plan
+from bedflux.section.heat_run import HeatModel, StepFactors, flow_is_steady, heat_along_flow, step_plan
 from bedflux.section.steady import solve_steady
 
 #: Relative step of the central difference of the heat operator's assembly.
@@ -52,9 +53,6 @@ def require_heat(section: Section, has_temperature: bool, source: str) -> None:
     if sc.variably_saturated:
         raise InputError("temperature observations need saturated (linear) zones: [heat] does not run with "
                          "retention in this release", source=source)
-    if sc.transient and not flow_is_steady(sc):
-        raise InputError("temperature observations are predicted for scenarios whose flow is steady (constant "
-                         "stage and side heads, no daily ET cycle, steady start) in this release", source=source)
 
 
 def perturbed_cells(cells: ThermalCells, prop: str, zone: int, step: float) -> ThermalCells:
@@ -74,6 +72,10 @@ def observe_temperatures(section: Section, weights: sp.csr_matrix, times: np.nda
     """
     sc = section.scenario
     model = HeatModel(section)
+    if sc.transient and not flow_is_steady(sc):
+        if params:
+            raise ValueError("analytic thermal sensitivities need a steady flow")
+        return _along_flow(section, model, weights, times), np.zeros((times.size, 0))
     sol = solve_steady(section, 0.0, method="direct")
     flows = [(1.0, sol.u, sol.terms)]
     op = model.operator(flows, sol.terms, 0.0)
@@ -141,3 +143,24 @@ def observe_temperatures(section: Section, weights: sp.csr_matrix, times: np.nda
         v_prev, j_prev = v1, j1
     return values + t_ref, jac
 
+
+def _along_flow(section: Section, model: HeatModel, weights: sp.csr_matrix, times: np.ndarray) -> np.ndarray:
+    """Temperatures at the observations of a run whose flow changes (heat after every flow step),
+    linear in time between the steps around each observation."""
+    values = np.full(times.size, np.nan)
+    prev: dict[str, np.ndarray] = {}
+
+    def on_heat(t0, t1, theta, _budget, _gross) -> None:
+        v1 = weights @ theta
+        if t1 == 0.0:
+            at0 = times <= 0.0
+            values[at0] = v1[at0]
+        else:
+            inside = (times > t0) & (times <= t1 + 1e-9 * max(t1, 1.0))
+            if inside.any():
+                a = (times[inside] - t0) / (t1 - t0)
+                values[inside] = (1 - a) * prev["v"][inside] + a * v1[inside]
+        prev["v"] = v1
+
+    heat_along_flow(section, model, on_heat)
+    return values + model.t_ref

@@ -28,6 +28,7 @@ import pandas as pd
 
 from bedflux.errors import InputError
 from bedflux.forward.heat_observe import observe_temperatures, require_heat
+from bedflux.section.heat_run import flow_is_steady
 from bedflux.forward.observe import (DEFAULT_PAN_DIAMETER, build_operators, check_observations, linear_parts, predict)
 from bedflux.scenario.heat import THERMAL_PROPERTIES
 from bedflux.scenario.spec import Scenario
@@ -384,8 +385,10 @@ class Forward:
             j for j, rule in enumerate(self.rules) if rule.name != "numeric"
             and not (rule.name in _STORAGE_RULES and not self.scenario.transient)]
         if self.has_temperature:
-            # temperatures depend on the flow parameters through the whole run: central differences
-            analytic = [j for j in analytic if self.rules[j].name.startswith("thermal-")]
+            # temperatures depend on the flow parameters through the whole run: central differences;
+            # thermal parameters are analytic where the flow is steady
+            steady_flow = not self.scenario.transient or flow_is_steady(self.scenario)
+            analytic = [j for j in analytic if self.rules[j].name.startswith("thermal-") and steady_flow]
         d, J = self._run(m, analytic)
         for j, rule in enumerate(self.rules):
             if j in analytic:

@@ -250,15 +250,18 @@ def _steady_flow(section: Section, model: HeatModel, progress) -> xr.Dataset:
     return ds
 
 
-def _transient_flow(section: Section, model: HeatModel, progress) -> xr.Dataset:
-    record: dict[float, tuple[np.ndarray, dict, float]] = {}
+def heat_along_flow(section: Section, model: HeatModel, on_heat: Callable, progress=None):
+    """Run a transient flow and heat after every flow step (backward Euler with the step's mean
+    water flows); ``on_heat(t0, t1, theta, budget, gross)`` is called for the start (``t0 = t1 = 0``)
+    and after every heat step. Returns the flow's :class:`TransientRun` (raises like
+    :func:`bedflux.section.transient.run_transient`)."""
     current: dict[str, np.ndarray] = {}
 
     def on_start(u, terms, _init) -> None:
         op = model.operator([(1.0, u, terms)], terms, 0.0)
         theta, budget, gross = model.initial(op)
         current["theta"] = theta
-        record[0.0] = (theta, budget, gross)
+        on_heat(0.0, 0.0, theta, budget, gross)
 
     def on_step(info: StepInfo) -> None:
         flows = [(info.theta, info.u1, info.terms1)]
@@ -268,7 +271,16 @@ def _transient_flow(section: Section, model: HeatModel, progress) -> xr.Dataset:
         factor = model.factor(model.step_matrix(op, info.dt, 1.0))
         theta, budget, gross = model.step(op, factor, current["theta"], info.t0, info.t1, 1.0)
         current["theta"] = theta
-        record[round(info.t1, 6)] = (theta, budget, gross)
+        on_heat(info.t0, info.t1, theta, budget, gross)
+
+    return run_transient(section, progress=progress, on_start=on_start, on_step=on_step)
+
+
+def _transient_flow(section: Section, model: HeatModel, progress) -> xr.Dataset:
+    record: dict[float, tuple[np.ndarray, dict, float]] = {}
+
+    def on_heat(_t0, t1, theta, budget, gross) -> None:
+        record[round(t1, 6)] = (theta, budget, gross)
 
     def package(run) -> xr.Dataset:
         ds = build_dataset(section, run.states, run.stages, run.times, run.attrs)
@@ -278,7 +290,7 @@ def _transient_flow(section: Section, model: HeatModel, progress) -> xr.Dataset:
                                  "heat_scheme": "backward-euler"})
 
     try:
-        run = run_transient(section, progress=progress, on_start=on_start, on_step=on_step)
+        run = heat_along_flow(section, model, on_heat, progress)
     except SolverError as err:
         if err.partial is None:
             raise
