@@ -4,7 +4,6 @@ CF-style units; temperatures in degC)."""
 from __future__ import annotations
 
 import tomllib
-from pathlib import Path
 
 import numpy as np
 import xarray as xr
