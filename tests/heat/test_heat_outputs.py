@@ -48,6 +48,10 @@ def test_run_writes_temperature_budget_summary_and_figure(tmp_path):
         assert ds["heat_inflow"].attrs["units"] == "W m-1"
         assert list(ds["heat_term"].values)[-1] == "heat_storage"
         assert ds.sizes["time"] == 4
+        # steady flow: one flow solve; the heat matrix factorized for the start (steady temperature)
+        # and once for all 12 steps (design brief: factor once, reuse the factor)
+        assert ds.attrs["heat_run"] == "transient, steady flow"
+        assert ds.attrs["heat_factorizations"] == 2 and ds.attrs["steps"] == 12
         temp = ds["temperature"].values
         assert np.nanmin(temp) >= 10.0 - 1e-9 and np.nanmax(temp) <= 18.0 + 1e-9
         assert np.nanmax(np.abs(ds["heat_closure"].values[1:])) < 1e-12
