@@ -172,6 +172,7 @@ class HeatOperator:
     terms: list[HeatTerm]
     A: sp.csr_matrix
     peclet_max: float
+    peclet_at: tuple[float, float] = (float("nan"), float("nan"))
 
     def internal_gross(self, theta: np.ndarray) -> float:
         """Sum of the magnitudes of the face heat flows' parts (the scale of their round-off)."""
@@ -269,5 +270,9 @@ def heat_operator(geo: HeatGeometry, flows: list[tuple[float, np.ndarray, list[T
     cols = np.concatenate([geo.lo, geo.hi, geo.hi, geo.lo, all_cells])
     vals = np.concatenate([a_lo, -a_hi, a_hi, -a_lo, diag])
     A = sp.csr_matrix((vals, (rows, cols)), shape=(geo.n, geo.n))
-    peclet = float(np.abs(P).max()) if P.size else 0.0
-    return HeatOperator(geo, a_lo, a_hi, terms, A, peclet)
+    if not P.size:
+        return HeatOperator(geo, a_lo, a_hi, terms, A, 0.0)
+    k = int(np.argmax(np.abs(P)))
+    pos = geo.section.hfaces.positions[geo.lo[k]]
+    at = (float(g.xc[pos % g.nx]), float(g.z_centre.ravel()[pos]))
+    return HeatOperator(geo, a_lo, a_hi, terms, A, float(abs(P[k])), at)

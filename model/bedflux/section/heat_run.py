@@ -65,6 +65,7 @@ class HeatModel:
         self.storage = self.cells.capacity * section.cell_volume  # J/K per metre of width
         self.factorizations = 0
         self.peclet_max = 0.0
+        self.peclet_at = (float("nan"), float("nan"))
 
     def sources(self, t: float, steady: bool = False) -> dict[str, float]:
         """Source temperatures relative to the groundwater temperature at time ``t``."""
@@ -79,7 +80,8 @@ class HeatModel:
     def operator(self, flows: list[tuple[float, np.ndarray, list[Term]]], wet_terms: list[Term],
                  t: float) -> HeatOperator:
         op = heat_operator(self.geometry, flows, wet_terms, t, self.spec.ground is not None)
-        self.peclet_max = max(self.peclet_max, op.peclet_max)
+        if op.peclet_max > self.peclet_max:
+            self.peclet_max, self.peclet_at = op.peclet_max, op.peclet_at
         return op
 
     def factor(self, M: sp.spmatrix):
@@ -330,9 +332,10 @@ def _with_heat(ds: xr.Dataset, model: HeatModel, thetas, budgets, grosses, stead
                      "heat_factorizations": model.factorizations,
                      "heat_cell_peclet_max": model.peclet_max})
     if model.peclet_max > PECLET_ADVICE:
+        x, z = model.peclet_at
         ds.attrs["heat_warning"] = (f"the cell Peclet number reaches {model.peclet_max:.3g} (above "
-                                    f"{PECLET_ADVICE:g}): a daily temperature wave is smeared there; refine the "
-                                    "grid where the flow is fast")
+                                    f"{PECLET_ADVICE:g}) at x = {x:.4g} m, z = {z:.4g} m: a daily temperature "
+                                    "wave passing there is smeared; refine the grid where the flow is fast")
     return ds
 
 
