@@ -95,12 +95,3 @@ def test_cli_exits_2_and_writes_nothing(tmp_path, capsys):
     assert code == 2 and "Traceback" not in err
     assert "groundwater_temperature" in err and "s.toml" in err
     assert not (tmp_path / "o").exists()
-
-
-def test_variably_saturated_heat_is_refused():
-    d = copy.deepcopy(BASE)
-    d["zone"][0]["retention"] = {"model": "van-genuchten", "alpha": 3.6, "n": 1.56, "residual": 0.078,
-                                 "saturated": 0.43}
-    with pytest.raises(InputError) as err:
-        bedflux.simulate(bedflux.Scenario.from_dict(d))
-    assert "[heat]" in str(err.value) and "retention" in str(err.value)

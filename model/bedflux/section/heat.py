@@ -239,7 +239,8 @@ def heat_operator(geo: HeatGeometry, flows: list[tuple[float, np.ndarray, list[T
     lam = cells.conductivity
     for term in wet_terms:
         if term.kind == "stream" and term.face == "top":
-            cond = lam[term.cells] * term.width / geo.top_half[term.column_or_row]
+            width = g.dx[term.column_or_row] if term.width is None else term.width
+            cond = lam[term.cells] * width / geo.top_half[term.column_or_row]
             terms.append(HeatTerm("stream", term.cells, cond, cond, "stream"))
     base = section.sides["bottom"]
     cond = lam[base.cells] * base.area / (0.5 * g.thickness[g.nz - 1, base.column_or_row])

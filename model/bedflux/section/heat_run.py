@@ -22,8 +22,9 @@ import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 import xarray as xr
 
-from bedflux.errors import InputError, SolverError
+from bedflux.errors import SolverError
 from bedflux.scenario.forcing import Constant, Signal, Wave
+from bedflux.scenario.heat import WATER_HEAT_CAPACITY
 from bedflux.scenario.spec import Scenario
 from bedflux.section.discretisation import Section, Term
 from bedflux.section.flood import peak_attrs
@@ -150,10 +151,9 @@ def simulate_with_heat(section: Section, method: str = "auto",
     """Run a scenario with ``[heat]`` (linear zones) and return the result Dataset with
     ``temperature`` and the energy budget (see :mod:`bedflux.section.results`)."""
     sc = section.scenario
-    if sc.variably_saturated:
-        raise InputError("[heat] runs with saturated (linear) zones only in this release; remove "
-                         "retention from the zones or the [heat] table", source=sc.source, where="[heat]")
     model = HeatModel(section)
+    if sc.variably_saturated:
+        return _variably_saturated(section, model, method, progress)
     if not sc.transient:
         return _steady(section, model, method)
     if flow_is_steady(sc):
@@ -298,6 +298,42 @@ def _transient_flow(section: Section, model: HeatModel, progress) -> xr.Dataset:
             raise
         raise SolverError(str(err), partial=package(err.partial)) from err
     return package(run)
+
+
+def _variably_saturated(section: Section, model: HeatModel, method: str, progress) -> xr.Dataset:
+    """Heat after every accepted step of a variably saturated run: the flow view's faces (with
+    their relative conductivity), its terms, and the bulk heat capacity from the water content
+    ``theta_w rho_w c_w + (1 - theta_s) c_s`` at the step's end (air's capacity neglected; the
+    conductivity stays the zones' saturated value)."""
+    from bedflux.section.richards_run import run_variably_saturated
+    from bedflux.section.richards_steps import soil_water
+
+    solid = (model.cells.capacity - model.cells.porosity * WATER_HEAT_CAPACITY) / (1.0 - model.cells.porosity)
+    grains = (1.0 - soil_water(section.scenario, section).theta_s) * solid
+    record: dict[float, tuple[np.ndarray, dict, float]] = {}
+    current: dict[str, np.ndarray] = {}
+
+    def on_state(t0, t1, view, terms, u, water) -> None:
+        model.storage = (water * WATER_HEAT_CAPACITY + grains) * section.cell_volume
+        model.geometry = HeatGeometry(view, model.cells)
+        op = model.operator([(1.0, u, terms)], terms, t1)
+        if t1 == 0.0:
+            theta, budget, gross = (model.initial(op) if section.scenario.transient
+                                    else model.steady(op, model.sources(0.0, steady=True)))
+        else:
+            factor = model.factor(model.step_matrix(op, t1 - t0, 1.0))
+            theta, budget, gross = model.step(op, factor, current["theta"], t0, t1, 1.0)
+        current["theta"] = theta
+        record[round(t1, 6)] = (theta, budget, gross)
+
+    solver = {"direct": "direct", "amg-cg": "amg-gmres"}.get(method, "auto")
+    ds = run_variably_saturated(section, solver=solver, progress=progress, on_state=on_state)
+    steady = "time" not in ds.dims
+    times = [0.0] if steady else [float(t) for t in ds["time"].values]
+    picked = [record[round(t, 6)] for t in times]
+    return _with_heat(ds, model, *zip(*picked), steady=steady,
+                      attrs={"heat_run": "variably saturated, heat after every accepted step",
+                             "heat_scheme": "backward-euler"})
 
 
 def _with_heat(ds: xr.Dataset, model: HeatModel, thetas, budgets, grosses, steady: bool,
