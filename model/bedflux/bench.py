@@ -119,6 +119,50 @@ def _case_transient_step(n: float) -> dict:
             "factorization_seconds": float(ds.attrs["factorization_seconds"])}
 
 
+def _case_heat_step(n: float) -> dict:
+    """A heat step with steady flow (the heat matrix factorized once) against one flow back-solve
+    on the same section: the step with its right-hand side and energy budget, and its bare solve."""
+    import bedflux
+    from bedflux.section.discretisation import discretise
+    from bedflux.section.heat_run import HeatModel
+    from bedflux.section.linear import factorize
+    from bedflux.section.steady import solve_steady
+
+    d = section_dict(n, steady=False)
+    d["stream"] = {"stage": 0.5}
+    d["heat"] = {"stream_temperature": {"mean": 15, "amplitude": 4, "period": "1 d"}, "groundwater_temperature": 10}
+    d["time"] = {"end": "1 d", "step": "15 min"}
+    sec = discretise(bedflux.Scenario.from_dict(d))
+    terms = sec.terms(0.0, sec.initial_active_set())
+    flow = factorize(sec.matrix(terms, sec.storage(sec.submerged(0.0)) / 900.0), "direct")
+    b = sec.rhs(terms)
+    reps = 30
+    t0 = time.perf_counter()
+    for _ in range(reps):
+        flow.solve(b)
+    backsub = (time.perf_counter() - t0) / reps
+    sol = solve_steady(sec, 0.0, method="direct")
+    model = HeatModel(sec)
+    op = model.operator([(1.0, sol.u, sol.terms)], sol.terms, 0.0)
+    t0 = time.perf_counter()
+    heat = model.factor(model.step_matrix(op, 900.0, 1.0))
+    factor_seconds = time.perf_counter() - t0
+    theta = np.zeros(sec.n)
+    t0 = time.perf_counter()
+    for i in range(reps):
+        theta, _, _ = model.step(op, heat, theta, 900.0 * i, 900.0 * (i + 1), 1.0)
+    step = (time.perf_counter() - t0) / reps
+    rhs = model.storage / 900.0 * theta + op.rhs(model.sources(0.0))
+    t0 = time.perf_counter()
+    for _ in range(reps):
+        heat.solve(rhs)
+    heat_backsub = (time.perf_counter() - t0) / reps
+    return {"cells": sec.n, "flow_backsub_seconds": backsub, "heat_step_seconds": step,
+            "heat_backsub_seconds": heat_backsub, "heat_factorization_seconds": factor_seconds,
+            "step_over_flow_backsub": step / backsub, "heat_backsub_over_flow_backsub": heat_backsub / backsub,
+            "cell_peclet_max": op.peclet_max}
+
+
 def _case_flood() -> dict:
     import bedflux
     from pathlib import Path
@@ -235,7 +279,11 @@ def main(argv=None) -> int:
     ap.add_argument("--large", action="store_true", help="include the 4e6-cell section")
     ap.add_argument("--out", help="write the figures as JSON here")
     ap.add_argument("--flowpaths", action="store_true", help="only the flow-path cases")
+    ap.add_argument("--heat", action="store_true", help="only the heat step on a 1e5-cell section")
     args = ap.parse_args(argv)
+    if args.heat:
+        print(json.dumps(run_case(_case_heat_step, 1e5), indent=1), flush=True)
+        return 0
     results: dict = {"steady": {}, "transient": {}, "flowpaths": {}}
     results["flowpaths"]["1e5_cells_1e5_paths"] = run_case(_case_flowpaths, 1e5, 100_000)
     print(json.dumps(results["flowpaths"]["1e5_cells_1e5_paths"], indent=1), flush=True)
@@ -263,6 +311,8 @@ def main(argv=None) -> int:
         print(key, json.dumps(r, indent=1), flush=True)
     results["transient"]["step_1e5"] = run_case(_case_transient_step, 1e5)
     print(json.dumps(results["transient"]["step_1e5"], indent=1), flush=True)
+    results["transient"]["heat_step_1e5"] = run_case(_case_heat_step, 1e5)
+    print(json.dumps(results["transient"]["heat_step_1e5"], indent=1), flush=True)
     results["transient"]["flood_pulse"] = run_case(_case_flood)
     print(json.dumps(results["transient"]["flood_pulse"], indent=1), flush=True)
     results["transient"]["column_2000"] = run_case(_case_column)

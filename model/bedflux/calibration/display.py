@@ -13,6 +13,8 @@ _UNITS = {
     "per_time": (DAY, "1/d"),
     "length": (1.0, "m"),
     "dimensionless": (1.0, ""),
+    "thermal_conductivity": (1.0, "W/m/K"),
+    "heat_capacity": (1e-6, "MJ/m^3/K"),
 }
 
 
@@ -30,6 +32,8 @@ def dimension_of(path: str) -> str:
         return "per_time"
     if last in ("specific_yield", "porosity", "phase"):
         return "dimensionless"
+    if last in ("thermal_conductivity", "heat_capacity"):
+        return last
     return "length"
 
 

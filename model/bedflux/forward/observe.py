@@ -11,6 +11,9 @@ An observation table has the columns ``kind, x, depth, time, value, sigma`` (SI)
 ``seepage``
     bed flux averaged over the pan footprint ``[x - D/2, x + D/2]`` (submerged columns only,
     weighted by overlap), positive upward (discharge into the stream).
+``temperature``
+    temperature (degC) of a logger at the point ``depth`` below the ground at ``x``, bilinear like a
+    head; predicted by :mod:`bedflux.forward.heat_observe` (scenarios with ``[heat]``).
 
 Each operator is linear in the heads: ``value = W h + c``; for seepage the weights carry the bed
 conductances, whose dependence on the parameters the sensitivity code adds explicitly.
@@ -29,7 +32,7 @@ from bedflux.scenario.units import SECONDS_PER_DAY
 from bedflux.section.discretisation import Section, Term
 
 COLUMNS = ("kind", "x", "depth", "time", "value", "sigma")
-KINDS = ("head", "vhg", "seepage")
+KINDS = ("head", "vhg", "seepage", "temperature")
 #: Pan diameter when none is given: the end of a 208 L (55 US gal) drum, about 0.57 m (common practice).
 DEFAULT_PAN_DIAMETER = 0.57
 #: Scatter of a seepage-meter reading about the true flux, as a fraction (about 30 % for careful
@@ -149,12 +152,13 @@ class Operators:
 
     @property
     def head_rows(self) -> sp.csr_matrix:
-        """``d(value)/d(h)`` of the head and gradient observations (zero rows for seepage)."""
+        """``d(value)/d(h)`` of the head and gradient observations (zero rows for seepage and temperature)."""
         if self._head_rows is None:
             scale = np.ones(self.n)
             vhg = self.kind == "vhg"
             scale[vhg] = 1.0 / self.depth[vhg]
-            self._head_rows = (sp.diags(np.where(self.kind == "seepage", 0.0, scale)) @ self.head_weights).tocsr()
+            self._head_rows = (sp.diags(np.where((self.kind == "seepage") | (self.kind == "temperature"), 0.0, scale))
+                               @ self.head_weights).tocsr()
         return self._head_rows
 
 
@@ -265,6 +269,7 @@ def predict(section: Section, ops: Operators, u: np.ndarray, terms: list[Term], 
     h = u + section.h_ref
     out = ops.head_weights @ h
     kind = ops.kind
+    out[kind == "temperature"] = np.nan  # filled from the heat run (bedflux.forward.heat_observe)
     vhg = kind == "vhg"
     if vhg.any():
         x = ops.x[vhg]

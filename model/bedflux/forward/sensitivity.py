@@ -34,10 +34,13 @@ import numpy as np
 import pandas as pd
 
 from bedflux.errors import InputError
+from bedflux.forward.heat_observe import observe_temperatures, require_heat
 from bedflux.forward.observe import DEFAULT_PAN_DIAMETER, Operators, check_observations, linear_parts, predict
 from bedflux.forward.reuse import OperatorSource, SectionSource
+from bedflux.scenario.heat import THERMAL_PROPERTIES
 from bedflux.scenario.spec import Scenario
 from bedflux.section.discretisation import ET_LINEAR, Section, Term
+from bedflux.section.heat_run import flow_is_steady
 from bedflux.section.operator import half_cell_resistance
 from bedflux.section.steady import SteadySolution, solve_steady
 
@@ -213,6 +216,8 @@ def derivative_rule(scenario: Scenario, path: str) -> DerivativeRule:
         return DerivativeRule(f"zone-{parts[1]}", zone=names.index(parts[0]))
     if len(parts) == 3 and parts[0] in names and parts[1] == "retention" and parts[2] in ("alpha", "n"):
         return DerivativeRule(f"retention-{parts[2]}", zone=names.index(parts[0]))
+    if len(parts) == 2 and parts[0] in names and parts[1] in THERMAL_PROPERTIES:
+        return DerivativeRule(f"thermal-{parts[1]}", zone=names.index(parts[0]))
     if path == "recharge.rate":
         return DerivativeRule("recharge")
     if len(parts) == 3 and parts[0] == "riparian" and parts[2] == "max_rate":
@@ -402,7 +407,10 @@ class Forward:
         self._operators = OperatorSource(self.pan_diameter, self.source)
         self._last: _ForwardState | None = None
         # every observation must lie in the section (checked once, before any fitting)
-        self._operators.operators(self._section_at(self.start()), self.observations)
+        self.has_temperature = bool((self.observations["kind"] == "temperature").any())
+        section = self._section_at(self.start())
+        self._operators.operators(section, self.observations)
+        require_heat(section, self.has_temperature, self.source)
         if self.scenario.transient:
             t = self.observations["time"]
             late = t > self.scenario.time.end
@@ -446,6 +454,11 @@ class Forward:
         with_rule = VARIABLY_SATURATED_RULES if self.scenario.variably_saturated else _LINEAR_RULES
         analytic = [j for j, rule in enumerate(self.rules) if rule.name in with_rule
                     and not (rule.name in _STORAGE_RULES and not self.scenario.transient)]
+        if self.has_temperature:
+            # temperatures depend on the flow parameters through the whole run: central differences;
+            # thermal parameters (no effect on the flow) are analytic where the flow is steady
+            steady_flow = not self.scenario.transient or flow_is_steady(self.scenario)
+            analytic = [j for j, rule in enumerate(self.rules) if rule.name.startswith("thermal-") and steady_flow]
         d, J = self._run(m, analytic)
         for j, rule in enumerate(self.rules):
             if j in analytic:
@@ -501,14 +514,19 @@ class Forward:
             return _ForwardState(key, section, ops, run_with_sensitivities(section, ops, [], [], self.source)[0])
         if not section.scenario.transient:
             sol = solve_steady(section, reuse=True)
-            return _ForwardState(key, section, ops, predict(section, ops, sol.u, sol.terms, 0.0, self.source), sol)
+            d = predict(section, ops, sol.u, sol.terms, 0.0, self.source)
+            self._fill_temperatures(section, ops, d)
+            return _ForwardState(key, section, ops, d, sol)
         values = [p.natural(v) for p, v in zip(self.free, m)]
         d, columns = self._transient(section, ops, [self.rules[j] for j in carry], [values[j] for j in carry])
+        self._fill_temperatures(section, ops, d)
         return _ForwardState(key, section, ops, d, carried=carry, columns=columns)
 
     def _run(self, m: np.ndarray, analytic: list[int]) -> tuple[np.ndarray, np.ndarray]:
         if self.scenario.variably_saturated and analytic:
             return self._variably_saturated_run(m, analytic)
+        if self.has_temperature:
+            return self._temperature_run(m, analytic)
         state = self._state(m, analytic if self.scenario.transient else None)
         J = np.zeros((self.n_data, self.n_params))
         if state.section.scenario.variably_saturated or not analytic:
@@ -521,6 +539,33 @@ class Forward:
         else:
             Jsub = state.columns
         J[:, analytic] = Jsub * chain[analytic][None, :]
+        return state.predicted.copy(), J
+
+    def _fill_temperatures(self, section: Section, ops: Operators, d: np.ndarray) -> None:
+        """Fill the temperature rows of ``d`` from the heat run (nothing without temperatures)."""
+        if self.has_temperature:
+            rows, values, _ = self._temperatures(section, ops, [])
+            d[rows] = values
+
+    def _temperatures(self, section: Section, ops: Operators, params: list) -> tuple:
+        """The temperature rows, their simulated values and their derivatives with respect to the
+        thermal ``params`` (``(property, zone, value)``; :mod:`bedflux.forward.heat_observe`)."""
+        rows = ops.kind == "temperature"
+        times = ops.table["time"].to_numpy()[rows] if section.scenario.transient else np.zeros(int(rows.sum()))
+        values, jac = observe_temperatures(section, ops.head_weights[rows], times, params)
+        return rows, values, jac
+
+    def _temperature_run(self, m: np.ndarray, thermal: list[int]) -> tuple[np.ndarray, np.ndarray]:
+        """Predicted data with temperatures, and the analytic columns of the thermal parameters
+        ``thermal`` (they do not act on the flow: zero for every other kind)."""
+        state = self._state(m)
+        J = np.zeros((self.n_data, self.n_params))
+        if thermal:
+            values = [p.natural(v) for p, v in zip(self.free, m)]
+            chain = np.array([p.dnatural(v) for p, v in zip(self.free, m)])
+            params = [(self.rules[j].name.split("-", 1)[1], self.rules[j].zone, values[j]) for j in thermal]
+            rows, _, jac = self._temperatures(state.section, state.ops, params)
+            J[np.ix_(rows, thermal)] = jac * chain[thermal][None, :]
         return state.predicted.copy(), J
 
     def _variably_saturated_run(self, m: np.ndarray, analytic: list[int]) -> tuple[np.ndarray, np.ndarray]:

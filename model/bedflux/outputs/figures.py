@@ -23,6 +23,7 @@ GAINING = "#5e3c99"
 LOSING = "#e66101"
 HEAD_MAP = "cividis"
 FLUX_MAP = "PuOr"  # orange = losing (negative), purple = gaining, as GAINING / LOSING
+TEMPERATURE_MAP = "plasma"  # perceptually uniform, reads in greyscale
 ZONE_GREYS = ["#f2f2f2", "#d0d0d0", "#b0b0b0", "#909090", "#e0e0e0", "#c0c0c0"]
 
 
@@ -95,7 +96,7 @@ def _streamlines(ax, ds: xr.Dataset) -> None:
 def section_figure(ds: xr.Dataset, path: str | Path, unit: str = "m/d", time_index: int | None = None) -> Path:
     """Head contours and flow paths over the zones, with the bed-flux profile beneath; in a variably
     saturated run the unsaturated soil is shaded by 1 - saturation under the contours, with the
-    water table."""
+    water table; in a run with ``[heat]`` the temperature is shaded."""
     apply_style()
     whole = ds
     if "time" in ds.dims:
@@ -116,6 +117,11 @@ def section_figure(ds: xr.Dataset, path: str | Path, unit: str = "m/d", time_ind
                              alpha=0.55, shading="flat")
         fig.colorbar(mesh, ax=ax, fraction=0.03, pad=0.01).set_label("1 - saturation", fontsize=7)
         ax.plot(ds["x"].values, ds["water_table"].values, color="#08519c", lw=1.2, ls="--", label="water table")
+    elif "temperature" in ds:
+        # a run with [heat]: the temperature shaded under the head contours
+        mesh = ax.pcolormesh(xe, ze, np.ma.masked_invalid(ds["temperature"].values), cmap=TEMPERATURE_MAP,
+                             alpha=0.6, shading="flat")
+        fig.colorbar(mesh, ax=ax, fraction=0.03, pad=0.01).set_label("temperature (degC)", fontsize=7)
     head = ds["head"].values
     if np.isfinite(head).sum() > 4 and np.nanmax(head) > np.nanmin(head) and min(head.shape) > 1:
         cs = ax.contour(ds["x"].values, ds["z"].values, np.ma.masked_invalid(head), levels=12, cmap=HEAD_MAP,
@@ -207,13 +213,14 @@ def run_figures(ds: xr.Dataset, outdir: str | Path, unit: str = "m/d") -> list[P
 
 
 _KIND_UNITS = {"head": ("head (m)", 1.0), "vhg": ("vertical gradient (-), up > 0", 1.0),
-               "seepage": ("seepage flux (m/d), up > 0", SECONDS_PER_DAY)}
+               "seepage": ("seepage flux (m/d), up > 0", SECONDS_PER_DAY),
+               "temperature": ("temperature (degC)", 1.0)}
 
 
 def observed_vs_simulated(residuals, path: str | Path) -> Path:
     """Observed against simulated values with error bars (2 sigma), one panel per kind."""
     apply_style()
-    kinds = [k for k in ("head", "vhg", "seepage") if (residuals["kind"] == k).any()]
+    kinds = [k for k in _KIND_UNITS if (residuals["kind"] == k).any()]
     fig, axes = plt.subplots(1, len(kinds), figsize=(3.6 * len(kinds), 3.4), squeeze=False)
     for ax, k in zip(axes[0], kinds):
         r = residuals[residuals["kind"] == k]
@@ -236,7 +243,7 @@ def residual_figure(residuals, path: str | Path, steady: bool = False) -> Path:
     row number, since a steady run has no clock)."""
     apply_style()
     fig, (a, b) = plt.subplots(1, 2, figsize=(8, 3.2), sharey=True)
-    markers = {"head": "s", "vhg": "^", "seepage": "o"}
+    markers = {"head": "s", "vhg": "^", "seepage": "o", "temperature": "D"}
     row = np.arange(1, len(residuals) + 1)
     for k, r in residuals.groupby("kind"):
         a.plot(r["x"], r["weighted_residual"], markers.get(k, "o"), ms=4, label=k, mfc="none", color="k")

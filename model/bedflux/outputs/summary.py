@@ -70,6 +70,14 @@ def run_summary(ds: xr.Dataset) -> dict:
     out["warnings"] += plausibility_warnings(ds)
     if ds.attrs.get("water_table_warning"):
         out["water_table_warning"] = ds.attrs["water_table_warning"]
+    if "temperature" in ds:
+        closure = np.abs(np.atleast_1d(ds["heat_closure"].values))
+        out["heat"] = {"temperature_min_degC": float(np.nanmin(ds["temperature"].values)),
+                       "temperature_max_degC": float(np.nanmax(ds["temperature"].values)),
+                       "energy_closure": float(np.nanmax(closure)) if np.isfinite(closure).any() else None,
+                       "cell_peclet_max": float(ds.attrs.get("heat_cell_peclet_max", np.nan))}
+        if ds.attrs.get("heat_warning"):
+            out["warnings"].append(ds.attrs["heat_warning"])
     return out
 
 
@@ -162,6 +170,11 @@ def run_summary_text(s: dict, events: str = "") -> str:
     lines += events.splitlines()
     lines += flood_lines(s)
     lines.append(f"water budget closure: {closure_phrase(s['budget_closure'], s['budget_closure_note'])}")
+    if s.get("heat"):
+        h = s["heat"]
+        closure = "not judgeable" if h["energy_closure"] is None else f"{h['energy_closure']:.2g} of the gross"
+        lines.append(f"temperature: {h['temperature_min_degC']:.3g} to {h['temperature_max_degC']:.3g} degC over the "
+                     f"run; energy budget closure {closure}; cell Peclet number at most {h['cell_peclet_max']:.2g}")
     lines += [f"WARNING: {w}" for w in s.get("warnings", [])]
     if s.get("water_table_warning"):
         lines.append(f"warning: {s['water_table_warning']}")

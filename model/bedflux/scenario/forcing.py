@@ -17,8 +17,8 @@ Every signal maps elapsed time t (s since the start of the run) to a value (m). 
     ``s_p = (2 / omega) arctan(omega / delta)`` (``omega = 2 pi / tau``; ``tau / 2`` when
     ``delta = 0``), so ``N0 = rise / (exp(-delta s_p) (1 - cos(omega s_p)))`` (``rise / 2``
     when ``delta = 0``).
-``Wave`` (mean, amplitude, period)
-    ``mean + amplitude sin(2 pi t / period)``.
+``Wave`` (mean, amplitude, period, phase)
+    ``mean + amplitude sin(2 pi t / period + phase)`` (phase in radians, 0 by default).
 ``Series``
     a measured series, linearly interpolated; read from CSV by :func:`read_series`.
 
@@ -136,20 +136,23 @@ class FloodWave:
 
 @dataclass(frozen=True)
 class Wave:
-    """A sinusoid ``mean + amplitude sin(2 pi t / period)``."""
+    """A sinusoid ``mean + amplitude sin(2 pi t / period + phase)`` (``phase`` in radians)."""
 
     mean: float
     amplitude: float
     period: float
+    phase: float = 0.0
 
     def __call__(self, t: np.ndarray | float) -> np.ndarray:
-        return self.mean + self.amplitude * np.sin(2.0 * np.pi * np.asarray(t, dtype=float) / self.period)
+        return self.mean + self.amplitude * np.sin(2.0 * np.pi * np.asarray(t, dtype=float) / self.period
+                                                   + self.phase)
 
     def bounds(self, t_end: float) -> tuple[float, float]:
         return (self.mean - abs(self.amplitude), self.mean + abs(self.amplitude))
 
     def highest(self, t_end: float) -> tuple[float, float]:
-        first = self.period / 4.0 if self.amplitude >= 0.0 else 0.75 * self.period
+        crest = 0.25 if self.amplitude >= 0.0 else 0.75
+        first = ((crest - self.phase / (2.0 * np.pi)) % 1.0) * self.period
         return _highest(self, [0.0, t_end] + ([first] if first < t_end else []))
 
 

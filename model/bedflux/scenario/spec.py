@@ -19,6 +19,8 @@ from bedflux.errors import InputError
 from bedflux.scenario.units import SECONDS_PER_DAY
 from bedflux.scenario.forcing import (Constant, FloodWave, Pulse, Series, Signal, Wave, parse_datetime, read_series)
 from bedflux.scenario.inputfile import read_toml
+from bedflux.scenario.heat import (DEFAULT_DISPERSIVITY, DEFAULT_HEAT_CAPACITY, DEFAULT_THERMAL_CONDUCTIVITY,
+                                   THERMAL_PROPERTIES, HeatSpec, heat_table, zone_thermal)
 
 #: Plausibility limits (SI). Values outside are errors that suggest the unit meant.
 K_MAX = 1.0  # m/s: coarse gravel is about 1e-2 m/s (Freeze & Cherry 1979, table 2.2)
@@ -34,10 +36,10 @@ TITLE_MAX = 300  # characters
 DEFAULT_POROSITY = 0.3
 STEP_MIN = 1e-3  # s: shortest time step and output interval (1 ms; a bed responds in minutes)
 
-_TOP_KEYS = ["title", "grid", "ground", "zone", "stream", "sides", "recharge", "riparian", "time", "initial"]
+_TOP_KEYS = ["title", "grid", "ground", "zone", "stream", "sides", "recharge", "riparian", "time", "initial", "heat"]
 _SIDE_WORDS = ["no-flow", "periodic", "stream"]
 #: Zone properties a scenario sets, and the ones a parameter path ``ZONE.PROPERTY`` may change.
-ZONE_PROPERTIES = ("kh", "kv", "specific_storage", "specific_yield", "porosity", "depth")
+ZONE_PROPERTIES = ("kh", "kv", "specific_storage", "specific_yield", "porosity", *THERMAL_PROPERTIES, "depth")
 #: Keys that were renamed (old -> new): an old key is refused with a message giving the new one.
 RENAMED_ZONE_KEYS = {"ss": "specific_storage", "sy": "specific_yield"}
 RENAMED_RIPARIAN_KEYS = {"rate": "max_rate"}
@@ -74,7 +76,9 @@ class ZoneSpec:
     """One material zone. The first fills the domain; later ones override where they apply.
 
     Geometry: ``depth`` (a layer of that thickness below the ground, over ``x`` if given) or a box
-    ``x`` and ``z``; the first zone has neither.
+    ``x`` and ``z``; the first zone has neither. Thermal properties (used by ``[heat]``): bulk
+    ``thermal_conductivity`` of the saturated sediment (W m-1 K-1), ``heat_capacity`` of the solid
+    grains (J m-3 K-1) and ``dispersivity`` (m).
     """
 
     name: str
@@ -87,6 +91,9 @@ class ZoneSpec:
     z: tuple[float, float] | None = None
     porosity: float = DEFAULT_POROSITY
     retention: RetentionSpec | None = None
+    thermal_conductivity: float = DEFAULT_THERMAL_CONDUCTIVITY
+    heat_capacity: float = DEFAULT_HEAT_CAPACITY
+    dispersivity: float = DEFAULT_DISPERSIVITY
 
 
 @dataclass(frozen=True)
@@ -177,6 +184,7 @@ class Scenario:
     source: str = "scenario"
     base_dir: str = "."
     raw: Mapping[str, Any] = field(default_factory=dict, repr=False, compare=False)
+    heat: HeatSpec | None = None
 
     @property
     def transient(self) -> bool:
@@ -320,6 +328,9 @@ def _build(d: dict, base_dir: Path, source: str) -> Scenario:
     left = _boundary(sides, "left", stream, base_dir, grid, t_end, clock)
     right = _boundary(sides, "right", stream, base_dir, grid, t_end, clock)
     bottom = _boundary(sides, "bottom", stream, base_dir, grid, t_end, clock)
+    heat = None
+    if "heat" in d:
+        heat = heat_table(checks.table(d, "heat", "top level"), base_dir, t_end, stream is not None, clock.align)
     if time is not None and clock.origin != time.origin:
         time = replace(time, origin=clock.origin)
     if (left.kind == "periodic") != (right.kind == "periodic"):
@@ -345,7 +356,7 @@ def _build(d: dict, base_dir: Path, source: str) -> Scenario:
         raise InputError(f"head = {initial_head:g} m is below the model base ({grid.bottom:g} m)",
                          where="[initial]")
     return Scenario(title, grid, ground, zones, stream, left, right, bottom, recharge, riparian, time,
-                    initial_head, source, str(base_dir), copy.deepcopy(d))
+                    initial_head, source, str(base_dir), copy.deepcopy(d), heat=heat)
 
 
 def _grid(g: dict) -> GridSpec:
@@ -438,7 +449,8 @@ def _zones(zs: Any, grid: GridSpec) -> tuple[ZoneSpec, ...]:
             if zr is not None and xr is None:
                 raise InputError("a box needs x = [a, b] as well as z", where=where)
         retention = _retention(z["retention"], f"{where}: retention") if "retention" in z else None
-        out.append(ZoneSpec(name, kh, kv, specific_storage, specific_yield, depth, xr, zr, porosity, retention))
+        out.append(ZoneSpec(name, kh, kv, specific_storage, specific_yield, depth, xr, zr, porosity, retention,
+                            **zone_thermal(z, where)))
     given = [z.retention is not None for z in out]
     if any(given) and not all(given):
         missing = ", ".join(repr(z.name) for z in out if z.retention is None)

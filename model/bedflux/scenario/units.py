@@ -45,13 +45,16 @@ DIMENSIONS: dict[str, tuple[str, str, str]] = {
     "acceleration": ("[length] / [time] ** 2", "m/s^2", "an acceleration"),
     "area_rate": ("[length] ** 2 / [time]", "m^2/s", "a flow per unit length (length^2/time)"),
     "per_time": ("1 / [time]", "1/s", "a rate (1/time)"),
-    "temperature": ("[temperature]", "degC", "a temperature in degC"),
-    "temperature_difference": ("[temperature]", "K", "a temperature difference (degC or K)"),
-    "thermal_conductivity": ("[mass] * [length] / [time] ** 3 / [temperature]", "W/(m*K)",
-                             "a thermal conductivity (W/(m K))"),
-    "heat_capacity": ("[mass] / [length] / [time] ** 2 / [temperature]", "J/(m^3*K)",
-                      "a volumetric heat capacity (J/(m^3 K))"),
+    "temperature": ("[temperature]", "degC", "a temperature (degC)"),
+    "temperature_difference": ("[temperature]", "delta_degC", "a temperature difference (degC or K)"),
+    "thermal_conductivity": ("[power] / [length] / [temperature]", "W/m/K", "a thermal conductivity (W/m/K)"),
+    "heat_capacity": ("[energy] / [length] ** 3 / [temperature]", "J/m**3/K",
+                      "a volumetric heat capacity (J/m^3/K)"),
 }
+
+#: Temperature units read as a difference (an amplitude) rather than a reading.
+_DIFFERENCE_UNITS = {"degC": "delta_degC", "°C": "delta_degC", "celsius": "delta_degC",
+                     "degF": "delta_degF", "°F": "delta_degF", "fahrenheit": "delta_degF"}
 
 #: A number followed by a unit (the unit must parse as a unit alone: no factors, no arithmetic).
 _QUANTITY = re.compile(r"^\s*[-+]?(\d+(\.\d*)?|\.\d+)([eE][-+]?\d+)?(?P<unit>.*)$")
@@ -100,6 +103,11 @@ def unit_factor(unit: str, dimension: str) -> float:
         If the unit is unknown or has the wrong dimension.
     """
     dim, si, words = DIMENSIONS[dimension]
+    if dimension == "temperature":
+        if unit.strip() not in ("degC", "°C", "C"):
+            raise InputError(f"unit '{unit}' is not allowed for a temperature column; write it in degC, "
+                             "e.g. 'temperature [degC]'")
+        return 1.0
     ureg = registry()
     try:
         q = ureg.Quantity(1.0, ureg.parse_units(_normalise(unit))) if unit.strip() else ureg.Quantity(1.0)
@@ -174,6 +182,8 @@ def parse_quantity(value: Any, dimension: str) -> float:
         out = number
     else:
         ureg = registry()
+        if dimension == "temperature_difference":
+            text = _DIFFERENCE_UNITS.get(text, text)
         try:
             unit = ureg.parse_units(_normalise(text))
         except Exception:

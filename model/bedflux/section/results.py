@@ -44,6 +44,17 @@ VARIABLES: dict[str, tuple[str, str, str]] = {
     "step_length": ("s", "step", "length of each accepted time step"),
     "step_iterations": ("1", "step", "nonlinear iterations of each accepted time step"),
     "step_closure": ("1", "step", "water budget imbalance of each step relative to its total inflow"),
+    # runs with [heat]
+    "temperature": ("degC", "cell", "temperature of water and sediment"),
+    "heat_inflow": ("W m-1", "section", "heat into the section through each budget line, per metre of width, "
+                                        "relative to the groundwater temperature"),
+    "heat_outflow": ("W m-1", "section", "heat out of the section through each budget line, per metre of width, "
+                                         "relative to the groundwater temperature"),
+    "heat_closure": ("1", "section", "energy budget imbalance (in - out) over the gross of its parts"),
+    "heat_gross": ("W m-1", "section", "gross of the parts every heat flow is the difference of (the scale of the "
+                                       "closure)"),
+    "thermal_conductivity": ("W m-1 K-1", "cell", "bulk thermal conductivity of the saturated sediment"),
+    "bulk_heat_capacity": ("J m-3 K-1", "cell", "bulk volumetric heat capacity (water in the pores and grains)"),
     # linear runs
     "saturated": ("1", "cell", "1 where the head is at or above the cell's bottom, 0 where the water table lies "
                   "below the whole cell (the linear model still conducts through it at full thickness)"),

@@ -27,7 +27,8 @@ from bedflux.section.transient import output_times
 
 
 def run_variably_saturated(section: Section, method: str = NEWTON, solver: str = "auto",
-                           progress: Callable[[float], None] | None = None) -> xr.Dataset:
+                           progress: Callable[[float], None] | None = None,
+                           on_state: Callable | None = None) -> xr.Dataset:
     """Run a scenario whose zones carry ``retention`` (see :mod:`bedflux.section.richards_steps`).
 
     Parameters
@@ -40,6 +41,10 @@ def run_variably_saturated(section: Section, method: str = NEWTON, solver: str =
         Jacobian solver: ``"auto"``, ``"direct"`` or ``"amg-gmres"``.
     progress
         Called with the fraction of a transient run done.
+    on_state
+        Called with ``(t0, t1, view, terms, u, water_content)`` of the start (``t0 = t1 = 0``) and
+        of every accepted step: the flow view (faces times their relative conductivity), its
+        terms, the relative heads and the water content at ``t1`` (heat transport uses it).
     """
     sc = section.scenario
     system = RichardsSystem(section, soil_water(sc, section))
@@ -51,6 +56,8 @@ def run_variably_saturated(section: Section, method: str = NEWTON, solver: str =
     if notes:
         attrs["notes"] = " ".join(notes)
     ev, forcing, state = _start(section, system, stepper, boundaries)
+    if on_state is not None:
+        on_state(0.0, 0.0, *system.flow_view(ev, forcing), system.head_u(ev.psi), ev.props.theta)
     if not sc.transient:
         budget = step_budget(system, ev, forcing, None, BUDGET_LINES)
         fl, extra = _state(system, ev, forcing, 0.0, budget)
@@ -58,7 +65,7 @@ def run_variably_saturated(section: Section, method: str = NEWTON, solver: str =
         ds = build_dataset(section, [fl], [section.stage(0.0)], None, attrs)
         add_variables(ds, {k: (dims, v) for k, (dims, v) in extra.items()})
         return ds
-    return _transient(section, system, stepper, ev, forcing, state, attrs, progress)
+    return _transient(section, system, stepper, ev, forcing, state, attrs, progress, on_state)
 
 
 def _start(section: Section, system: RichardsSystem, stepper: Stepper, boundaries: SectionBoundaries):
@@ -127,7 +134,7 @@ def _stops(section: Section, times: np.ndarray) -> tuple[np.ndarray, np.ndarray]
 
 
 def _transient(section: Section, system: RichardsSystem, stepper: Stepper, ev: Evaluation,
-               forcing: StepForcing, state, attrs: dict, progress) -> xr.Dataset:
+               forcing: StepForcing, state, attrs: dict, progress, on_state=None) -> xr.Dataset:
     ts = section.scenario.time
     times = output_times(ts.end, ts.output_every)
     stops, flooding = _stops(section, times)
@@ -150,6 +157,9 @@ def _transient(section: Section, system: RichardsSystem, stepper: Stepper, ev: E
             acc["out"][k] += w * b.outflow[k]
         acc["sat"] += w * b.storage_saturated
         acc["unsat"] += w * b.storage_unsaturated
+        if on_state is not None:
+            ev1 = out.evaluation
+            on_state(t0, t1, *system.flow_view(ev1, forcing), system.head_u(ev1.psi), ev1.props.theta)
         return b.closure
 
     def on_stop(out, forcing, t) -> None:

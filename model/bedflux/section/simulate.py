@@ -20,7 +20,8 @@ def simulate(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = None,
     """Run the scenario and return the result Dataset (see :mod:`bedflux.section.results`).
 
     A scenario whose zones carry ``retention`` runs variably saturated (Richards' equation, see
-    :mod:`bedflux.section.richards_run`); otherwise the linear model runs.
+    :mod:`bedflux.section.richards_run`); otherwise the linear model runs. A scenario with
+    ``[heat]`` also carries heat (:mod:`bedflux.section.heat_run`).
 
     Parameters
     ----------
@@ -42,6 +43,10 @@ def simulate(scenario: Scenario, fields: Mapping[str, np.ndarray] | None = None,
         carries the outputs before the failing step in its ``partial`` attribute).
     """
     section = discretise(scenario, fields)
+    if scenario.heat is not None:
+        from bedflux.section.heat_run import simulate_with_heat
+
+        return simulate_with_heat(section, method, progress)
     if scenario.variably_saturated:
         from bedflux.section.richards_run import run_variably_saturated
 
