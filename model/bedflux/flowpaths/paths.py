@@ -13,6 +13,8 @@ bank storage comes back.
 
 Variably saturated runs are traced the same way through the flows with the relative
 conductivity, the water moving in the water-filled pores (:mod:`bedflux.flowpaths.unsaturated`);
+in a transient one the paths of an interval carry the budget's stream inflow of the interval (a
+mean over its adaptive steps), shared along the bed as the inflow at the output that ends it;
 root water uptake takes paths up in proportion to its share of each cell's outflow
 (:mod:`bedflux.flowpaths.tracer`).
 """
@@ -116,7 +118,12 @@ class FieldSource:
     def inflow(self, k: int | None) -> np.ndarray:
         """Stream water entering the bed through each column (m^2/s) at the steady state or output ``k``."""
         if self.unsaturated is not None:
-            return self.unsaturated.stream_inflow(k, self._start(k))
+            flow = self.unsaturated.stream_inflow(k, self._start(k))
+            if k is not None and k > 0 and flow.sum() > 0.0:
+                # the budget of a variably saturated run is the mean over the interval's adaptive
+                # steps: the interval's paths carry that, shared out as the output's inflow
+                flow = flow * float(self.ds["inflow"].sel(term="stream").values[k]) / flow.sum()
+            return flow
         ds = self.ds if k is None else self.ds.isel(time=k)
         return downwelling_flow(ds["bed_flux"].values, ds["wetted_fraction"].values, self.section.grid.dx)
 
