@@ -167,12 +167,13 @@ def flowpaths_from_points(scenario: Scenario, x: np.ndarray, z: np.ndarray, ds: 
 
     fields = FieldSource(section, ds)
     field_at = fields.at
-    col, row, z = locate(field_at(None if times is None else 0), x, z)
+    first = field_at(None if times is None else 0)
+    col, row, z = locate(first, x, z)
     paths = Paths(x=x.copy(), z=z.copy(), col=col, row=row, t=np.full(x.size, float(start_time)))
     limit = _max_crossings(section)
     if times is None:
         horizon = DEFAULT_HORIZON if max_time is None else float(max_time)
-        advance(field_at(None), paths, horizon, limit, sinks_end=True, keep_vertices=keep_geometry, rng=fields.rng)
+        advance(first, paths, horizon, limit, sinks_end=True, keep_vertices=keep_geometry, rng=fields.rng)
     else:
         end = float(times[-1]) if max_time is None else min(float(times[-1]), start_time + float(max_time))
         for k in range(times.size - 1):
