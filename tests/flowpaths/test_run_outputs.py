@@ -175,7 +175,6 @@ bottom = "no-flow"
 """
 
 
-@pytest.mark.slow  # a variably saturated solve and its figures
 def test_a_variably_saturated_run_writes_its_flow_paths(tmp_path):
     # water balance: the stream water entering the bed leaves through the two sides held below
     # the stage (no recharge, closed base), so all of it goes to the aquifer

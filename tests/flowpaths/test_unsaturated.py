@@ -123,7 +123,6 @@ def test_paths_at_each_side_carry_its_outflow_in_an_unsaturated_run(losing):
         assert abs(float(fp.weight.values[at].sum()) - float(ds.outflow.sel(term=side))) <= w  # [P]
 
 
-@pytest.mark.slow
 def test_tracked_return_of_bank_storage_matches_the_budgets_stream_outflow():
     # A stage pulse on a closed section whose banks stand above the flood: the water table is at
     # the base stage before the pulse, the bank above it unsaturated. Stream water fills the bank's
