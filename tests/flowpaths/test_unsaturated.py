@@ -11,7 +11,7 @@ Sources:
 [P]   Water balance of a steady run: what the stream gives the bed is the budget's stream inflow;
       with sides held below the stage, no recharge and a closed base, every drop of stream water
       leaves through a side and every drop leaving a side is stream water.
-[M]   Water balance of a steady one-dimensional column: all the water entering the top passes
+[M]   Water balance of a steady one-dimensional column (saturated or not): all the water entering the top passes
       through every depth, so the share the roots take is the budget's uptake over the inflow.
 """
 from __future__ import annotations
@@ -153,3 +153,24 @@ def test_tracked_return_of_bank_storage_matches_the_budgets_stream_outflow():
     assert stream_out[-1] < stream_in[-1]  # less came back than went in
     assert np.max(np.abs(tracked - stream_out)) <= granularity
     assert stream_out[-1] > 10 * granularity  # the return takes many intervals
+
+
+def test_saturated_runs_take_up_paths_by_the_same_share():
+    # the same column, saturated (linear model) with its water table held near the ground:
+    # evapotranspiration takes its share of the infiltration [M], and paths follow it
+    spec = {"grid": {"x": [0.0, 1.0], "bottom": -4.0, "dx": 0.5, "dz": 0.1},
+            "ground": {"elevation": 0.0},
+            "zone": [{"name": "sand", "kh": "2 m/d", "kv": "2 m/d"}],
+            "sides": {"left": "no-flow", "right": "no-flow", "bottom": {"head": -0.5}},
+            "recharge": {"rate": "20 mm/d"},
+            "riparian": [{"x": [0.0, 1.0], "max_rate": "8 mm/d", "extinction_depth": 2.0, "root_depth": 1.0}]}
+    sc = bedflux.Scenario.from_dict(spec)
+    ds = bedflux.simulate(sc)
+    share = float(ds.outflow.sel(term="evapotranspiration") / ds.inflow.sel(term="recharge"))
+    assert 0.1 < share < 0.5
+    n = 4000
+    fp = flowpaths_from_points(sc, np.linspace(0.01, 0.99, n), np.full(n, -0.001), ds)
+    kinds = fp.exit_kind.values
+    assert set(kinds) == {"sink", "base"}
+    taken = float(np.mean(kinds == "sink"))
+    assert abs(taken - share) <= 4.0 * np.sqrt(share * (1.0 - share) / n)

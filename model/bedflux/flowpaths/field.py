@@ -35,7 +35,8 @@ class CellField:
     exit through each column's top face (``bed`` where the column is (partly) under the stream,
     ``seepage face`` elsewhere) and ``sink`` marks cells with a net loss of water inside (their
     face flows bring more than they take away: evapotranspiration, or water going into storage).
-    ``uptake_share`` (variably saturated runs with root water uptake, else None) is, per cell, the
+    ``uptake_share`` (runs whose uptake is known apart from storage: root water uptake of variably
+    saturated runs, evapotranspiration of steady saturated ones; else None) is, per cell, the
     share of the water leaving the cell that the roots take (uptake over uptake plus the outflow
     through its faces). ``ground_exit`` marks the columns whose top face, when exposed, lets water
     out to the ground surface by evaporation (negative recharge) rather than as a seepage face.

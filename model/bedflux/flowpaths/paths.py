@@ -15,8 +15,8 @@ Variably saturated runs are traced the same way through the flows with the relat
 conductivity, the water moving in the water-filled pores (:mod:`bedflux.flowpaths.unsaturated`);
 in a transient one the paths of an interval carry the budget's stream inflow of the interval (a
 mean over its adaptive steps), shared along the bed as the inflow at the output that ends it;
-root water uptake takes paths up in proportion to its share of each cell's outflow
-(:mod:`bedflux.flowpaths.tracer`).
+root water uptake (and the evapotranspiration of a steady saturated run) takes paths up in
+proportion to its share of each cell's outflow (:mod:`bedflux.flowpaths.tracer`).
 """
 from __future__ import annotations
 
@@ -24,7 +24,7 @@ import numpy as np
 import xarray as xr
 
 from bedflux.errors import InputError
-from bedflux.flowpaths.field import CellField, cell_field
+from bedflux.flowpaths.field import CellField, cell_field, face_flows
 from bedflux.flowpaths.release import downwelling_flow, path_count, release_points
 from bedflux.flowpaths.statistics import QUANTILES, residence_statistics
 from bedflux.flowpaths.tracer import EXIT_KINDS, NOT_OUT, UPTAKE_SEED, Paths, advance
@@ -133,9 +133,25 @@ class FieldSource:
             return self.unsaturated.at(k, t0)
         ds = self.ds
         if k is None:
-            return cell_field(self.section, ds["head"].values, ds["top_flux"].values, ds["wetted_fraction"].values)
+            return cell_field(self.section, ds["head"].values, ds["top_flux"].values, ds["wetted_fraction"].values,
+                              uptake=self._steady_evapotranspiration())
         return cell_field(self.section, ds["head"].values[k], ds["top_flux"].values[k],
                           ds["wetted_fraction"].values[k], float(self.times[k]))
+
+    def _steady_evapotranspiration(self) -> np.ndarray | None:
+        """Evapotranspiration of each cell of a steady saturated run (m^2/s, ``(nz, nx)``): the
+        net inflow through the faces of its root-zone cells (nothing else takes water in a steady
+        state); None without riparian cells."""
+        section = self.section
+        if not section.et_cells.size:
+            return None
+        g = section.grid
+        left, right, bottom, top = face_flows(section, self.ds["head"].values, self.ds["top_flux"].values, 0.0)
+        net_in = (left - right + bottom - top).ravel()
+        roots = np.zeros(g.nz * g.nx)
+        pos = np.flatnonzero(g.active.ravel())[section.et_cells]
+        roots[pos] = np.maximum(net_in[pos], 0.0)
+        return roots.reshape(g.nz, g.nx)
 
 
 def flowpaths_from_points(scenario: Scenario, x: np.ndarray, z: np.ndarray, ds: xr.Dataset | None = None,

@@ -20,7 +20,7 @@ horizon or after the most crossings allowed).
 Sinks. A path that cannot leave a cell with a sink inside (all its velocities point into the
 cell's inside) is taken up there when it enters it (steady flow). Where the uptake of a cell is
 known apart from storage changes (root water uptake of a variably saturated run,
-``CellField.uptake_share``), a path entering the cell is also taken up with the probability of
+evapotranspiration of a steady saturated one: ``CellField.uptake_share``), a path entering the cell is also taken up with the probability of
 the uptake's share of the water leaving the cell: the cell is taken as mixed, so each drop
 entering it leaves by the roots in that proportion, and the weights of the paths taken up add
 up, in expectation, to the uptake of the stream water. A cell whose faces take nothing out has a
