@@ -49,8 +49,9 @@ def test_a_result_of_another_grid_is_refused():
         bedflux.flowpaths(bedflux.Scenario.from_dict(SMALL), other)
 
 
-def test_a_variably_saturated_scenario_is_refused():
+def test_a_variably_saturated_scenario_with_a_linear_result_is_refused():
     zone = {**SMALL["zone"][0], "retention": {"model": "van-genuchten", "alpha": 3.0, "n": 2.0, "residual": 0.05,
                                               "saturated": 0.35}}
-    with pytest.raises(InputError, match="saturated"):
-        bedflux.flowpaths(bedflux.Scenario.from_dict({**SMALL, "zone": [zone]}))
+    linear = bedflux.simulate(bedflux.Scenario.from_dict(SMALL))
+    with pytest.raises(InputError, match="water_content"):
+        bedflux.flowpaths(bedflux.Scenario.from_dict({**SMALL, "zone": [zone]}), linear)

@@ -141,3 +141,48 @@ def test_a_transient_run_reports_when_bank_storage_comes_back(tmp_path):
     assert block["water_returned_m2"] == pytest.approx(stream_out, rel=0.1)
     assert block["return_time_quantiles_s"]["50"] > 0
     assert "bank storage" in (out / "summary.txt").read_text()
+
+
+LOSING_UNSATURATED = """title = "Losing channel with unsaturated banks (invented)"
+[grid]
+x = [-15.0, 15.0]
+bottom = -6.0
+dx = 0.25
+dz = 0.1
+growth = 1.06
+dz_max = 0.5
+[ground]
+profile = [[-15.0, 1.5], [-3.0, 1.3], [-2.0, 0.0], [2.0, 0.0], [3.0, 1.3], [15.0, 1.5]]
+[[zone]]
+name = "aquifer"
+kh = 2e-4
+kv = 5e-5
+retention = { model = "van-genuchten", alpha = "7.5 1/m", n = 1.89, residual = 0.065, saturated = 0.41 }
+[[zone]]
+name = "bed"
+kh = 5e-5
+kv = 1e-5
+depth = 0.3
+x = [-3.0, 3.0]
+retention = { model = "van-genuchten", alpha = "3.6 1/m", n = 1.56, residual = 0.078, saturated = 0.43 }
+[stream]
+stage = 0.5
+channel = [-3.0, 3.0]
+[sides]
+left = { head = 0.2 }
+right = { head = -0.1 }
+bottom = "no-flow"
+"""
+
+
+def test_a_variably_saturated_run_writes_its_flow_paths(tmp_path):
+    # water balance: the stream water entering the bed leaves through the two sides held below
+    # the stage (no recharge, closed base), so all of it goes to the aquifer
+    out = _run(tmp_path, LOSING_UNSATURATED)
+    assert (out / "flowpaths.nc").is_file() and "flowpaths.nc" in manifest.listed(out, "run")
+    block = json.loads((out / "summary.json").read_text())["hyporheic"]
+    with xr.open_dataset(out / "result.nc", engine="h5netcdf") as ds:
+        stream_in = float(ds.inflow.sel(term="stream"))
+    assert block["downwelling_m2_per_s"] == pytest.approx(stream_in, rel=1e-10)
+    assert block["fate"]["to_aquifer"] == pytest.approx(1.0)
+    assert "hyporheic exchange" in (out / "summary.txt").read_text()

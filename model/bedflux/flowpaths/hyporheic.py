@@ -14,7 +14,8 @@ from bedflux.flowpaths.statistics import QUANTILES, weighted_quantile
 
 #: Exit kinds grouped by where the water goes (keys of ``fate`` in the block).
 FATE = {"returns_to_stream": ("bed",), "to_aquifer": ("side", "base"), "seepage_face": ("seepage face",),
-        "taken_up_in_cells": ("sink",), "not_out_within_horizon": ("not out within the horizon",)}
+        "taken_up_in_cells": ("sink",), "to_ground_surface": ("ground",),
+        "not_out_within_horizon": ("not out within the horizon",)}
 #: Share of the exchanged water the reported depth holds above it.
 DEPTH_SHARE = 0.9
 

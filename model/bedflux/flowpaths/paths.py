@@ -10,6 +10,13 @@ start at its middle, with weights from that interval's downwelling flow, and eve
 the section is carried on through the next interval's field. The horizon is the end of the run
 (or ``max_time`` after release, if sooner). The paths then say when the water that went into
 bank storage comes back.
+
+Variably saturated runs are traced the same way through the flows with the relative
+conductivity, the water moving in the water-filled pores (:mod:`bedflux.flowpaths.unsaturated`);
+in a transient one the paths of an interval carry the budget's stream inflow of the interval (a
+mean over its adaptive steps), shared along the bed as the inflow at the output that ends it;
+root water uptake (and the evapotranspiration of a steady saturated run) takes paths up in
+proportion to its share of each cell's outflow (:mod:`bedflux.flowpaths.tracer`).
 """
 from __future__ import annotations
 
@@ -17,10 +24,11 @@ import numpy as np
 import xarray as xr
 
 from bedflux.errors import InputError
-from bedflux.flowpaths.field import cell_field
+from bedflux.flowpaths.field import CellField, cell_field, face_flows
 from bedflux.flowpaths.release import downwelling_flow, path_count, release_points
 from bedflux.flowpaths.statistics import QUANTILES, residence_statistics
-from bedflux.flowpaths.tracer import EXIT_KINDS, NOT_OUT, Paths, advance
+from bedflux.flowpaths.tracer import EXIT_KINDS, NOT_OUT, UPTAKE_SEED, Paths, advance
+from bedflux.flowpaths.unsaturated import UnsaturatedFields
 from bedflux.scenario.spec import Scenario
 from bedflux.section.discretisation import Section, discretise
 
@@ -51,7 +59,7 @@ def flowpaths(scenario: Scenario, ds: xr.Dataset | None = None, per_metre: float
     Parameters
     ----------
     scenario
-        A validated scenario (:func:`bedflux.load`) of a saturated (linear) run.
+        A validated scenario (:func:`bedflux.load`), saturated (linear) or variably saturated.
     ds
         Its solved result (:func:`bedflux.simulate`); solved here when omitted.
     per_metre
@@ -73,9 +81,6 @@ def flowpaths(scenario: Scenario, ds: xr.Dataset | None = None, per_metre: float
         over the submerged bed), ``median_residence_time``, ``mean_residence_time``,
         ``residence_time_q10`` ... ``q90`` (flux-weighted, s), ``not_out_fraction``, ``horizon``.
     """
-    if scenario.variably_saturated:
-        raise InputError("flow paths are traced through saturated (linear) runs; this scenario has "
-                         "retention in its zones", source=scenario.source, where="[[zone]] retention")
     if per_metre <= 0 or not np.isfinite(per_metre):
         raise InputError(f"per_metre = {per_metre!r}: give a positive number of paths per metre", where="per_metre")
     if max_time is not None and not max_time > 0:
@@ -85,9 +90,68 @@ def flowpaths(scenario: Scenario, ds: xr.Dataset | None = None, per_metre: float
 
         ds = simulate(scenario)
     section = discretise(scenario)
+    fields = FieldSource(section, ds)
     if "time" in ds.dims:
-        return _transient(section, ds, per_metre, max_time, keep_geometry)
-    return _steady(section, ds, per_metre, max_time, keep_geometry)
+        return _transient(section, ds, fields, per_metre, max_time, keep_geometry)
+    return _steady(section, ds, fields, per_metre, max_time, keep_geometry)
+
+
+class FieldSource:
+    """The flow field of each state of a result: steady (``at(None)``) or of output ``k`` (the
+    field of the interval ending there), for a saturated or a variably saturated run; and the
+    generator of the draws of root water uptake (one per tracing, fixed seed)."""
+
+    def __init__(self, section: Section, ds: xr.Dataset, pore_space: str = "water content"):
+        self.section = section
+        self.ds = ds
+        self.times = ds["time"].values.astype(float) if "time" in ds.dims else None
+        vs = section.scenario.variably_saturated
+        if vs and "water_content" not in ds:
+            raise InputError("the scenario has retention in its zones but the result has no water_content: "
+                             "pass the result of this scenario", where="ds")
+        self.unsaturated = UnsaturatedFields(section, ds, pore_space) if vs else None
+        self.rng = np.random.default_rng(UPTAKE_SEED)
+
+    def _start(self, k: int | None) -> float:
+        return 0.0 if k is None or k == 0 else float(self.times[k - 1])
+
+    def inflow(self, k: int | None) -> np.ndarray:
+        """Stream water entering the bed through each column (m^2/s) at the steady state or output ``k``."""
+        if self.unsaturated is not None:
+            flow = self.unsaturated.stream_inflow(k, self._start(k))
+            if k is not None and k > 0 and flow.sum() > 0.0:
+                # the budget of a variably saturated run is the mean over the interval's adaptive
+                # steps: the interval's paths carry that, shared out as the output's inflow
+                flow = flow * float(self.ds["inflow"].sel(term="stream").values[k]) / flow.sum()
+            return flow
+        ds = self.ds if k is None else self.ds.isel(time=k)
+        return downwelling_flow(ds["bed_flux"].values, ds["wetted_fraction"].values, self.section.grid.dx)
+
+    def at(self, k: int | None) -> CellField:
+        t0 = self._start(k)
+        if self.unsaturated is not None:
+            return self.unsaturated.at(k, t0)
+        ds = self.ds
+        if k is None:
+            return cell_field(self.section, ds["head"].values, ds["top_flux"].values, ds["wetted_fraction"].values,
+                              uptake=self._steady_evapotranspiration())
+        return cell_field(self.section, ds["head"].values[k], ds["top_flux"].values[k],
+                          ds["wetted_fraction"].values[k], float(self.times[k]))
+
+    def _steady_evapotranspiration(self) -> np.ndarray | None:
+        """Evapotranspiration of each cell of a steady saturated run (m^2/s, ``(nz, nx)``): the
+        net inflow through the faces of its root-zone cells (nothing else takes water in a steady
+        state); None without riparian cells."""
+        section = self.section
+        if not section.et_cells.size:
+            return None
+        g = section.grid
+        left, right, bottom, top = face_flows(section, self.ds["head"].values, self.ds["top_flux"].values, 0.0)
+        net_in = (left - right + bottom - top).ravel()
+        roots = np.zeros(g.nz * g.nx)
+        pos = np.flatnonzero(g.active.ravel())[section.et_cells]
+        roots[pos] = np.maximum(net_in[pos], 0.0)
+        return roots.reshape(g.nz, g.nx)
 
 
 def flowpaths_from_points(scenario: Scenario, x: np.ndarray, z: np.ndarray, ds: xr.Dataset | None = None,
@@ -103,9 +167,6 @@ def flowpaths_from_points(scenario: Scenario, x: np.ndarray, z: np.ndarray, ds: 
     """
     from bedflux.flowpaths.tracer import locate
 
-    if scenario.variably_saturated:
-        raise InputError("flow paths are traced through saturated (linear) runs; this scenario has "
-                         "retention in its zones", source=scenario.source, where="[[zone]] retention")
     if ds is None:
         from bedflux.section.simulate import simulate
 
@@ -120,24 +181,21 @@ def flowpaths_from_points(scenario: Scenario, x: np.ndarray, z: np.ndarray, ds: 
         raise InputError(f"start_time = {start_time:g} s is outside the run [{times[0]:g}, {times[-1]:g}) s",
                          where="start_time")
 
-    def field_at(k: int | None):
-        if k is None:
-            return cell_field(section, ds["head"].values, ds["top_flux"].values, ds["wetted_fraction"].values)
-        return cell_field(section, ds["head"].values[k], ds["top_flux"].values[k], ds["wetted_fraction"].values[k],
-                          float(times[k]))
-
-    col, row, z = locate(field_at(None if times is None else 0), x, z)
+    fields = FieldSource(section, ds)
+    field_at = fields.at
+    first = field_at(None if times is None else 0)
+    col, row, z = locate(first, x, z)
     paths = Paths(x=x.copy(), z=z.copy(), col=col, row=row, t=np.full(x.size, float(start_time)))
     limit = _max_crossings(section)
     if times is None:
         horizon = DEFAULT_HORIZON if max_time is None else float(max_time)
-        advance(field_at(None), paths, horizon, limit, sinks_end=True, keep_vertices=keep_geometry)
+        advance(first, paths, horizon, limit, sinks_end=True, keep_vertices=keep_geometry, rng=fields.rng)
     else:
         end = float(times[-1]) if max_time is None else min(float(times[-1]), start_time + float(max_time))
         for k in range(times.size - 1):
             if times[k + 1] > start_time and times[k] < end:
                 advance(field_at(k + 1), paths, min(float(times[k + 1]), end), limit, sinks_end=False,
-                        keep_vertices=keep_geometry)
+                        keep_vertices=keep_geometry, rng=fields.rng)
         horizon = end - start_time
     out = _dataset(paths, x, z.copy(), np.full(x.size, np.nan), None, None, keep_geometry)
     if times is not None:
@@ -158,31 +216,31 @@ def _new_paths(section: Section, x: np.ndarray, col: np.ndarray, t: float) -> Pa
                  t=np.full(x.size, float(t)))
 
 
-def _steady(section: Section, ds: xr.Dataset, per_metre: float, max_time: float | None,
+def _steady(section: Section, ds: xr.Dataset, fields: FieldSource, per_metre: float, max_time: float | None,
             keep_geometry: bool) -> xr.Dataset:
     g = section.grid
-    fieldv = cell_field(section, ds["head"].values, ds["top_flux"].values, ds["wetted_fraction"].values)
-    inflow = downwelling_flow(ds["bed_flux"].values, ds["wetted_fraction"].values, g.dx)
+    fieldv = fields.at(None)
+    inflow = fields.inflow(None)
     submerged = float(np.sum(ds["wetted_fraction"].values * g.dx))
     n = path_count(per_metre, submerged) if inflow.sum() > 0 else 0
     x, col, weight = release_points(inflow, g.x_edges, n)
     horizon = DEFAULT_HORIZON if max_time is None else float(max_time)
     paths = _new_paths(section, x, col, 0.0)
-    advance(fieldv, paths, horizon, _max_crossings(section), sinks_end=True, keep_vertices=keep_geometry)
+    advance(fieldv, paths, horizon, _max_crossings(section), sinks_end=True, keep_vertices=keep_geometry,
+            rng=fields.rng)
     out = _dataset(paths, x, section.grid.ground[col], weight, None, None, keep_geometry)
     exchange = float(inflow.sum()) / submerged if submerged > 0 else float("nan")
     out.attrs.update(_attributes(out, exchange, horizon, "steady"))
     return out
 
 
-def _transient(section: Section, ds: xr.Dataset, per_metre: float, max_time: float | None,
-               keep_geometry: bool) -> xr.Dataset:
+def _transient(section: Section, ds: xr.Dataset, fields: FieldSource, per_metre: float,
+               max_time: float | None, keep_geometry: bool) -> xr.Dataset:
     g = section.grid
     times = ds["time"].values.astype(float)
     wf = ds["wetted_fraction"].values
-    bed = ds["bed_flux"].values
     dt = np.diff(times)
-    inflow = np.array([downwelling_flow(bed[k + 1], wf[k + 1], g.dx) for k in range(times.size - 1)]).reshape(-1, g.nx)
+    inflow = np.array([fields.inflow(k + 1) for k in range(times.size - 1)]).reshape(-1, g.nx)
     volume = inflow.sum(axis=1) * dt
     submerged = (wf[1:] * g.dx).sum(axis=1)
     total = float(volume.sum())
@@ -192,8 +250,7 @@ def _transient(section: Section, ds: xr.Dataset, per_metre: float, max_time: flo
     entry, entry_z, weight, release, vol = [], [], [], [], []
     limit = _max_crossings(section)
     for k in range(times.size - 1):
-        fieldv = cell_field(section, ds["head"].values[k + 1], ds["top_flux"].values[k + 1], wf[k + 1],
-                            float(times[k + 1]))
+        fieldv = fields.at(k + 1)
         if counts[k]:
             x, col, w = release_points(inflow[k], g.x_edges, int(counts[k]))
             start = times[k] + 0.5 * dt[k]
@@ -202,7 +259,7 @@ def _transient(section: Section, ds: xr.Dataset, per_metre: float, max_time: flo
         if paths.x.size:
             born = np.concatenate(release)
             until = np.minimum(times[k + 1], born + max_time) if max_time is not None else times[k + 1]
-            advance(fieldv, paths, until, limit, sinks_end=False, keep_vertices=keep_geometry)
+            advance(fieldv, paths, until, limit, sinks_end=False, keep_vertices=keep_geometry, rng=fields.rng)
     paths.exit[paths.exit < 0] = NOT_OUT
     cat = (lambda parts: np.concatenate(parts) if parts else np.zeros(0))
     out = _dataset(paths, cat(entry), cat(entry_z), cat(weight), cat(release), cat(vol), keep_geometry)
@@ -214,7 +271,7 @@ def _transient(section: Section, ds: xr.Dataset, per_metre: float, max_time: flo
 
 def _joined(a: Paths, b: Paths) -> Paths:
     """One set of paths from two (vertices kept with path numbers of the joined set)."""
-    fields = ("x", "z", "col", "row", "t", "elapsed", "length", "lowest", "exit", "crossings")
+    fields = ("x", "z", "col", "row", "t", "elapsed", "length", "lowest", "exit", "crossings", "fresh")
     joined = Paths(**{f: np.concatenate([getattr(a, f), getattr(b, f)]) for f in fields})
     joined.vertices = a.vertices
     return joined

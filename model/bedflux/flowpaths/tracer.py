@@ -11,10 +11,21 @@ All paths advance together, one cell crossing per step of a numpy loop (no loop 
 cells): the number of loop steps is the largest number of cells a path crosses.
 
 Ends of a path (:data:`EXIT_KINDS`): the top face of a column under the stream (``bed``), the top
-face of a dry column (``seepage face``), the left or right side (``side``), the base
-(``base``), a cell whose inside takes up the water (``sink``: evapotranspiration in steady flow),
-or none (``not out within the horizon``: it has not left when its clock reaches the horizon or
-after the most crossings allowed).
+face of a dry column (``seepage face``; ``ground`` where that ground evaporates, a negative
+recharge, and is not a seepage face), the left or right side (``side``), the base (``base``), a
+cell whose inside takes up the water (``sink``: evapotranspiration in steady flow, root water
+uptake), or none (``not out within the horizon``: it has not left when its clock reaches the
+horizon or after the most crossings allowed).
+
+Sinks. A path that cannot leave a cell with a sink inside (all its velocities point into the
+cell's inside) is taken up there when it enters it (steady flow). Where the uptake of a cell is
+known apart from storage changes (root water uptake of a variably saturated run,
+evapotranspiration of a steady saturated one: ``CellField.uptake_share``), a path entering the cell is also taken up with the probability of
+the uptake's share of the water leaving the cell: the cell is taken as mixed, so each drop
+entering it leaves by the roots in that proportion, and the weights of the paths taken up add
+up, in expectation, to the uptake of the stream water. A cell whose faces take nothing out has a
+share of 1, the first rule again. The draws come from a generator with a fixed seed, so a run
+traces the same paths every time.
 """
 from __future__ import annotations
 
@@ -25,8 +36,10 @@ import numpy as np
 from bedflux.flowpaths.field import CellField
 
 #: Exit kinds, in the order of their codes.
-EXIT_KINDS = ("not out within the horizon", "bed", "seepage face", "side", "base", "sink")
-NOT_OUT, BED, SEEPAGE, SIDE, BASE, SINK = range(6)
+EXIT_KINDS = ("not out within the horizon", "bed", "seepage face", "side", "base", "sink", "ground")
+NOT_OUT, BED, SEEPAGE, SIDE, BASE, SINK, GROUND = range(7)
+#: Seed of the draws that decide which paths root water uptake takes.
+UPTAKE_SEED = 20261203
 #: Relative size below which a velocity gradient counts as zero (travel time distance / velocity).
 FLAT = 1e-9
 
@@ -38,7 +51,8 @@ class Paths:
     ``t`` is each path's clock (s since the start of the run), ``elapsed`` the time since its
     release, ``length`` the path length (sum of the chords across the cells), ``lowest`` the
     lowest elevation the path has reached, ``exit`` the exit code
-    (-1 while moving), ``crossings`` the number of cells crossed.
+    (-1 while moving), ``crossings`` the number of cells crossed, ``fresh`` whether the path has
+    just entered its cell (the uptake of the cell has not yet been drawn for it).
     """
 
     x: np.ndarray
@@ -51,6 +65,7 @@ class Paths:
     lowest: np.ndarray = None
     exit: np.ndarray = None
     crossings: np.ndarray = None
+    fresh: np.ndarray = None
     vertices: list = field(default_factory=list)
 
     def __post_init__(self) -> None:
@@ -60,6 +75,7 @@ class Paths:
         self.lowest = self.z.copy() if self.lowest is None else self.lowest
         self.exit = np.full(n, -1, dtype=np.int8) if self.exit is None else self.exit
         self.crossings = np.zeros(n, dtype=np.int64) if self.crossings is None else self.crossings
+        self.fresh = np.ones(n, dtype=bool) if self.fresh is None else self.fresh
 
     @property
     def moving(self) -> np.ndarray:
@@ -102,7 +118,8 @@ def _move(p: np.ndarray, v: np.ndarray, a: np.ndarray, dt: np.ndarray) -> np.nda
 
 
 def advance(fieldv: CellField, paths: Paths, until: float | np.ndarray, max_crossings: int,
-            sinks_end: bool = True, keep_vertices: bool = False) -> None:
+            sinks_end: bool = True, keep_vertices: bool = False,
+            rng: np.random.Generator | None = None) -> None:
     """Move the paths that are still moving through ``fieldv`` until they leave the section or
     their clock reaches ``until`` (s; a scalar or one per path), in place.
 
@@ -110,8 +127,12 @@ def advance(fieldv: CellField, paths: Paths, until: float | np.ndarray, max_cros
     field or ends them as not out); a path that has crossed ``max_crossings`` cells ends as not out.
     With ``sinks_end`` (steady flow) a path that cannot leave a cell with a sink inside ends there
     (``sink``) at the time it entered the cell; in transient flow the sink may turn into a source
-    and the path waits.
+    and the path waits. Where ``fieldv.uptake_share`` is given, a path entering a cell is taken up
+    (``sink``) with that share as its probability, drawn from ``rng`` (default: a generator
+    seeded with :data:`UPTAKE_SEED`).
     """
+    if fieldv.uptake_share is not None and rng is None:
+        rng = np.random.default_rng(UPTAKE_SEED)
     until = np.broadcast_to(np.asarray(until, dtype=float), paths.x.shape)
     xe = fieldv.x_edges
     width = xe[-1] - xe[0]
@@ -134,10 +155,18 @@ def advance(fieldv: CellField, paths: Paths, until: float | np.ndarray, max_cros
         # a path that cannot leave a cell with a sink inside is taken up there when it enters it
         # (steady flow: it would only creep towards the sink for ever)
         taken_up = (~np.isfinite(tx) & ~np.isfinite(tz) & fieldv.sink[cell]) if sinks_end else np.zeros(idx.size, bool)
+        if fieldv.uptake_share is not None:
+            fresh = paths.fresh[idx]
+            share = fieldv.uptake_share[cell]
+            drawn = fresh & (share > 0.0)
+            roots = np.zeros(idx.size, bool)
+            roots[drawn] = rng.random(int(drawn.sum())) < share[drawn]
+            taken_up |= roots
+            paths.fresh[idx] = False
         left_in_step = np.where(taken_up, 0.0, left_in_step)
         dt = np.minimum(np.minimum(tx, tz), left_in_step)
-        by_x = (tx <= tz) & (tx <= left_in_step) & np.isfinite(tx)
-        by_z = ~by_x & (tz <= left_in_step) & np.isfinite(tz)
+        by_x = (tx <= tz) & (tx <= left_in_step) & np.isfinite(tx) & ~taken_up
+        by_z = ~by_x & (tz <= left_in_step) & np.isfinite(tz) & ~taken_up
         xn = np.where(by_x, np.where(vx > 0.0, x1, x0), np.clip(_move(x, vx, ax, dt), x0, x1))
         zn = np.where(by_z, np.where(vz > 0.0, z1, z0), np.clip(_move(z, vz, az, dt), z0, z1))
         paths.t[idx] += dt
@@ -169,7 +198,8 @@ def advance(fieldv: CellField, paths: Paths, until: float | np.ndarray, max_cros
         up = by_z & (vz > 0.0)
         down = by_z & (vz <= 0.0)
         top_cell = row == fieldv.top_row[col]
-        exit_code[up & top_cell] = np.where(fieldv.wet[col[up & top_cell]], BED, SEEPAGE)
+        dry_exit = SEEPAGE if fieldv.ground_exit is None else np.where(fieldv.ground_exit[col[up & top_cell]], GROUND, SEEPAGE)
+        exit_code[up & top_cell] = np.where(fieldv.wet[col[up & top_cell]], BED, dry_exit)
         new_row = np.where(up & ~top_cell, row - 1, new_row)
         base = down & (row == fieldv.nz - 1)
         exit_code[base] = BASE
@@ -181,5 +211,6 @@ def advance(fieldv: CellField, paths: Paths, until: float | np.ndarray, max_cros
         paths.x[idx], paths.z[idx] = new_x, new_z
         paths.col[idx], paths.row[idx] = new_col, new_row
         paths.exit[idx] = exit_code
+        paths.fresh[idx] |= by_x | by_z
         keep = (exit_code < 0) & (paths.t[idx] < until[idx])
         idx = idx[keep]

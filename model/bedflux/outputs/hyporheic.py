@@ -37,9 +37,9 @@ def has_downwelling(ds: xr.Dataset) -> bool:
 
 
 def traceable(scenario: Scenario, ds: xr.Dataset) -> bool:
-    """Flow paths are traced for saturated (linear) runs with downwelling and at least one output
-    interval (transient)."""
-    if scenario.variably_saturated or ds.attrs.get("partial"):
+    """Flow paths are traced for runs (saturated or variably saturated) with downwelling and at
+    least one output interval (transient)."""
+    if ds.attrs.get("partial"):
         return False
     if "time" in ds.dims and ds.sizes["time"] < 2:
         return False
@@ -94,6 +94,7 @@ def hyporheic_lines(block: dict) -> list[str]:
               (fate["to_aquifer"], "leaves to the aquifer (sides, base)"),
               (fate["seepage_face"], "comes out at a seepage face"),
               (fate["taken_up_in_cells"], "is taken up by roots"),
+              (fate.get("to_ground_surface"), "evaporates from the exposed ground"),
               (fate["not_out_within_horizon"], f"is still in the ground after {horizon}")]
     lines.append("  of it, " + "; ".join(f"{100 * v:.0f} % {what}" for v, what in shares if v))
     if "water_entered_m2" in block:

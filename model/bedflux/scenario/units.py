@@ -103,11 +103,6 @@ def unit_factor(unit: str, dimension: str) -> float:
         If the unit is unknown or has the wrong dimension.
     """
     dim, si, words = DIMENSIONS[dimension]
-    if dimension == "temperature":
-        if unit.strip() not in ("degC", "°C", "C"):
-            raise InputError(f"unit '{unit}' is not allowed for a temperature column; write it in degC, "
-                             "e.g. 'temperature [degC]'")
-        return 1.0
     ureg = registry()
     try:
         q = ureg.Quantity(1.0, ureg.parse_units(_normalise(unit))) if unit.strip() else ureg.Quantity(1.0)
