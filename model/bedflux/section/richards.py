@@ -274,7 +274,7 @@ class RichardsSystem:
         kr_h, kr_v = ev.face_kr[: self.n_hfaces], ev.face_kr[self.n_hfaces:]
         view = replace(s, hfaces=replace(s.hfaces, conductance=s.hfaces.conductance * kr_h),
                        vfaces=replace(s.vfaces, conductance=s.vfaces.conductance * kr_v))
-        terms = [Term(t.kind, t.face, t.cells, t.column_or_row, t.conductance * k, t.r * k) for t, k in zip(forcing.terms, ev.term_kr)]
+        terms = [replace(t, conductance=t.conductance * k, r=t.r * k) for t, k in zip(forcing.terms, ev.term_kr)]
         if forcing.uptake is not None:
             terms.append(Term("evapotranspiration", "cell", forcing.uptake.cells, forcing.uptake.cols,
                               np.zeros(forcing.uptake.cells.size), -ev.uptake))
