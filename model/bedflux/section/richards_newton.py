@@ -7,7 +7,11 @@ Schnabel 1983, sec. 6.3); modified Picard takes the full step. The iteration sto
 sum of the absolute cell residuals is below ``tolerance`` times the throughput of the step (the sum of the absolute boundary flows,
 uptake and storage changes), or when a Newton step leaves 90 % of the residual while it is
 within 100 times that or at the round-off of the heads psi + z (large sections, heads of tens of
-metres, no flow at all): the water budget then closes to that fraction.
+metres, no flow at all): the water budget then closes to that fraction. A transient step whose
+Newton iteration stalls otherwise (the line search fails, or the iterations run out; typically
+at the kink of Mualem's Kr at saturation for van Genuchten n < 2) is accepted at its best
+iterate when that is within :data:`STALL_FACTOR` tolerances and the step's water budget closes
+to :data:`CLOSURE_TARGET` (:func:`stalled_closed`).
 
 Linear solves (:class:`JacobianSolver`): the Newton Jacobian is not symmetric (upstream Kr), so
 the direct solver is SuperLU with minimum-degree ordering on A^T + A (the matrix is structurally
