@@ -7,7 +7,11 @@ Schnabel 1983, sec. 6.3); modified Picard takes the full step. The iteration sto
 sum of the absolute cell residuals is below ``tolerance`` times the throughput of the step (the sum of the absolute boundary flows,
 uptake and storage changes), or when a Newton step leaves 90 % of the residual while it is
 within 100 times that or at the round-off of the heads psi + z (large sections, heads of tens of
-metres, no flow at all): the water budget then closes to that fraction.
+metres, no flow at all): the water budget then closes to that fraction. A transient step whose
+Newton iteration stalls otherwise (the line search fails, or the iterations run out; typically
+at the kink of Mualem's Kr at saturation for van Genuchten n < 2) is accepted at its best
+iterate when that is within :data:`STALL_FACTOR` tolerances and the step's water budget closes
+to :data:`CLOSURE_TARGET` (:func:`stalled_closed`).
 
 Linear solves (:class:`JacobianSolver`): the Newton Jacobian is not symmetric (upstream Kr), so
 the direct solver is SuperLU with minimum-degree ordering on A^T + A (the matrix is structurally
@@ -39,6 +43,12 @@ MAX_ITERATIONS = 20
 TOLERANCE = 1e-10
 #: A Newton step that leaves more than this fraction of the residual makes no progress.
 STALL = 0.9
+#: A stalled Newton iteration (:func:`stalled_closed`) is accepted with its residual up to this
+#: many tolerances ...
+STALL_FACTOR = 1e3
+#: ... when the relative water budget of its step closes to this (the mass-balance target of a
+#: step with direct solves).
+CLOSURE_TARGET = 1e-8
 #: Halvings of the step length tried by the line search.
 LINE_SEARCH_HALVINGS = 6
 #: Relative residual of every Newton system (direct or GMRES).
@@ -224,6 +234,7 @@ def iterate(system: RichardsSystem, psi: np.ndarray, forcing: StepForcing, stora
     failed (the caller cuts the step or changes strategy).
     """
     ev = system.evaluate(psi, forcing, storage)
+    best = ev
     newton = method == NEWTON
     for it in range(max_iterations + 1):
         if ev.converged(tolerance):
@@ -239,6 +250,7 @@ def iterate(system: RichardsSystem, psi: np.ndarray, forcing: StepForcing, stora
         if not newton:
             # modified Picard takes the full step (its direction need not lower |F|)
             ev = system.evaluate(ev.psi + d, forcing, storage)
+            best = ev if ev.norm < best.norm else best
             continue
         f0 = np.linalg.norm(ev.residual)
         step = 1.0
@@ -249,10 +261,32 @@ def iterate(system: RichardsSystem, psi: np.ndarray, forcing: StepForcing, stora
             step *= 0.5
         else:
             if trial.norm > 1e2 * tolerance * trial.scale + trial.floor:
+                if stalled_closed(best, tolerance, storage):
+                    return Outcome(best, it + 1, True)
                 return Outcome(trial, it + 1, False)
+        best = trial if trial.norm < best.norm else best
         if trial.norm > STALL * ev.norm and trial.norm <= 1e2 * tolerance * trial.scale + trial.floor:
             # no progress near the tolerance: the residual is at the round-off of the heads
             # (psi + z, large sections with heads of tens of metres) and cannot fall further
             return Outcome(trial, it + 1, True)
         ev = trial
+    if stalled_closed(best, tolerance, storage):
+        return Outcome(best, max_iterations, True)
     return Outcome(ev, max_iterations, False)
+
+
+def stalled_closed(ev: Evaluation, tolerance: float, storage: Storage | None) -> bool:
+    """Whether an iterate at which Newton stalls is accepted: its residual is within
+    :data:`STALL_FACTOR` of the tolerance and the water budget of the step closes to
+    :data:`CLOSURE_TARGET` (transient steps only).
+
+    The stall arises at the kink of Mualem's Kr at saturation: for van Genuchten ``n < 2``,
+    ``dKr/dpsi ~ |psi|^(n-2)`` is unbounded there, and a cell whose root lies within round-off
+    of ``psi = 0`` sends Newton back and forth across the kink. The budget closure of the step is
+    ``(in - out) / max(in, out)`` with ``in + out`` the throughput and ``in - out`` minus the sum
+    of the cell residuals, so ``|sum F| <= CLOSURE_TARGET * throughput / 2`` bounds it.
+    """
+    if storage is None or not np.all(np.isfinite(ev.residual)):
+        return False
+    return (ev.norm <= STALL_FACTOR * tolerance * ev.scale + ev.floor
+            and abs(float(ev.residual.sum())) <= 0.5 * CLOSURE_TARGET * ev.scale)
