@@ -49,3 +49,20 @@ def test_transient_saturated_section_matches_linear_model():
     assert np.nanmax(np.abs(vs["head"].values - linear["head"].values)) < 1e-6
     # the whole storage change is elastic
     assert np.allclose(vs["storage_unsaturated"].values, 0.0, atol=1e-15)
+
+
+def test_saturated_banks_with_seepage_faces_match_linear_model():
+    # the stage meets the bank inside a column (water's edge at x = 8 - 0.2 * 8 / 0.3 = 2.67 m) and
+    # high side heads keep every cell saturated, so the banks above the water seep: the dry part of
+    # the edge column and the exposed banks are seepage faces in both models, and the heads and the
+    # exchange must agree to the nonlinear tolerance (Freeze & Cherry 1979, as above)
+    d = copy.deepcopy(BASE)
+    d["stream"] = {"stage": "0.2 m"}
+    d["sides"] = {"left": {"head": 3.0}, "right": {"head": 3.0}, "bottom": "no-flow"}
+    linear = bedflux.simulate(bedflux.Scenario.from_dict(d))
+    for z in d["zone"]:
+        z["retention"] = RETENTION
+    vs = bedflux.simulate(bedflux.Scenario.from_dict(d))
+    assert np.nanmin(vs["pressure_head"].values) > 0  # saturated everywhere
+    assert np.nanmax(np.abs(vs["head"].values - linear["head"].values)) < 1e-6
+    assert abs(float(vs["exchange"]) - float(linear["exchange"])) < 1e-6 * abs(float(linear["exchange"]))

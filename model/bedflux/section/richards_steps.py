@@ -177,16 +177,18 @@ class SectionBoundaries:
         s = self.section
         g = s.grid
         new = state.copy()
-        wet = s.submerged(t)
+        fraction = s.wetted_fraction(t)
         zc = g.z_centre[g.active]
         h_top = ev.psi[s.top_cells] + zc[s.top_cells]
-        new.seepage[~wet & ~state.seepage & (h_top > g.ground)] = True
+        # the dry part of a partly wetted column too, at the level the linear model holds it
+        new.seepage[(fraction < 1.0) & ~state.seepage & (h_top > s.seepage_level(t))] = True
         u = ev.psi + zc - s.h_ref
         for term, kr in zip(forcing.terms, ev.term_kr):
             if term.kind == "seepage_face":
-                inflow = kr * (term.r - term.conductance * u[term.cells]) / g.dx[term.column_or_row]
+                width = g.dx[term.column_or_row] if term.width is None else term.width
+                inflow = kr * (term.r - term.conductance * u[term.cells]) / width
                 new.seepage[term.column_or_row[inflow > max(s.scenario.recharge, 0.0) + 1e-15]] = False
-        new.seepage[wet] = False
+        new.seepage[fraction >= 1.0] = False
         return new
 
 
