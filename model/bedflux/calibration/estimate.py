@@ -115,8 +115,28 @@ def _residual_functions(forward: Forward):
     return fun, jac, evaluate
 
 
+def _solve_from(forward: Forward, start: tuple[int, np.ndarray], functions: tuple | None = None
+                ) -> tuple[np.ndarray, float, int, int]:
+    """Least squares from one start ``(k, m0)``: best point, objective, evaluations and the
+    forward runs they took (counted here: on a worker the model is a copy). ``functions``: the
+    residual functions shared by the starts run here (a task makes its own)."""
+    k, m0 = start
+    fun, jac, _ = functions or _residual_functions(forward)
+    lo = np.array([p.internal(p.low) for p in forward.free])
+    hi = np.array([p.internal(p.high) for p in forward.free])
+    runs = forward.n_forward_runs
+    try:
+        sol = optimize.least_squares(fun, m0, jac=jac, bounds=(lo, hi), method="trf", x_scale="jac",
+                                     xtol=1e-12, ftol=1e-12, gtol=1e-12, max_nfev=200)
+    except InputError:
+        raise
+    except (ValueError, np.linalg.LinAlgError) as err:
+        raise SolverError(f"the least-squares solver failed from start {k + 1}: {err}") from None
+    return sol.x, float(np.sum(sol.fun**2)), int(sol.nfev), forward.n_forward_runs - runs
+
+
 def estimate(forward: Forward, starts: int = 1, seed: int = 0,
-             progress: Callable[[str], None] | None = None) -> FitResult:
+             progress: Callable[[str], None] | None = None, client=None) -> FitResult:
     """Fit the free parameters of ``forward`` to its observations.
 
     Parameters
@@ -127,42 +147,47 @@ def estimate(forward: Forward, starts: int = 1, seed: int = 0,
         Number of starting points: the given start, then points drawn uniformly in the
         (transformed) bounds with ``seed``; the best fit is kept.
     progress
-        Called with a line of text after each start.
+        Called with a line of text after each start (after all of them with a client).
+    client
+        A dask client: the starts run as tasks on its workers (the same numbers); None runs
+        them here, one after another.
     """
-    fun, jac, evaluate = _residual_functions(forward)
+    functions = _residual_functions(forward)
     lo = np.array([p.internal(p.low) for p in forward.free])
     hi = np.array([p.internal(p.high) for p in forward.free])
     rng = np.random.default_rng(seed)
     points = [forward.start()] + [rng.uniform(lo, hi) for _ in range(max(starts, 1) - 1)]
+    if client is None:
+        solved = (_solve_from(forward, (k, m0), functions) for k, m0 in enumerate(points))
+    else:
+        from bedflux.calibration.cluster import task_map
+
+        solved = task_map(client, _solve_from, (forward,), list(enumerate(points)))
     best = None
     history = []
-    for k, m0 in enumerate(points):
-        try:
-            sol = optimize.least_squares(fun, m0, jac=jac, bounds=(lo, hi), method="trf", x_scale="jac",
-                                         xtol=1e-12, ftol=1e-12, gtol=1e-12, max_nfev=200)
-        except InputError:
-            raise
-        except (ValueError, np.linalg.LinAlgError) as err:
-            raise SolverError(f"the least-squares solver failed from start {k + 1}: {err}") from None
-        objective = float(np.sum(sol.fun**2))
-        history.append({"start": k + 1, "objective": objective, "evaluations": int(sol.nfev),
-                        "values": {p.path: p.natural(v) for p, v in zip(forward.free, sol.x)}})
+    for k, (x, objective, nfev, runs) in enumerate(solved):
+        if client is not None:
+            forward.n_forward_runs += runs
+        history.append({"start": k + 1, "objective": objective, "evaluations": nfev,
+                        "values": {p.path: p.natural(v) for p, v in zip(forward.free, x)}})
         if progress is not None:
             progress(f"start {k + 1}/{len(points)}: weighted sum of squares {objective:.6g} "
-                     f"after {sol.nfev} evaluations")
+                     f"after {nfev} evaluations")
         if best is None or objective < best[1]:
-            best = (sol.x, objective)
-    result = fit_result_at(forward, best[0], evaluate)
+            best = (x, objective)
+    result = fit_result_at(forward, best[0], functions[2])
     result.starts = history
     return result
 
 
 def calibrate(forward: Forward, starts: int = 1, seed: int = 0, sample: int = 0,
-              progress: Callable[[str], None] | None = None) -> FitResult:
-    """Estimate, optionally sample the posterior (``sample`` steps), and count the forward runs."""
-    result = estimate(forward, starts=starts, seed=seed, progress=progress)
+              progress: Callable[[str], None] | None = None, client=None) -> FitResult:
+    """Estimate, optionally sample the posterior (``sample`` steps), and count the forward runs.
+
+    With a dask ``client`` the starts and the sampler's walkers run on its workers."""
+    result = estimate(forward, starts=starts, seed=seed, progress=progress, client=client)
     if sample:
-        result.posterior = sample_posterior(forward, result, steps=sample, seed=seed)
+        result.posterior = sample_posterior(forward, result, steps=sample, seed=seed, client=client)
     result.n_forward_runs = forward.n_forward_runs
     return result
 
@@ -399,11 +424,12 @@ def suggest_instrument(forward: Forward, m: np.ndarray, j: int, k: int, info: np
 
 
 def sample_posterior(forward: Forward, result: FitResult, steps: int = 2000, walkers: int | None = None,
-                     seed: int = 0) -> dict:
+                     seed: int = 0, client=None) -> dict:
     """Posterior sampling with emcee (an optional dependency: ``pip install bedflux[mcmc]``).
 
     Likelihood ``exp(-S/2)`` with the observation sigmas, uniform within the bounds (in the
-    estimation space) times the Gaussian priors. Returns 2.5/50/97.5 percentiles in SI.
+    estimation space) times the Gaussian priors. Returns 2.5/50/97.5 percentiles in SI. With a
+    dask ``client`` each step's walkers are evaluated on its workers (the same chain).
     """
     try:
         import emcee
@@ -424,7 +450,12 @@ def sample_posterior(forward: Forward, result: FitResult, steps: int = 2000, wal
     sd = np.sqrt(np.clip(np.diag(result.covariance), 1e-12, None))
     sd = np.where(np.isfinite(sd), sd, (hi - lo) / 4.0)  # unseen parameters: spread over the bounds
     p0 = np.clip(result.m_best + 0.1 * sd * rng.standard_normal((nw, ndim)), lo, hi)
-    sampler = emcee.EnsembleSampler(nw, ndim, logp)
+    pool = None
+    if client is not None:
+        from bedflux.calibration.cluster import TaskPool
+
+        pool = TaskPool(client)
+    sampler = emcee.EnsembleSampler(nw, ndim, logp, pool=pool)
     sampler.run_mcmc(p0, steps, progress=False)
     chain = sampler.get_chain(discard=steps // 2, flat=True)
     out = {}
@@ -437,7 +468,7 @@ def sample_posterior(forward: Forward, result: FitResult, steps: int = 2000, wal
 
 def fit(scenario: Scenario, observations: pd.DataFrame, free: list[dict], *,
         pan_diameter: float = DEFAULT_PAN_DIAMETER, starts: int = 1, seed: int = 0, sample: int = 0,
-        progress: Callable[[str], None] | None = None) -> FitResult:
+        progress: Callable[[str], None] | None = None, client=None) -> FitResult:
     """Weighted least-squares calibration with linearised uncertainty.
 
     Parameters
@@ -455,6 +486,9 @@ def fit(scenario: Scenario, observations: pd.DataFrame, free: list[dict], *,
         Number of starting points and the seed of the random ones.
     sample
         Steps of posterior sampling with emcee (0: none).
+    client
+        A ``dask.distributed`` client: the starts and the sampler's walkers run as tasks on its
+        workers, with the same numbers as without one (None: all in this process).
 
     Returns
     -------
@@ -463,4 +497,4 @@ def fit(scenario: Scenario, observations: pd.DataFrame, free: list[dict], *,
         ``.n_forward_runs``, statistics, sensitivities and verdicts.
     """
     forward = Forward(scenario, observations, free_parameters(scenario, free), pan_diameter)
-    return calibrate(forward, starts=starts, seed=seed, sample=sample, progress=progress)
+    return calibrate(forward, starts=starts, seed=seed, sample=sample, progress=progress, client=client)

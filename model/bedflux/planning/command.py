@@ -1,4 +1,4 @@
-"""``bedflux plan PLAN.toml -o OUTDIR``."""
+"""``bedflux plan PLAN.toml -o OUTDIR [--scheduler ADDRESS] [--workers N]``."""
 from __future__ import annotations
 
 import argparse
@@ -7,21 +7,25 @@ from pathlib import Path
 
 import numpy as np
 
+from bedflux.calibration.cluster import add_engine_options
 from bedflux.outputs.verb import add_output_options, print_written, staged_outputs
 
 
 def _run(args: argparse.Namespace) -> int:
+    from bedflux.calibration.cluster import optional_engine
     from bedflux.planning import plan
     from bedflux.planning.detect import detectability
     from bedflux.planning.outputs import plan_summary_text, write_plan
     from bedflux.planning.spec import load_plan
 
+    engine = optional_engine(args.scheduler, args.workers)
     spec = load_plan(args.planfile, args.output)
-    with staged_outputs(args.output, "plan", [Path(args.planfile)]) as stage:
+    with staged_outputs(args.output, "plan", [Path(args.planfile)]) as stage, engine as tasks:
         table = plan(spec.scenario, spec.free, spec.candidates, spec.n, spec.target, existing=spec.existing,
                      instruments=spec.instruments, min_spacing=spec.min_spacing,
                      max_per_transect=spec.max_per_transect, length=spec.length, pan_diameter=spec.pan_diameter,
-                     max_depth=spec.max_depth, fit=spec.fit, reading_time=spec.reading_time, source=spec.source)
+                     max_depth=spec.max_depth, fit=spec.fit, reading_time=spec.reading_time, source=spec.source,
+                     client=tasks.client)
         scenario = spec.scenario.with_values(spec.fit.best) if spec.fit is not None else spec.scenario
         detect = None
         if scenario.transient:
@@ -48,4 +52,5 @@ def register(sub) -> None:
                                    "output) the plan starts from the calibrated values and the fit's covariance.")
     p.add_argument("planfile", help="plan file (TOML)")
     add_output_options(p, "bedflux-plan", "no summary on screen")
+    add_engine_options(p, "perturbed runs of a prediction target")
     p.set_defaults(func=_run)

@@ -36,7 +36,7 @@ def plan(scenario: Scenario, free: list[dict] | None, candidates: pd.DataFrame, 
          *, existing: pd.DataFrame | None = None, instruments: Instruments = Instruments(), min_spacing: float = 0.0,
          max_per_transect: int | None = None, length: float | None = None,
          pan_diameter: float = 0.57, max_depth: float = DEFAULT_MAX_DEPTH, fit: FitStart | str | Path | None = None,
-         reading_time: float | None = None, source: str = "plan") -> pd.DataFrame:
+         reading_time: float | None = None, source: str = "plan", client=None) -> pd.DataFrame:
     """Rank ``n`` new instruments by the expected reduction of the target's uncertainty.
 
     Parameters
@@ -67,6 +67,9 @@ def plan(scenario: Scenario, free: list[dict] | None, candidates: pd.DataFrame, 
     reading_time
         When a transient scenario's instruments are read (s; default: when the stage departs most
         from its start). Not allowed for a steady scenario.
+    client
+        A ``dask.distributed`` client: the perturbed runs behind a prediction target's gradient
+        run as tasks on its workers, with the same numbers as without one (None: in this process).
 
     Returns
     -------
@@ -131,7 +134,7 @@ def plan(scenario: Scenario, free: list[dict] | None, candidates: pd.DataFrame, 
         if not (np.isfinite(tgt.x) and x0 <= tgt.x <= x1):
             raise InputError(f"reversal:{tgt.x:g} is not a column of the section ({x0:g} to {x1:g} m)",
                              source=source, where="target")
-    g, value = target_gradient(forward, tgt, m)
+    g, value = target_gradient(forward, tgt, m, client=client)
     labels = cand["transect"].astype(str).to_numpy()
     xs = cand["x"].to_numpy()
     kinds = cand["kind"].to_numpy()

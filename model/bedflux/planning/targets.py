@@ -133,8 +133,12 @@ def residence_prediction(scenario, ds, target: Target) -> float:
                          "another target", where="target")
     return value
 
-def target_gradient(forward: Forward, target: Target, m: np.ndarray, step: float = 1e-3) -> tuple[np.ndarray | None, float]:
-    """The target's gradient in the estimation space (None for D-optimal) and its value."""
+def target_gradient(forward: Forward, target: Target, m: np.ndarray, step: float = 1e-3,
+                    client=None) -> tuple[np.ndarray | None, float]:
+    """The target's gradient in the estimation space (None for D-optimal) and its value.
+
+    With a dask ``client`` the perturbed runs of a prediction run as tasks on its workers (the
+    same numbers)."""
     P = forward.n_params
     if target.kind == "parameters":
         return None, float("nan")
@@ -143,15 +147,22 @@ def target_gradient(forward: Forward, target: Target, m: np.ndarray, step: float
         g = np.zeros(P)
         g[j] = 1.0
         return g, forward.free[j].natural(m[j])
-    value = prediction(forward, target, m)
-    g = np.zeros(P)
+    steps = np.zeros(P)
+    points = [m]
     for j, p in enumerate(forward.free):
-        h = step if p.log else step * (abs(m[j]) if m[j] else (p.high - p.low))
+        steps[j] = step if p.log else step * (abs(m[j]) if m[j] else (p.high - p.low))
         up, dn = m.copy(), m.copy()
-        up[j] += h
-        dn[j] -= h
-        g[j] = (prediction(forward, target, up) - prediction(forward, target, dn)) / (2 * h)
-    return g, value
+        up[j] += steps[j]
+        dn[j] -= steps[j]
+        points += [up, dn]
+    if client is None:
+        values = [prediction(forward, target, point) for point in points]
+    else:
+        from bedflux.calibration.cluster import task_map
+
+        values = task_map(client, prediction, (forward, target), points)
+    g = (np.array(values[1::2]) - np.array(values[2::2])) / (2 * steps)
+    return g, values[0]
 
 
 def to_natural(forward: Forward, target: Target, m: np.ndarray, spread: float) -> float:
