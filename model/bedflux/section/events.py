@@ -21,7 +21,6 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import xarray as xr
-from scipy.interpolate import RegularGridInterpolator
 
 
 def _crossings(t: np.ndarray, y: np.ndarray, reference_sign: float) -> list[tuple[float, float | None]]:
@@ -56,6 +55,25 @@ def _positive_part_integral(t: np.ndarray, y: np.ndarray) -> float:
     return total
 
 
+def _bilinear(z: np.ndarray, x: np.ndarray, Z: np.ndarray, X: np.ndarray):
+    """Bilinear interpolation on the cell centres ``(z, x)`` (ascending) at the points ``(Z, X)``
+    inside them: the cells and weights found once, returned as a function of a ``(nz, nx)`` field
+    (one column: linear in z alone)."""
+    iz = np.clip(np.searchsorted(z, Z, side="right") - 1, 0, z.size - 2)
+    wz = (Z - z[iz]) / (z[iz + 1] - z[iz])
+    if x.size > 1:
+        ix = np.clip(np.searchsorted(x, X, side="right") - 1, 0, x.size - 2)
+        ix1, wx = ix + 1, (X - x[ix]) / (x[ix + 1] - x[ix])
+    else:
+        ix = ix1 = np.zeros(X.shape, dtype=int)
+        wx = np.zeros(X.shape)
+
+    def at(f: np.ndarray) -> np.ndarray:
+        return ((1 - wz) * ((1 - wx) * f[iz, ix] + wx * f[iz, ix1])
+                + wz * ((1 - wx) * f[iz + 1, ix] + wx * f[iz + 1, ix1]))
+    return at
+
+
 def track_particles(ds: xr.Dataset, release_times: np.ndarray,
                     substeps: int = 10) -> tuple[np.ndarray, np.ndarray]:
     """Deepest point below the ground reached by the particle released at the bed of each column,
@@ -82,14 +100,9 @@ def track_particles(ds: xr.Dataset, release_times: np.ndarray,
     reached = np.array(release_times, dtype=float)
 
     def velocity(k: int, frac: float, X: np.ndarray, Z: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        pts = np.column_stack([np.clip(Z, z[0], z[-1]), np.clip(X, x[0], x[-1])])
-        out = []
-        for field in (qx, qz):
-            a = RegularGridInterpolator((z, x), field[k], bounds_error=False, fill_value=0.0)(pts)
-            b = RegularGridInterpolator((z, x), field[min(k + 1, t.size - 1)], bounds_error=False,
-                                        fill_value=0.0)(pts)
-            out.append((1 - frac) * a + frac * b)
-        return out[0], out[1]
+        at = _bilinear(z, x, np.clip(Z, z[0], z[-1]), np.clip(X, x[0], x[-1]))
+        k1 = min(k + 1, t.size - 1)
+        return ((1 - frac) * at(qx[k]) + frac * at(qx[k1]), (1 - frac) * at(qz[k]) + frac * at(qz[k1]))
 
     for k in range(t.size - 1):
         h = (t[k + 1] - t[k]) / substeps
