@@ -23,7 +23,9 @@ all parameters (:mod:`bedflux.forward.unsaturated_sensitivity`), for zone ``kh``
 ``recharge.rate`` and ``stream.leakance``.
 
 Parameters without an analytic derivative (for example a layer depth or the stage; and, in a
-variably saturated run, a side head or a riparian rate) fall back to central differences.
+variably saturated run, a side head or a riparian rate) fall back to central differences, and so
+do all flow parameters of a table with ``thermal_flux`` rows (the simulated vertical flux carries
+the face conductances; its explicit derivative is not assembled: two forward runs per parameter).
 """
 from __future__ import annotations
 
@@ -408,6 +410,7 @@ class Forward:
         self._last: _ForwardState | None = None
         # every observation must lie in the section (checked once, before any fitting)
         self.has_temperature = bool((self.observations["kind"] == "temperature").any())
+        self.has_thermal_flux = bool((self.observations["kind"] == "thermal_flux").any())
         section = self._section_at(self.start())
         self._operators.operators(section, self.observations)
         require_heat(section, self.has_temperature, self.source)
@@ -459,6 +462,10 @@ class Forward:
             # thermal parameters (no effect on the flow) are analytic where the flow is steady
             steady_flow = not self.scenario.transient or flow_is_steady(self.scenario)
             analytic = [j for j, rule in enumerate(self.rules) if rule.name.startswith("thermal-") and steady_flow]
+        if self.has_thermal_flux:
+            # the thermal-flux rows carry the face conductances of the section: their sensitivities
+            # to the flow parameters are central differences (every column of such a parameter)
+            analytic = [j for j in analytic if self.rules[j].name.startswith("thermal-")]
         d, J = self._run(m, analytic)
         for j, rule in enumerate(self.rules):
             if j in analytic:
