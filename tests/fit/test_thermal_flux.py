@@ -120,3 +120,59 @@ class _Scaled:
 
     def predict(self, m):
         return self.fw.predict(m) * self.scale
+
+
+# ------------------------------------------------------------------------------------------
+# the fit file: thermal-flux rows enter, and observation_times keeps the rows of one period
+
+TIMED_OBS = ("kind,x,depth,time,value,sigma\n"
+             "seepage,20,0,,1.2e-6,1e-7\n"
+             "thermal_flux,20,0.15,43200,1.5e-6,8e-7\n"
+             "thermal_flux,20,0.15,734400,-3e-6,8e-7\n"
+             "vhg,60,0.5,40000,0.05,0.005\n")
+KV = '[[free]]\npath = "bed.kv"\nlow = "0.01 m/d"\nhigh = "50 m/d"\nstart = "1 m/d"\n'
+
+
+def fit_file(tmp_path, top: str, obs: str = TIMED_OBS):
+    from tests.fit.test_fit_cli import write_fit
+
+    return write_fit(tmp_path, KV, top=top, obs=obs)
+
+
+def test_observation_times_keep_the_rows_of_the_window(tmp_path):
+    from bedflux.calibration.spec import load_fit
+
+    spec = load_fit(fit_file(tmp_path, 'observation_times = ["0 d", "8 d"]'))
+    # the untimed meter row stays, the row at 8.5 d goes
+    assert spec.observations["kind"].tolist() == ["seepage", "thermal_flux", "vhg"]
+    assert load_fit(fit_file(tmp_path, "")).observations["kind"].tolist().count("thermal_flux") == 2
+
+
+@pytest.mark.parametrize("top, words", [
+    ('observation_times = ["8 d", "0 d"]', ["bad_fit.toml", "observation_times", "increasing"]),
+    ('observation_times = ["10 d", "11 d"]', ["bad_fit.toml", "observation_times", "no observation"]),
+    ('observation_times = ["0 m", "1 m"]', ["bad_fit.toml", "observation_times"]),
+])
+def test_bad_observation_times_exit_2(tmp_path, capsys, top, words):
+    from bedflux.cli import main
+
+    timed = TIMED_OBS.replace("seepage,20,0,,", "seepage,20,0,41000,")  # every row timed
+    status = main(["fit", str(fit_file(tmp_path, top, timed)), "-o", str(tmp_path / "never"), "-q"])
+    err = capsys.readouterr().err
+    assert status == 2 and "Traceback" not in err
+    for w in words:
+        assert w in err, (w, err)
+    assert not (tmp_path / "never").exists()
+
+
+def test_worked_fit_takes_the_temperature_windows_of_the_campaign_day():
+    # the demo records carry a flood from day 8 (scenarios/make_temperature_sheet.py); the steady
+    # worked fit takes the windows of the day the meters and piezometers were read, none after
+    from bedflux.calibration.spec import load_fit
+    from tests.fit.test_fit_cli import ROOT
+
+    obs = load_fit(ROOT / "scenarios" / "reach_fit.toml").observations
+    thermal = obs[obs["kind"] == "thermal_flux"]
+    assert len(thermal) > 0
+    campaign = obs.loc[obs["kind"] != "thermal_flux", "time"]
+    assert thermal["time"].max() - 43200.0 <= campaign.max() and thermal["time"].min() + 43200.0 >= campaign.min()
