@@ -10,8 +10,10 @@ Checks, each against something outside the operator under test:
   xarray, a code path of its own.
 - Taylor test of the Jacobian of a table with thermal-flux rows, steady and transient (the
   first-order Taylor expansion, Nocedal & Wright 2006, thm. 2.1): the remainder with J falls as
-  O(h^2); the flow-parameter columns of such a table are central differences, so a Jacobian that
-  missed the thermal rows (zero rows) leaves an O(h) remainder and fails.
+  O(h^2); a Jacobian that missed the thermal rows (zero rows) leaves an O(h) remainder and fails.
+- The analytic thermal-flux columns against central differences of whole runs (truncation
+  O(h^2), Nocedal & Wright 2006, eq. 8.7), steady (adjoint path: more parameters than rows) and
+  transient.
 """
 from __future__ import annotations
 
@@ -22,7 +24,8 @@ import pytest
 import bedflux
 from bedflux.forward.sensitivity import Forward, free_parameters
 
-from tests.fit.test_jacobian import CASES, EPS, STEPS, free_list, observed_orders, section, taylor_remainders
+from tests.fit.test_jacobian import (CASES, EPS, STEPS, central_differences, free_list, observed_orders, section,
+                                     taylor_remainders)
 
 STAGE = 0.2
 BED = 0.4
@@ -176,3 +179,23 @@ def test_worked_fit_takes_the_temperature_windows_of_the_campaign_day():
     assert len(thermal) > 0
     campaign = obs.loc[obs["kind"] != "thermal_flux", "time"]
     assert thermal["time"].max() - 43200.0 <= campaign.max() and thermal["time"].min() + 43200.0 >= campaign.min()
+
+
+@pytest.mark.parametrize("case", ["steady", "backward-euler", "crank-nicolson"])
+def test_thermal_flux_jacobian_agrees_with_central_differences(case):
+    # the analytic columns (state sensitivities through the face fluxes, plus the explicit
+    # derivative of the conductances and boundary inflows) against central differences of whole
+    # runs (truncation O(h^2), Nocedal & Wright 2006, eq. 8.7), per column's scale
+    scheme, _, times = CASES[case]
+    s = section(scheme)
+    obs = pd.DataFrame([dict(kind=k, x=x, depth=d, time=t, value=0.0, sigma=1.0)
+                        for t in times[:2] for k, x, d in THERMAL_POINTS if k == "thermal_flux"])
+    fw = Forward(s, obs, free_parameters(s, free_list(s, PATHS)))
+    m = fw.start()
+    runs = fw.n_forward_runs
+    _, J = fw.predict_and_jacobian(m)
+    assert fw.n_forward_runs - runs <= 1  # analytic: no central differences taken
+    fd = central_differences(fw, m)
+    scale = np.abs(fd).max(axis=0)
+    assert np.all(scale > 0)
+    np.testing.assert_allclose(J / scale, fd / scale, atol=1e-5)

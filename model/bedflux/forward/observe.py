@@ -22,9 +22,8 @@ An observation table has the columns ``kind, x, depth, time, value, sigma`` (SI)
 
 Each operator is linear in the heads: ``value = W h + c``; for seepage the weights carry the bed
 conductances, whose dependence on the parameters the sensitivity code adds explicitly. The
-thermal-flux rows carry the face conductances as well; their sensitivities are central
-differences (:class:`bedflux.forward.sensitivity.Forward`), so ``head_rows`` and
-``linear_parts`` leave them empty.
+thermal-flux rows carry the face conductances as well: ``head_rows`` and ``linear_parts`` leave
+them empty and :func:`bedflux.forward.sensitivity.thermal_flux_parts` gives their derivatives.
 """
 from __future__ import annotations
 
