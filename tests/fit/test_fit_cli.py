@@ -80,16 +80,16 @@ def test_statistics_recomputed_from_the_residual_table(worked):
 # ------------------------------------------------------------------------------------------
 # the observation definitions of issue 5, item 1, on the simulated Dataset
 
-def head_at(ds, x: float, z: float) -> float:
+def head_at(ds, x: float, z: float, name: str = "head") -> float:
     """Linear between the two nearest columns; in each column linear between its cell centres
-    (clamped to the end centres)."""
+    (clamped to the end centres); ``name``: the cell variable (head, or qz for a thermal flux)."""
     xc = ds["x"].values
     j = int(np.clip(np.searchsorted(xc, x) - 1, 0, xc.size - 2))
     a = float(np.clip((x - xc[j]) / (xc[j + 1] - xc[j]), 0.0, 1.0))
     zc = ds["z"].values
     out = 0.0
     for col, w in ((j, 1.0 - a), (j + 1, a)):
-        h = ds["head"].values[:, col]
+        h = ds[name].values[:, col]
         ok = np.isfinite(h)
         order = np.argsort(zc[ok])
         out += w * float(np.interp(z, zc[ok][order], h[ok][order]))
@@ -121,6 +121,8 @@ def test_calibrated_scenario_reproduces_the_fitted_values(worked):
     for _, r in t.iterrows():
         if r["kind"] == "seepage":
             expect = seepage_at(ds, r["x"], PAN)
+        elif r["kind"] == "thermal_flux":  # the vertical Darcy flux at the sensor pair's mid-depth
+            expect = head_at(ds, r["x"], ground(r["x"]) - r["depth"], "qz")
         else:
             h = head_at(ds, r["x"], ground(r["x"]) - r["depth"])
             expect = h if r["kind"] == "head" else (h - stage(r["x"])) / r["depth"]

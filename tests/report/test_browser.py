@@ -161,7 +161,8 @@ def test_findings_state_the_numbers_of_the_runs(project, page):
     fit = json.loads((project / "fit" / "fit_results.json").read_text())
     kv = fit["best"]["bed.kv"]
     lo, hi = fit["ci95"]["bed.kv"]
-    assert f"bed.kv (vertical conductivity of zone 'bed') = {kv * 86400:.3g} m/d" in text
+    # three significant figures, trailing zeros kept (1.498 -> "1.50")
+    assert f"bed.kv (vertical conductivity of zone 'bed') = {f'{kv * 86400:#.3g}'.rstrip('.')} m/d" in text
     assert f"95 % interval {findings.number(lo * 86400)} to {findings.number(hi * 86400)} m/d" in text
     assert fit["verdicts"]["bed.kv"] in text
 

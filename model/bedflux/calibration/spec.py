@@ -3,6 +3,7 @@
 ```
 scenario = "reach.toml"            # relative to the fit file
 observations = "field"             # an observations CSV, or a folder of field sheets
+observation_times = ["0 d", "8 d"] # optional: only rows timed inside [a, b] (empty times kept)
 pan_diameter = "57 cm"             # seepage-meter footprint (default 0.57 m)
 starts = 3                         # starting points (default 1)
 seed = 1
@@ -32,7 +33,7 @@ from bedflux.scenario.spec import Scenario, load
 from bedflux.forward.sensitivity import FreeParameter, free_parameters
 from bedflux.calibration.display import dimension_of
 
-_KEYS = ["scenario", "observations", "pan_diameter", "starts", "seed", "sample", "free"]
+_KEYS = ["scenario", "observations", "observation_times", "pan_diameter", "starts", "seed", "sample", "free"]
 _FREE_KEYS = ["path", "low", "high", "start", "log", "prior", "prior_sd"]
 
 
@@ -58,14 +59,33 @@ def observations_from(path: Path, source: str) -> pd.DataFrame:
         from bedflux.field import reduce_field
 
         table = reduce_field(path).observations
-        # A folder of sheets may yield kinds the model does not predict yet (thermal_flux from a
-        # temperature sheet); the fit uses the kinds it knows. A CSV table must hold known kinds only.
+        # A folder of sheets may yield kinds the model does not predict; the fit uses the kinds it
+        # knows. A CSV table must hold known kinds only.
         table = table[table["kind"].isin(KINDS)].reset_index(drop=True)
         return check_observations(table, f"{path} (field sheets)")
     if not path.exists():
         raise InputError(f"observations '{path}' not found (a CSV table or a folder of field sheets)",
                          source=source, where="observations")
     return read_observations(path)
+
+
+def within_times(table: pd.DataFrame, window: tuple[float, float] | None, source: str) -> pd.DataFrame:
+    """The rows of ``table`` timed inside ``window`` (s, both ends included); rows without a time
+    (a steady table) are kept. ``window`` None keeps every row.
+
+    Raises
+    ------
+    InputError
+        Naming the fit file's ``observation_times`` when no row is left.
+    """
+    if window is None:
+        return table
+    t = table["time"]
+    keep = t.isna() | ((t >= window[0]) & (t <= window[1]))
+    if not keep.any():
+        raise InputError(f"no observation is timed inside [{window[0]:g}, {window[1]:g}] s",
+                         source=source, where="observation_times")
+    return table[keep].reset_index(drop=True)
 
 
 def read_toml(path: Path, what: str) -> dict:
@@ -124,6 +144,7 @@ def load_fit(path: str | Path) -> FitSpec:
         checks.reject_unknown(d, _KEYS, where="top level")
         scen_name = checks.text(d, "scenario", "top level")
         obs_name = checks.text(d, "observations", "top level")
+        window = checks.interval(d, "observation_times", "top level", dimension="time", default=None)
         pan = checks.quantity(d, "pan_diameter", "length", "top level", default=DEFAULT_PAN_DIAMETER,
                               low=0.0, low_inclusive=False, high=5.0)
         starts = checks.integer(d, "starts", "top level", default=1, low=1, high=100)
@@ -132,7 +153,7 @@ def load_fit(path: str | Path) -> FitSpec:
     except InputError as err:
         raise err.located(source=source) from None
     scenario = load(path.parent / scen_name)
-    observations = observations_from(path.parent / obs_name, source)
+    observations = within_times(observations_from(path.parent / obs_name, source), window, source)
     free_si = free_tables(d, source, scenario)
     free = free_parameters(scenario, free_si, source)
     return FitSpec(source, path.parent / scen_name, scenario, check_observations(observations, obs_name, scenario.transient),

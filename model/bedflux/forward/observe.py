@@ -14,9 +14,16 @@ An observation table has the columns ``kind, x, depth, time, value, sigma`` (SI)
 ``temperature``
     temperature (degC) of a logger at the point ``depth`` below the ground at ``x``, bilinear like a
     head; predicted by :mod:`bedflux.forward.heat_observe` (scenarios with ``[heat]``).
+``thermal_flux``
+    vertical Darcy flux (m/s, positive upward) at the point ``depth`` below the ground at ``x``
+    (the mid-depth of a temperature-sensor pair): the cell-centre ``qz`` of the results (the mean
+    of the flux over a cell's lower and upper face, boundary faces included), interpolated with
+    the weights of a head at that point, at the observation time in transient runs.
 
 Each operator is linear in the heads: ``value = W h + c``; for seepage the weights carry the bed
-conductances, whose dependence on the parameters the sensitivity code adds explicitly.
+conductances, whose dependence on the parameters the sensitivity code adds explicitly. The
+thermal-flux rows carry the face conductances as well: ``head_rows`` and ``linear_parts`` leave
+them empty and :func:`bedflux.forward.sensitivity.thermal_flux_parts` gives their derivatives.
 """
 from __future__ import annotations
 
@@ -30,9 +37,12 @@ import scipy.sparse as sp
 from bedflux.errors import InputError
 from bedflux.scenario.units import SECONDS_PER_DAY
 from bedflux.section.discretisation import Section, Term
+from bedflux.section.fluxes import derive
 
 COLUMNS = ("kind", "x", "depth", "time", "value", "sigma")
-KINDS = ("head", "vhg", "seepage", "temperature")
+KINDS = ("head", "vhg", "seepage", "temperature", "thermal_flux")
+#: Kinds whose value is not a head at a point (zero rows in ``Operators.head_rows``).
+HEAD_FREE_KINDS = ("seepage", "temperature", "thermal_flux")
 #: Pan diameter when none is given: the end of a 208 L (55 US gal) drum, about 0.57 m (common practice).
 DEFAULT_PAN_DIAMETER = 0.57
 #: Scatter of a seepage-meter reading about the true flux, as a fraction (about 30 % for careful
@@ -152,12 +162,13 @@ class Operators:
 
     @property
     def head_rows(self) -> sp.csr_matrix:
-        """``d(value)/d(h)`` of the head and gradient observations (zero rows for seepage and temperature)."""
+        """``d(value)/d(h)`` of the head and gradient observations (zero rows for seepage,
+        temperature and thermal flux)."""
         if self._head_rows is None:
             scale = np.ones(self.n)
             vhg = self.kind == "vhg"
             scale[vhg] = 1.0 / self.depth[vhg]
-            self._head_rows = (sp.diags(np.where((self.kind == "seepage") | (self.kind == "temperature"), 0.0, scale))
+            self._head_rows = (sp.diags(np.where(np.isin(self.kind, HEAD_FREE_KINDS), 0.0, scale))
                                @ self.head_weights).tocsr()
         return self._head_rows
 
@@ -280,6 +291,10 @@ def predict(section: Section, ops: Operators, u: np.ndarray, terms: list[Term], 
         w, top = _seepage_weights(section, ops, terms, source)
         q = -top.inflow(u) / _wet_width(section, top)
         out[seep] = (w @ q)[seep]
+    thermal = kind == "thermal_flux"
+    if thermal.any():
+        qz = derive(section, u, terms).qz[section.grid.active]  # per unknown, as the heads
+        out[thermal] = ops.head_weights[thermal] @ qz
     return out
 
 

@@ -23,7 +23,10 @@ all parameters (:mod:`bedflux.forward.unsaturated_sensitivity`), for zone ``kh``
 ``recharge.rate`` and ``stream.leakance``.
 
 Parameters without an analytic derivative (for example a layer depth or the stage; and, in a
-variably saturated run, a side head or a riparian rate) fall back to central differences.
+variably saturated run, a side head or a riparian rate) fall back to central differences, and so
+do all flow parameters of a variably saturated table with ``thermal_flux`` rows. Elsewhere a
+thermal-flux row chains the state sensitivities through the face fluxes and adds the explicit
+derivative of the face conductances and boundary inflows (:func:`thermal_flux_parts`).
 """
 from __future__ import annotations
 
@@ -31,6 +34,7 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
+import scipy.sparse as sp
 import pandas as pd
 
 from bedflux.errors import InputError
@@ -337,6 +341,62 @@ def residual_derivative(section: Section, terms: list[Term], u: np.ndarray, rule
     return dR, None
 
 
+def _term_inflow_derivative(section: Section, t: Term, u: np.ndarray, rule: DerivativeRule, value: float
+                            ) -> np.ndarray | None:
+    """``d(inflow)/dp`` of the entries of a top or bottom boundary term at fixed heads (None where
+    the term does not depend on the parameter); the per-term parts of :func:`residual_derivative`."""
+    g = section.grid
+    if rule.name in ("zone-kh", "zone-kv", "leakance"):
+        dconductance = term_conductance_derivative(section, t, rule, value)
+        return None if dconductance is None else dconductance * (t.r / t.conductance - u[t.cells])
+    if rule.name == "recharge" and t.kind == "recharge":
+        return g.dx[t.column_or_row] if t.width is None else t.width
+    if rule.name == "side-head" and t.face == rule.side and t.kind == rule.side:
+        return t.conductance
+    return None
+
+
+def thermal_flux_parts(section: Section, ops: Operators, u: np.ndarray, terms: list[Term],
+                       rules: list[DerivativeRule], values: list[float]) -> tuple[sp.csr_matrix, np.ndarray]:
+    """``d(value)/d(h)`` of the ``thermal_flux`` rows (sparse, zero rows for the other kinds) and
+    their explicit derivatives at fixed heads (n_obs x len(rules)).
+
+    The value is ``W qz`` with ``W`` the head weights and ``qz`` the cell-centre vertical flux
+    (:func:`bedflux.section.fluxes.derive`): half the sum of the interior faces' ``C (h_lo - h_hi)
+    / area`` below and above the cell, of the top terms' ``-inflow / dx`` and of the bottom term's
+    ``inflow / dx``. The explicit part carries ``dC/dp`` of the faces and ``d(inflow)/dp`` of the
+    boundary terms.
+    """
+    thermal = ops.kind == "thermal_flux"
+    n = section.n
+    Wt = sp.diags(thermal.astype(float)) @ ops.head_weights
+    vf = section.vfaces
+    g = section.grid
+    a = 0.5 * vf.conductance / vf.area
+    rows = np.concatenate([vf.lo, vf.lo, vf.hi, vf.hi])
+    cols = np.concatenate([vf.lo, vf.hi, vf.lo, vf.hi])
+    vals = np.concatenate([a, -a, a, -a])
+    boundary = [(t, 1.0 if t.face == "bottom" else -1.0) for t in terms if t.face in ("top", "bottom")]
+    for t, sign in boundary:
+        # qz gains sign * inflow / (2 dx) in the term's cell; d(inflow)/du = -c
+        rows = np.concatenate([rows, t.cells]); cols = np.concatenate([cols, t.cells])
+        vals = np.concatenate([vals, -sign * 0.5 * t.conductance / g.dx[t.column_or_row]])
+    M = sp.csr_matrix((vals, (rows, cols)), shape=(n, n))
+    E = np.zeros((ops.n, len(rules)))
+    for j, (rule, v) in enumerate(zip(rules, values)):
+        dqz = np.zeros(n)
+        dC = face_conductance_derivative(section, rule, v)[1]
+        if np.any(dC):
+            dF = 0.5 * dC * (u[vf.lo] - u[vf.hi]) / vf.area
+            dqz += np.bincount(vf.lo, weights=dF, minlength=n) + np.bincount(vf.hi, weights=dF, minlength=n)
+        for t, sign in boundary:
+            dinflow = _term_inflow_derivative(section, t, u, rule, v)
+            if dinflow is not None:
+                dqz += np.bincount(t.cells, weights=sign * 0.5 * dinflow / g.dx[t.column_or_row], minlength=n)
+        E[:, j] = Wt @ dqz
+    return (Wt @ M).tocsr(), E
+
+
 # ------------------------------------------------------------------------------------------
 
 @dataclass
@@ -408,6 +468,7 @@ class Forward:
         self._last: _ForwardState | None = None
         # every observation must lie in the section (checked once, before any fitting)
         self.has_temperature = bool((self.observations["kind"] == "temperature").any())
+        self.has_thermal_flux = bool((self.observations["kind"] == "thermal_flux").any())
         section = self._section_at(self.start())
         self._operators.operators(section, self.observations)
         require_heat(section, self.has_temperature, self.source)
@@ -459,6 +520,10 @@ class Forward:
             # thermal parameters (no effect on the flow) are analytic where the flow is steady
             steady_flow = not self.scenario.transient or flow_is_steady(self.scenario)
             analytic = [j for j, rule in enumerate(self.rules) if rule.name.startswith("thermal-") and steady_flow]
+        if self.has_thermal_flux and self.scenario.variably_saturated:
+            # the thermal-flux rows of a variably saturated run carry the relative conductances:
+            # central differences for the flow parameters (every column of such a parameter)
+            analytic = [j for j in analytic if self.rules[j].name.startswith("thermal-")]
         d, J = self._run(m, analytic)
         for j, rule in enumerate(self.rules):
             if j in analytic:
@@ -591,10 +656,13 @@ class Forward:
         W, w_top, flux_per_conductance, top = linear_parts(section, ops, sol.u, sol.terms)
         dR = np.zeros((section.n, len(rules)))
         E = np.zeros((ops.n, len(rules)))
+        if self.has_thermal_flux:
+            T, E = thermal_flux_parts(section, ops, sol.u, sol.terms, rules, values)
+            W = (W + T).tocsr()
         for j, (rule, v) in enumerate(zip(rules, values)):
             dR[:, j], dconductance = residual_derivative(section, sol.terms, sol.u, rule, v)
             if dconductance is not None and w_top.shape[1]:
-                E[:, j] = w_top @ (dconductance * flux_per_conductance)
+                E[:, j] += w_top @ (dconductance * flux_per_conductance)
         if len(rules) <= ops.n:
             X = sol.factor.solve(dR)
             self.n_sensitivity_solves += len(rules)
@@ -618,6 +686,9 @@ class Forward:
                 return vals, None
             W, w_top, flux_per_conductance, top = linear_parts(section, ops, u, terms)
             dJ = W @ s
+            if self.has_thermal_flux:
+                T, Et = thermal_flux_parts(section, ops, u, terms, rules, values)
+                dJ += T @ s + Et
             for j, (rule, v) in enumerate(zip(rules, values)):
                 if rule.name in ("zone-kv", "leakance") and w_top.shape[1]:
                     _, dconductance = residual_derivative(section, terms, u, rule, v)

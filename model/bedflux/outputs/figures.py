@@ -214,7 +214,8 @@ def run_figures(ds: xr.Dataset, outdir: str | Path, unit: str = "m/d") -> list[P
 
 _KIND_UNITS = {"head": ("head (m)", 1.0), "vhg": ("vertical gradient (-), up > 0", 1.0),
                "seepage": ("seepage flux (m/d), up > 0", SECONDS_PER_DAY),
-               "temperature": ("temperature (degC)", 1.0)}
+               "temperature": ("temperature (degC)", 1.0),
+               "thermal_flux": ("flux from temperature (m/d), up > 0", SECONDS_PER_DAY)}
 
 
 def observed_vs_simulated(residuals, path: str | Path) -> Path:
@@ -243,7 +244,7 @@ def residual_figure(residuals, path: str | Path, steady: bool = False) -> Path:
     row number, since a steady run has no clock)."""
     apply_style()
     fig, (a, b) = plt.subplots(1, 2, figsize=(8, 3.2), sharey=True)
-    markers = {"head": "s", "vhg": "^", "seepage": "o", "temperature": "D"}
+    markers = {"head": "s", "vhg": "^", "seepage": "o", "temperature": "D", "thermal_flux": "v"}
     row = np.arange(1, len(residuals) + 1)
     for k, r in residuals.groupby("kind"):
         a.plot(r["x"], r["weighted_residual"], markers.get(k, "o"), ms=4, label=k, mfc="none", color="k")

@@ -33,7 +33,7 @@ TOPICS = {
 
 _KIND_WORDS = {"seepage": "seepage meter", "vhg": "mini-piezometer (vertical gradient)",
                "head": "piezometer (head)", "piezometer": "mini-piezometer",
-               "manometer": "mini-piezometer"}
+               "manometer": "mini-piezometer", "thermal_flux": "temperature-sensor pair (vertical flux)"}
 _PROPERTY_WORDS = {"kh": "horizontal conductivity", "kv": "vertical conductivity", "k": "conductivity",
                    "specific_storage": "specific storage", "specific_yield": "specific yield", "head": "head"}
 
