@@ -71,6 +71,32 @@ def test_multi_start_fit_on_workers_equals_serial(client):
     assert tasks.n_forward_runs == serial.n_forward_runs
 
 
+def test_one_start_fit_takes_its_difference_columns_on_the_workers(client):
+    # the layer depth has no analytic derivative: its Jacobian column is a central difference of
+    # two runs, which with a client run as tasks; the fit (Darcy: kv = q / i at the true depth) and
+    # every figure equal the serial fit's
+    free = [KV_FREE, {"path": "bed.depth", "low": 0.2, "high": 0.6, "start": 0.35}]
+    serial = fit(column(), observations(), free, seed=3)
+    mapped = []
+    original = cluster.TaskPool.map
+
+    def counting(self, function, items):
+        items = list(items)
+        mapped.append(len(items))
+        return original(self, function, items)
+
+    cluster.TaskPool.map = counting
+    try:
+        tasks = fit(column(), observations(), free, seed=3, client=client)
+    finally:
+        cluster.TaskPool.map = original
+    assert mapped and all(n == 1 for n in mapped)  # one difference column per Jacobian, on the workers
+    for path in serial.best:
+        assert tasks.best[path] == pytest.approx(serial.best[path], rel=1e-12)
+    np.testing.assert_allclose(tasks.covariance, serial.covariance, rtol=1e-9)
+    assert tasks.n_forward_runs == serial.n_forward_runs
+
+
 def test_posterior_sampler_with_a_task_pool_draws_the_same_chain(client):
     free = [dict(KV_FREE, start=Q / I)]
     obs = observations()

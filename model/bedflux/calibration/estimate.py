@@ -149,33 +149,43 @@ def estimate(forward: Forward, starts: int = 1, seed: int = 0,
     progress
         Called with a line of text after each start (after all of them with a client).
     client
-        A dask client: the starts run as tasks on its workers (the same numbers); None runs
-        them here, one after another.
+        A dask client: several starts run as tasks on its workers, and the central-difference
+        columns of the Jacobians computed in this process (one start, the final covariance) run
+        there too (the same numbers); None runs everything here, one after another.
     """
     functions = _residual_functions(forward)
     lo = np.array([p.internal(p.low) for p in forward.free])
     hi = np.array([p.internal(p.high) for p in forward.free])
     rng = np.random.default_rng(seed)
     points = [forward.start()] + [rng.uniform(lo, hi) for _ in range(max(starts, 1) - 1)]
-    if client is None:
-        solved = (_solve_from(forward, (k, m0), functions) for k, m0 in enumerate(points))
-    else:
-        from bedflux.calibration.cluster import task_map
+    on_workers = client is not None and len(points) > 1
+    if client is not None:
+        # the central-difference columns of the Jacobians computed here run on the workers
+        from bedflux.calibration.cluster import TaskPool
 
-        solved = task_map(client, _solve_from, (forward,), list(enumerate(points)))
-    best = None
-    history = []
-    for k, (x, objective, nfev, runs) in enumerate(solved):
-        if client is not None:
-            forward.n_forward_runs += runs
-        history.append({"start": k + 1, "objective": objective, "evaluations": nfev,
-                        "values": {p.path: p.natural(v) for p, v in zip(forward.free, x)}})
-        if progress is not None:
-            progress(f"start {k + 1}/{len(points)}: weighted sum of squares {objective:.6g} "
-                     f"after {nfev} evaluations")
-        if best is None or objective < best[1]:
-            best = (x, objective)
-    result = fit_result_at(forward, best[0], functions[2])
+        forward.column_map = TaskPool(client).map
+    try:
+        if on_workers:
+            from bedflux.calibration.cluster import task_map
+
+            solved = task_map(client, _solve_from, (forward,), list(enumerate(points)))
+        else:
+            solved = (_solve_from(forward, (k, m0), functions) for k, m0 in enumerate(points))
+        best = None
+        history = []
+        for k, (x, objective, nfev, runs) in enumerate(solved):
+            if on_workers:
+                forward.n_forward_runs += runs
+            history.append({"start": k + 1, "objective": objective, "evaluations": nfev,
+                            "values": {p.path: p.natural(v) for p, v in zip(forward.free, x)}})
+            if progress is not None:
+                progress(f"start {k + 1}/{len(points)}: weighted sum of squares {objective:.6g} "
+                         f"after {nfev} evaluations")
+            if best is None or objective < best[1]:
+                best = (x, objective)
+        result = fit_result_at(forward, best[0], functions[2])
+    finally:
+        forward.column_map = None
     result.starts = history
     return result
 

@@ -32,6 +32,8 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
+from functools import partial
+from typing import Callable
 
 import numpy as np
 import scipy.sparse as sp
@@ -459,6 +461,9 @@ class Forward:
     source: str = "observations"
     n_forward_runs: int = field(default=0, init=False)
     n_sensitivity_solves: int = field(default=0, init=False)
+    #: ``map(function, items) -> list`` run elsewhere, e.g. over a cluster's workers: the
+    #: central-difference columns of a Jacobian are then computed there (None: here, in turn)
+    column_map: Callable | None = field(default=None, init=False, repr=False, compare=False)
 
     def __post_init__(self):
         self.observations = check_observations(self.observations, self.source, self.scenario.transient)
@@ -483,7 +488,7 @@ class Forward:
     def __getstate__(self) -> dict:
         # the kept run holds a factorization, which cannot be pickled (a copy sent to another
         # process runs again where it needs to)
-        return {**self.__dict__, "_last": None}
+        return {**self.__dict__, "_last": None, "column_map": None}
 
     @property
     def n_params(self) -> int:
@@ -525,13 +530,21 @@ class Forward:
             # central differences for the flow parameters (every column of such a parameter)
             analytic = [j for j in analytic if self.rules[j].name.startswith("thermal-")]
         d, J = self._run(m, analytic)
+        numeric = []
         for j, rule in enumerate(self.rules):
             if j in analytic:
                 continue
             if rule.name in _STORAGE_RULES and not self.scenario.transient:
                 J[:, j] = 0.0  # storage does not act in a steady run
             else:
-                J[:, j] = self._central_difference(m, j)
+                numeric.append(j)
+        if numeric and self.column_map is not None:
+            columns = self.column_map(partial(_difference_column, self, m), numeric)
+            self.n_forward_runs += 2 * len(numeric)  # counted on the copies that ran them
+        else:
+            columns = [self._central_difference(m, j) for j in numeric]
+        for j, column in zip(numeric, columns):
+            J[:, j] = column
         return d, J
 
     def jacobian_fd(self, m: np.ndarray, step: float | None = None) -> np.ndarray:
@@ -789,3 +802,8 @@ def _step_sensitivity(section: Section, info, s0: np.ndarray, rules: list[Deriva
                     col[cells] -= info.fill[cells] * dyield[fz] / section.top_specific_yield[fz]
         rhs[:, j] += col
     return info.factor.solve(rhs)
+
+
+def _difference_column(forward: Forward, m: np.ndarray, j: int) -> np.ndarray:
+    """Column ``j`` of the Jacobian at ``m`` by central differences (a task of ``column_map``)."""
+    return forward._central_difference(m, j)
