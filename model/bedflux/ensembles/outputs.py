@@ -1,4 +1,4 @@
-"""Writing an ensemble's outputs: ensemble.nc, the summary, the failed members and the figures."""
+"""Writing an ensemble's outputs: ensemble.nc (or ensemble.zarr), the summary, the failed members and the figures."""
 from __future__ import annotations
 
 import json
@@ -14,6 +14,9 @@ from bedflux.ensembles.figures import ensemble_figures
 from bedflux.ensembles.members import MemberResult
 from bedflux.ensembles.summary import deterministic_answers, summarise, summary_text
 
+#: estimated size above which an ensemble is stored as zarr unless the file or command says
+#: otherwise (bytes, uncompressed)
+ZARR_ABOVE = 2_000_000_000
 #: bytes per member beyond its time series: the events, the values and the failure text
 MEMBER_OVERHEAD = 400
 
@@ -25,11 +28,21 @@ def ensemble_size(members: int, times: int, columns: int, parameters: int) -> tu
                                   "x 8 bytes")
 
 
-def write_ensemble(ds: xr.Dataset, outdir: Path, reference: MemberResult | None = None) -> dict:
+def store_format(chosen: str, size: int) -> str:
+    """``netcdf`` or ``zarr``: ``chosen`` unless it is ``auto``, else zarr when the estimated
+    ``size`` (bytes) is above :data:`ZARR_ABOVE`."""
+    if chosen != "auto":
+        return chosen
+    return "zarr" if size > ZARR_ABOVE else "netcdf"
+
+
+def write_ensemble(ds: xr.Dataset, outdir: Path, reference: MemberResult | None = None,
+                   netcdf: bool = True) -> dict:
     """All outputs of ``bedflux ensemble`` into ``outdir`` (a staging folder); return the summary
-    with its ``text``."""
+    with its ``text``. Without ``netcdf`` the members are already in ``outdir/ensemble.zarr``."""
     transient = "time" in ds.dims
-    write_result(ds, outdir / "ensemble.nc")
+    if netcdf:
+        write_result(ds, outdir / "ensemble.nc")
     det = deterministic_answers(reference, transient) if reference is not None else None
     s = summarise(ds, det or None)
     if reference is not None and reference.failure:

@@ -1,6 +1,7 @@
 """``bedflux.ensemble``: run an ensemble and gather its members into one Dataset."""
 from __future__ import annotations
 
+import itertools
 from pathlib import Path
 from typing import Any, Callable, Mapping, Sequence
 
@@ -13,6 +14,7 @@ from bedflux.section.grid import build_grid
 from bedflux.ensembles.engine import run_members
 from bedflux.ensembles.members import MemberResult
 from bedflux.ensembles.results import members_dataset
+from bedflux.ensembles.store import append_members, open_members
 from bedflux.ensembles.spec import EnsembleSpec, build_spec
 
 #: members gathered in memory before they are written to a part file
@@ -21,9 +23,12 @@ PART_MEMBERS = 256
 
 class Gatherer:
     """Collects finished members; with a ``scratch`` folder, writes them to part files of
-    :data:`PART_MEMBERS` members as they come (bounded memory) and reads the parts back lazily."""
+    :data:`PART_MEMBERS` members as they come (bounded memory) and reads the parts back lazily;
+    with a zarr ``store`` instead, appends them to it in member order, one chunk of
+    ``part_members`` members at a time, and reads the store back lazily."""
 
-    def __init__(self, spec: EnsembleSpec, scratch: Path | None = None, part_members: int = PART_MEMBERS):
+    def __init__(self, spec: EnsembleSpec, scratch: Path | None = None, part_members: int = PART_MEMBERS,
+                 store: Path | None = None):
         self.spec = spec
         self.x = build_grid(spec.scenario).xc
         self.times: np.ndarray | None = None
@@ -33,6 +38,9 @@ class Gatherer:
         self.parts: list[Path] = []
         self.failures: list[MemberResult] = []
         self.done = 0
+        self.store = store
+        self.waiting: dict[int, MemberResult] = {}
+        self.stored = 0
 
     def add(self, result: MemberResult) -> None:
         self.done += 1
@@ -40,6 +48,10 @@ class Gatherer:
             self.failures.append(result)
         elif self.times is None and result.times is not None:
             self.times = result.times
+        if self.store is not None:
+            self.waiting[result.index] = result
+            self._append_ready(final=False)
+            return
         self.buffer.append(result)
         if self.scratch is not None and len(self.buffer) >= self.part_members and self._shape_known():
             self._write_part()
@@ -53,6 +65,18 @@ class Gatherer:
         self.parts.append(path)
         self.buffer = []
 
+    def _append_ready(self, final: bool) -> None:
+        """Append to the store every whole chunk of members (all of them when ``final``) that
+        follows the members already stored without a gap."""
+        while self._shape_known():
+            batch = list(itertools.takewhile(lambda i: i in self.waiting,
+                                             range(self.stored, self.stored + self.part_members)))
+            if not batch or (len(batch) < self.part_members and not final):
+                return
+            ds = members_dataset(self.spec, [self.waiting.pop(i) for i in batch], self.x, self.times)
+            append_members(ds, self.store, self.part_members, first=self.stored == 0)
+            self.stored += len(batch)
+
     def dataset(self) -> xr.Dataset:
         """All members in member order.
 
@@ -65,6 +89,9 @@ class Gatherer:
             first = min(self.failures, key=lambda r: r.index).failure if self.failures else "no members ran"
             raise SolverError(f"every member of the ensemble failed; member {min(r.index for r in self.failures)}: "
                               f"{first}" if self.failures else first)
+        if self.store is not None:
+            self._append_ready(final=True)
+            return open_members(self.store)
         if not self.parts:
             return members_dataset(self.spec, self.buffer, self.x, self.times)
         if self.buffer:
@@ -120,10 +147,11 @@ def ensemble(scenario: Scenario, members: int, uncertain: Sequence[Mapping[str, 
 
 
 def run_spec(spec: EnsembleSpec, client=None, progress: Callable[[float], None] | None = None,
-             scratch: Path | None = None, chunk: int = 1) -> xr.Dataset:
+             scratch: Path | None = None, chunk: int = 1, store: Path | None = None) -> xr.Dataset:
     """Run a checked ensemble (see :func:`ensemble`); with ``scratch``, members stream to part
-    files there as they finish; on a client, ``chunk`` members go to a task."""
-    gather = Gatherer(spec, scratch)
+    files there as they finish, with ``store`` to that zarr store; on a client, ``chunk``
+    members go to a task."""
+    gather = Gatherer(spec, scratch, store=store)
     for result in run_members(spec, range(spec.members), client, chunk=chunk):
         gather.add(result)
         if progress is not None:

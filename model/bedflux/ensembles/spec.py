@@ -22,13 +22,16 @@ across = "20 cm"                    # and across it (z)
 model = "exponential"               # exponential, gaussian or matern (with nu)
 ```
 
+An optional top-level ``format = "netcdf"`` or ``"zarr"`` chooses how the members are stored
+(default: by size, see :func:`bedflux.ensembles.outputs.store_format`).
+
 Member ``i`` draws its values from ``numpy.random.default_rng(SeedSequence([seed, i]))``: first
 one uniform number per ``[[uncertain]]`` entry in file order, then the fit's values, then one
 seed per random field. A member's numbers therefore depend on ``seed`` and ``i`` alone.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any, Mapping, Sequence
 
@@ -43,7 +46,9 @@ from bedflux.ensembles.distributions import Distribution, parse_distribution
 from bedflux.ensembles.fields import RandomField, parse_field
 from bedflux.ensembles.posterior import FitPosterior, read_fit
 
-_KEYS = ["scenario", "members", "seed", "from_fit", "uncertain", "random_field"]
+_KEYS = ["scenario", "members", "seed", "from_fit", "uncertain", "random_field", "format"]
+#: how the members may be stored (``auto``: by size)
+FORMATS = ("netcdf", "zarr")
 #: most members one ensemble may have
 MEMBERS_MAX = 1_000_000
 
@@ -68,6 +73,7 @@ class EnsembleSpec:
     fit: FitPosterior | None = None
     fields: tuple[RandomField, ...] = ()
     source: str = "ensemble"
+    format: str = "auto"
 
     @property
     def parameters(self) -> list[str]:
@@ -167,6 +173,10 @@ def load_ensemble(path: str | Path) -> EnsembleSpec:
         members = checks.integer(d, "members", "top level", low=1, high=MEMBERS_MAX)
         seed = checks.integer(d, "seed", "top level", default=0, low=0)
         fit = checks.text(d, "from_fit", "top level", default=None)
+        fmt = d.get("format", "auto")
+        if "format" in d and fmt not in FORMATS:
+            raise InputError(f"format = {fmt!r} is not allowed; use one of {', '.join(map(repr, FORMATS))} "
+                             "(or leave it out: zarr above a size, netcdf below)", where="format")
         uncertain = _list_of_tables(d, "uncertain")
         fields = _list_of_tables(d, "random_field")
         if not uncertain and not fields and fit is None:
@@ -178,8 +188,8 @@ def load_ensemble(path: str | Path) -> EnsembleSpec:
     except InputError as err:
         raise err.located(source=source) from None
     scenario = load(path.parent / scen)
-    return build_spec(scenario, members, uncertain, fields, seed,
-                      None if fit is None else path.parent / fit, source)
+    return replace(build_spec(scenario, members, uncertain, fields, seed,
+                           None if fit is None else path.parent / fit, source), format=fmt)
 
 
 def _list_of_tables(d: dict, key: str) -> list:
