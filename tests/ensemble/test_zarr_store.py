@@ -72,3 +72,12 @@ def test_bad_format_option_exits_2_naming_it(tmp_path, capsys):
     err = capsys.readouterr().err
     assert "--format" in err and "'hdf'" in err and "netcdf" in err and "zarr" in err, err
     assert not (tmp_path / "out").exists()
+
+
+def test_netcdf_run_replaces_an_earlier_store_whole(tmp_path):
+    path = write(tmp_path, GOOD)
+    out = tmp_path / "out"
+    assert main(["ensemble", str(path), "-o", str(out), "--workers", "0", "-q", "--format", "zarr"]) == 0
+    assert (out / "ensemble.zarr" / "zarr.json").is_file()
+    assert main(["ensemble", str(path), "-o", str(out), "--workers", "0", "-q"]) == 0
+    assert (out / "ensemble.nc").is_file() and not (out / "ensemble.zarr").exists()
