@@ -20,6 +20,8 @@ sd_log10 = 0.3                      # spread of log10 K about the zone's value (
 along = "3 m"                       # correlation length along the layering (x)
 across = "20 cm"                    # and across it (z)
 model = "exponential"               # exponential, gaussian or matern (with nu)
+condition = "field"                 # optional: a field folder (relative to this file), or
+                                    # [{x, depth, k}, ...]; kh from slug tests, kv from permeameters
 ```
 
 Member ``i`` draws its values from ``numpy.random.default_rng(SeedSequence([seed, i]))``: first
@@ -178,6 +180,8 @@ def load_ensemble(path: str | Path) -> EnsembleSpec:
     except InputError as err:
         raise err.located(source=source) from None
     scenario = load(path.parent / scen)
+    fields = [{**f, "condition": str(path.parent / f["condition"])} if isinstance(f.get("condition"), str) else f
+              for f in fields]
     return build_spec(scenario, members, uncertain, fields, seed,
                       None if fit is None else path.parent / fit, source)
 
