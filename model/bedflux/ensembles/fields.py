@@ -9,7 +9,8 @@ randomisation method (Heße et al. 2014) at the cell centres, from a seed that t
 gives, so a member's field is the same on any worker.
 
 Conditioning: ``condition = [{x, depth, k}, ...]`` gives measured conductivities (depth below the
-ground at x). The field then honours them: ``Z`` is simple kriging of the data's
+ground at x), ``condition = "FOLDER"`` those of a field folder's slug tests (kh) or permeameters
+(kv). The field then honours them: ``Z`` is simple kriging of the data's
 ``(log10 k - log10 median) / sd_log10`` plus a simulated residual (GSTools' ``CondSRF``: an
 unconditioned field minus its own kriging from the data points; Journel & Huijbregts 1978), so
 every member passes exactly through the data and keeps the full spread far from them. The
@@ -120,11 +121,16 @@ def parse_field(entry: Mapping[str, Any], where: str, zones: list[str]) -> Rando
 
 
 def _conditions(entry: dict, prop: str, where: str) -> tuple[tuple[float, float, float], ...]:
-    """``condition = [{x, depth, k}, ...]`` as (x, depth, k) in SI."""
+    """``condition = [{x, depth, k}, ...]`` as (x, depth, k) in SI, or ``condition = "FOLDER"``:
+    the tests of a field folder (:mod:`bedflux.ensembles.field_conditions`)."""
     raw = entry.get("condition", [])
+    if isinstance(raw, str):
+        from bedflux.ensembles.field_conditions import field_conditions
+
+        return field_conditions(raw, prop, where)
     if not isinstance(raw, list) or not all(isinstance(c, Mapping) for c in raw):
         raise InputError("condition is a list of measured values: condition = [{x = 3.0, depth = \"20 cm\", "
-                         "k = \"0.5 m/d\"}, ...]", where=where)
+                         "k = \"0.5 m/d\"}, ...], or a field folder: condition = \"field\"", where=where)
     if raw and prop == "k":
         raise InputError("a conditioned field is on kh (slug tests) or kv (permeameters); property = \"k\" "
                          "cannot be conditioned", where=where)

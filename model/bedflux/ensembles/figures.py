@@ -73,7 +73,7 @@ def histograms(ds: xr.Dataset, path: Path) -> Path:
         v = ans[key][ok] * factor
         v = v[np.isfinite(v)]
         if v.size:
-            ax.hist(v, bins=min(30, max(5, v.size // 5)), color=GAINING, alpha=0.7)
+            ax.hist(v, bins=_bins(v), color=GAINING, alpha=0.7)
         else:
             ax.text(0.5, 0.5, "no member has one", ha="center", va="center", transform=ax.transAxes)
         ax.set_xlabel(f"{words} ({unit})")
@@ -88,3 +88,14 @@ def ensemble_figures(ds: xr.Dataset, outdir: Path, deterministic_exchange: np.nd
     if "time" in ds.dims:
         out.append(fan_chart(ds, outdir / "ensemble_fan.png", deterministic_exchange))
     return out
+
+
+def _bins(v: np.ndarray) -> np.ndarray:
+    """Bin edges for the answers ``v``: up to 30 bins over their range, or one bin around a value
+    that the members share (to within the resolution of the floats, where equal-width bins
+    cannot be made)."""
+    lo, hi = float(v.min()), float(v.max())
+    if hi - lo <= 1e-9 * max(abs(lo), abs(hi), 1e-300):
+        half = max(abs(lo) * 1e-3, 1e-12)
+        return np.array([lo - half, hi + half])
+    return np.linspace(lo, hi, min(30, max(5, v.size // 5)) + 1)

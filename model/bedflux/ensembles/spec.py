@@ -20,6 +20,8 @@ sd_log10 = 0.3                      # spread of log10 K about the zone's value (
 along = "3 m"                       # correlation length along the layering (x)
 across = "20 cm"                    # and across it (z)
 model = "exponential"               # exponential, gaussian or matern (with nu)
+condition = "field"                 # optional: a field folder (relative to this file), or
+                                    # [{x, depth, k}, ...]; kh from slug tests, kv from permeameters
 ```
 
 An optional top-level ``format = "netcdf"`` or ``"zarr"`` chooses how the members are stored
@@ -188,8 +190,10 @@ def load_ensemble(path: str | Path) -> EnsembleSpec:
     except InputError as err:
         raise err.located(source=source) from None
     scenario = load(path.parent / scen)
+    fields = [{**f, "condition": str(path.parent / f["condition"])} if isinstance(f.get("condition"), str) else f
+              for f in fields]
     return replace(build_spec(scenario, members, uncertain, fields, seed,
-                           None if fit is None else path.parent / fit, source), format=fmt)
+                              None if fit is None else path.parent / fit, source), format=fmt)
 
 
 def _list_of_tables(d: dict, key: str) -> list:

@@ -101,7 +101,7 @@ def reduce_slug(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.DataFrame:
     sheet = reject_duplicates(sheet, ("test", "time"), rejected)
     sheet, geometry = _test_constants(
         sheet, ("casing_radius", "screen_radius", "screen_length"),
-        ("anisotropy", "well_depth", "saturated_thickness"), rejected)
+        ("anisotropy", "well_depth", "saturated_thickness", "screen_depth", "water_depth"), rejected)
     rows = []
     for test, geo in geometry.items():
         rows_of = sheet.texts["test"] == test
@@ -127,14 +127,42 @@ def reduce_slug(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.DataFrame:
             test_flags.append("not_log_linear")
             flags.add("slug_tests", test, "not_log_linear", _not_log_linear("recovery", fit))
         rows.append({**_fit_columns(sheet, test, fit), "k_hvorslev [m/s]": k_h, "k_bouwer_rice [m/s]": k_br,
-                     "flags": ";".join(test_flags)})
-    return pd.DataFrame(rows, columns=_FIT_COLUMNS + ["k_hvorslev [m/s]", "k_bouwer_rice [m/s]", "flags"])
+                     "depth [m]": slug_depth(sheet, test, geo), "flags": ";".join(test_flags)})
+    return pd.DataFrame(rows, columns=_FIT_COLUMNS + ["k_hvorslev [m/s]", "k_bouwer_rice [m/s]", "depth [m]",
+                                                      "flags"])
+
+
+def slug_depth(sheet: Sheet, test: str, geo: dict[str, float]) -> float:
+    """Depth of a slug test's screen midpoint below the bed, m (NaN when the sheet cannot tell).
+
+    ``screen_depth`` when given; otherwise, with ``well_depth`` (the well bottom below the static
+    level) and ``water_depth`` (the static level above the bed), the screen running up from the
+    well bottom: ``well_depth - water_depth - screen_length / 2``.
+
+    Raises
+    ------
+    InputError
+        Naming the sheet and the test's lines, when that midpoint lies above the bed.
+    """
+    if np.isfinite(geo["screen_depth"]):
+        return geo["screen_depth"]
+    if not (np.isfinite(geo["well_depth"]) and np.isfinite(geo["water_depth"])):
+        return float("nan")
+    depth = geo["well_depth"] - geo["water_depth"] - geo["screen_length"] / 2.0
+    if depth < 0:
+        lines = sheet.line[sheet.texts["test"] == test]
+        raise InputError(f"test '{test}': well_depth - water_depth - screen_length / 2 = {depth:.3g} m puts the "
+                         "screen midpoint above the bed; well_depth is the well bottom below the static level "
+                         "and water_depth the static level above the bed (or give screen_depth)",
+                         sheet.source, f"lines {lines.min()}-{lines.max()}")
+    return float(depth)
 
 
 def reduce_permeameter(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.DataFrame:
     """One row per falling-head standpipe test: time lag, R^2 and vertical K (Chen 2000)."""
     sheet = reject_duplicates(sheet, ("test", "time"), rejected)
-    sheet, geometry = _test_constants(sheet, ("diameter", "sediment_length"), ("anisotropy",), rejected)
+    sheet, geometry = _test_constants(sheet, ("diameter", "sediment_length"), ("anisotropy", "sample_depth"),
+                                      rejected)
     rows = []
     for test, geo in geometry.items():
         rows_of = sheet.texts["test"] == test
@@ -148,6 +176,6 @@ def reduce_permeameter(sheet: Sheet, rejected: Rejected, flags: Flags) -> pd.Dat
         kv = permeameter_kv_from_lag(fit.time_lag, geo["diameter"], geo["sediment_length"], m)
         if not fit.log_linear:
             flags.add("permeameter_tests", test, "not_log_linear", _not_log_linear("head decline", fit))
-        rows.append({**_fit_columns(sheet, test, fit), "kv [m/s]": kv,
+        rows.append({**_fit_columns(sheet, test, fit), "kv [m/s]": kv, "depth [m]": geo["sample_depth"],
                      "flags": "" if fit.log_linear else "not_log_linear"})
-    return pd.DataFrame(rows, columns=_FIT_COLUMNS + ["kv [m/s]", "flags"])
+    return pd.DataFrame(rows, columns=_FIT_COLUMNS + ["kv [m/s]", "depth [m]", "flags"])

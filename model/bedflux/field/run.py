@@ -149,6 +149,7 @@ class FieldReduction:
     bed: BedMap | None
     summary: dict
     temperature: TemperatureReduction | None = None
+    sites: Sites | None = None
 
 
 def reduce_field(sheets_dir: str | Path, keep_flagged: bool = False) -> FieldReduction:
@@ -195,7 +196,7 @@ def reduce_field(sheets_dir: str | Path, keep_flagged: bool = False) -> FieldRed
     if temp is not None:
         summary["temperature"] = thermal_summary(temp, meters if keep_flagged else meters[~left_out], sites)
     return FieldReduction(sheets, seep, mano, slug, perm, velocity, meters, left_out, comparison, observations,
-                          flagged, flags, rejected, not_read, bed, summary, temp)
+                          flagged, flags, rejected, not_read, bed, summary, temp, sites)
 
 
 def run_field(sheets_dir: str | Path, outdir: str | Path, *, quiet: bool = False,

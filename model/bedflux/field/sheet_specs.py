@@ -129,6 +129,11 @@ SLUG = SheetSpec(
                plausible=(0.0, 2000.0)),
         Column("saturated_thickness", "length", required=False, low=0.0, low_inclusive=False,
                meaning="saturated thickness (Bouwer & Rice)", plausible=(0.0, 5000.0)),
+        Column("screen_depth", "length", required=False,
+               meaning="depth of the screen midpoint below the bed", plausible=(0.0, 10.0)),
+        Column("water_depth", "length", required=False,
+               meaning="height of the static level above the bed at the test (negative: below it)",
+               plausible=(-10.0, 20.0)),
         Column("note", None, required=False),
     ),
 )
@@ -147,6 +152,8 @@ PERMEAMETER = SheetSpec(
                meaning="length of the sediment column in the pipe", plausible=(0.0, 10.0)),
         Column("anisotropy", "dimensionless", required=False, low=0.0, low_inclusive=False,
                meaning="sqrt(Kh/Kv)", plausible=ANISOTROPY),
+        Column("sample_depth", "length", required=False,
+               meaning="depth below the bed of the middle of the tested sediment", plausible=(0.0, 10.0)),
         Column("note", None, required=False),
     ),
 )
