@@ -94,20 +94,12 @@ def _case_bare(n: float, which: str) -> dict:
 
 def _case_transient_step(n: float) -> dict:
     import bedflux
-    from bedflux.section.linear import factorize
     from bedflux.section.discretisation import discretise
     from bedflux.section.transient import run_transient
 
     s = bedflux.Scenario.from_dict(section_dict(n, steady=False))
     sec = discretise(s)
-    terms = sec.terms(0.0, sec.initial_active_set())
-    f = factorize(sec.matrix(terms, sec.storage(sec.submerged(0.0)) / 60.0), "direct")
-    b = sec.rhs(terms)
-    reps = 50
-    t0 = time.perf_counter()
-    for _ in range(reps):
-        f.solve(b)
-    backsub = (time.perf_counter() - t0) / reps
+    backsub = _backsub_seconds(sec, 60.0, 50)
     stamps = []
     t0 = time.perf_counter()
     ds = run_transient(sec, on_step=lambda info: stamps.append(time.perf_counter()))
@@ -119,13 +111,26 @@ def _case_transient_step(n: float) -> dict:
             "factorization_seconds": float(ds.attrs["factorization_seconds"])}
 
 
+def _backsub_seconds(sec, dt: float, reps: int) -> float:
+    """Seconds of one back-solve of the section's transient flow matrix (step ``dt``), the
+    factorization made once and timed apart."""
+    from bedflux.section.linear import factorize
+
+    terms = sec.terms(0.0, sec.initial_active_set())
+    f = factorize(sec.matrix(terms, sec.storage(sec.submerged(0.0)) / dt), "direct")
+    b = sec.rhs(terms)
+    t0 = time.perf_counter()
+    for _ in range(reps):
+        f.solve(b)
+    return (time.perf_counter() - t0) / reps
+
+
 def _case_heat_step(n: float) -> dict:
     """A heat step with steady flow (the heat matrix factorized once) against one flow back-solve
     on the same section: the step with its right-hand side and energy budget, and its bare solve."""
     import bedflux
     from bedflux.section.discretisation import discretise
     from bedflux.section.heat_run import HeatModel
-    from bedflux.section.linear import factorize
     from bedflux.section.steady import solve_steady
 
     d = section_dict(n, steady=False)
@@ -133,14 +138,8 @@ def _case_heat_step(n: float) -> dict:
     d["heat"] = {"stream_temperature": {"mean": 15, "amplitude": 4, "period": "1 d"}, "groundwater_temperature": 10}
     d["time"] = {"end": "1 d", "step": "15 min"}
     sec = discretise(bedflux.Scenario.from_dict(d))
-    terms = sec.terms(0.0, sec.initial_active_set())
-    flow = factorize(sec.matrix(terms, sec.storage(sec.submerged(0.0)) / 900.0), "direct")
-    b = sec.rhs(terms)
     reps = 30
-    t0 = time.perf_counter()
-    for _ in range(reps):
-        flow.solve(b)
-    backsub = (time.perf_counter() - t0) / reps
+    backsub = _backsub_seconds(sec, 900.0, reps)
     sol = solve_steady(sec, 0.0, method="direct")
     model = HeatModel(sec)
     op = model.operator([(1.0, sol.u, sol.terms)], sol.terms, 0.0)
