@@ -31,9 +31,10 @@ from bedflux.cli import main
 from bedflux.field.thermal import flux_from_temperature
 from bedflux.field.thermal_properties import SEDIMENTS
 from bedflux.forward.sensitivity import Forward, free_parameters
-from bedflux.planning import plan, prior_covariance
-from bedflux.planning.candidates import as_observations, check_candidates
+from bedflux.planning import plan
+from bedflux.planning.candidates import Instruments, as_observations, check_candidates
 from bedflux.planning.thermal_sigma import logger_flux_sd
+from bedflux.report.findings import pick_text
 
 DAY = 86400.0
 RHO_C_WATER = 1000.0 * 4186.0       # J m-3 K-1 (CRC Handbook, water near 15 degC; from memory)
@@ -165,6 +166,33 @@ def test_a_sigma_column_overrides_the_rule(brute_force):
     assert table.set_index("kind").loc["logger_pair", "sigma"] == 2e-7
 
 
+def test_the_scenarios_stream_temperature_wave_and_the_sensor_accuracy_are_used():
+    """With a [heat] stream wave of 4 degC amplitude and 0.5 degC sensors the pair's sigma is the
+    field estimator's on a Stallman record of that amplitude at the predicted flux (same Monte
+    Carlo tolerance as above), and not the one of the default 2 degC wave."""
+    d = small_section()
+    d["heat"] = {"stream_temperature": {"mean": "16 degC", "amplitude": "4 K", "period": "1 d"},
+                 "groundwater_temperature": "11 degC"}
+    s = bedflux.Scenario.from_dict(d)
+    cand = pd.DataFrame({"kind": ["logger_pair"], "x": [-1.25], "depth": [np.nan]})
+    first = plan(s, FREE, cand, 1, target="bed.kv", instruments=Instruments(logger_accuracy=0.5)).iloc[0]
+    sand = SEDIMENTS["sand"]
+    t = np.arange(0.0, DAY, 900.0)
+    k = sand.thermal_conductivity / sand.heat_capacity
+    q = first["simulated"]
+
+    def field_sd(amplitude):
+        est = flux_from_temperature(t, stallman(t, 0.05, q, k, sand.heat_capacity, amplitude=amplitude),
+                                    stallman(t, 0.15, q, k, sand.heat_capacity, amplitude=amplitude), 0.10,
+                                    sand.thermal_conductivity, sand.heat_capacity, accuracy=0.5,
+                                    conductivity_range=sand.conductivity_range,
+                                    heat_capacity_range=sand.heat_capacity_range, samples=20000, seed=5)
+        return est["flux_sd"].iloc[0]
+
+    assert first["sigma"] == pytest.approx(field_sd(4.0), rel=0.07)
+    assert abs(first["sigma"] / field_sd(2.0) - 1) > 0.15
+
+
 # -------------------------------------------------------------------------------- command line
 
 SCENARIO = """title = "Small section for logger pairs (invented)"
@@ -232,6 +260,9 @@ def test_cli_writes_logger_pairs_in_the_plan_table(tmp_path, capsys):
     summary = json.loads((tmp_path / "out" / "plan_summary.json").read_text())
     assert any(p["kind"] == "logger_pair" and p["deep_depth"] == pytest.approx(0.25) for p in summary["picks"])
     assert (tmp_path / "out" / "plan_map.png").stat().st_size > 0
+    # the report's "where to measure next" names the instrument and both sensors
+    text = pick_text(pairs.iloc[0].to_dict())
+    assert text.startswith("a temperature logger pair") and "sensors 0.0500 m and 0.250 m below the bed" in text
 
 
 def check_refused(tmp_path, capsys, planfile: Path, *words: str) -> None:

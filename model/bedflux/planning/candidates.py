@@ -26,8 +26,8 @@ import pandas as pd
 from bedflux.errors import InputError
 from bedflux.field.thermal import DEFAULT_ACCURACY
 from bedflux.forward.observe import HAND_DRIVEN_MAX_DEPTH, HEAD_RESOLUTION, SEEPAGE_FLOOR, SEEPAGE_RELATIVE_SD
-from bedflux.scenario.forcing import Wave
 from bedflux.planning.thermal_sigma import DEFAULT_DAILY_AMPLITUDE, DEFAULT_PERIOD, logger_flux_sd
+from bedflux.scenario.forcing import Wave
 
 #: Candidate kinds (as written in a table) and the observation kind each becomes.
 KINDS = {"seepage": "seepage", "piezometer": "vhg", "vhg": "vhg", "logger_pair": "thermal_flux"}
@@ -56,7 +56,7 @@ class Instruments:
     daily_amplitude: float | None = None
     period: float = DEFAULT_PERIOD
 
-    def for_scenario(self, scenario) -> "Instruments":
+    def for_scenario(self, scenario) -> Instruments:
         """A copy with the temperature wave resolved: the amplitude given, else the amplitude and
         period of the scenario's stream temperature wave (``[heat]``), else the default."""
         if self.daily_amplitude is not None:

@@ -46,7 +46,7 @@ def summary_dict(table: pd.DataFrame, target: str) -> dict:
         "reading_stages_m": a.get("reading_stages"),
         "reading": a.get("reading"),
         "warnings": a.get("warnings", []),
-        "picks": [{k: v for k, v in row.items() if not (isinstance(v, float) and v != v)} for row in
+        "picks": [{k: v for k, v in row.items() if not (isinstance(v, float) and pd.isna(v))} for row in
                   table[[c for c in PICK_COLUMNS if c in table]].to_dict(orient="records")],
         "notes": {"expected_sd": "spread of the target after each pick, in unit; for the D-optimal "
                                  "target the geometric-mean standard deviation in the estimation space "
