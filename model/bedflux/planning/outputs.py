@@ -10,10 +10,10 @@ from bedflux.outputs.atomic import write_text, write_with
 
 
 #: Columns of the picks in plan_summary.json (sensor depths of logger pairs only where they apply).
-PICK_COLUMNS = ["rank", "kind", "x", "depth", "shallow_depth", "deep_depth", "expected_sd", "reduction"]
+PICK_COLUMNS = ["rank", "kind", "x", "depth", "expected_sd", "reduction", "shallow_depth", "deep_depth"]
 #: Columns of plan_table.csv.
-TABLE_COLUMNS = ["rank", "kind", "x", "depth", "shallow_depth", "deep_depth", "expected_sd", "reduction", "sigma",
-                 "simulated"]
+TABLE_COLUMNS = ["rank", "kind", "x", "depth", "expected_sd", "reduction", "sigma", "simulated", "shallow_depth",
+                 "deep_depth"]
 
 
 def where_text(row) -> str:

@@ -80,8 +80,8 @@ def plan(scenario: Scenario, free: list[dict] | None, candidates: pd.DataFrame, 
     Returns
     -------
     DataFrame
-        Ranked picks: ``rank, kind, x, depth, shallow_depth, deep_depth, expected_sd, reduction,
-        sigma, simulated`` (expected_sd of the target after the pick, in its natural units;
+        Ranked picks: ``rank, kind, x, depth, expected_sd, reduction, sigma, simulated,
+        shallow_depth, deep_depth`` (expected_sd of the target after the pick, in its natural units;
         reduction: fraction of the spread it removes; sensor depths of logger pairs, else NaN).
         ``.attrs`` holds the target and its units, the spread before any pick, the
         single-instrument curve, where the plan started, the reading times and stages, warnings.
@@ -164,12 +164,12 @@ def plan(scenario: Scenario, free: list[dict] | None, candidates: pd.DataFrame, 
         "kind": [kinds[p.index] for p in picks],
         "x": [xs[p.index] for p in picks],
         "depth": [cand["depth"].iloc[p.index] for p in picks],
-        "shallow_depth": [cand["shallow_depth"].iloc[p.index] for p in picks],
-        "deep_depth": [cand["deep_depth"].iloc[p.index] for p in picks],
         "expected_sd": [to_natural(forward, tgt, m, p.after) for p in picks],
         "reduction": [p.reduction for p in picks],
         "sigma": [sigma[p.index] for p in picks],
         "simulated": [d[p.index] for p in picks],
+        "shallow_depth": [cand["shallow_depth"].iloc[p.index] for p in picks],
+        "deep_depth": [cand["deep_depth"].iloc[p.index] for p in picks],
     })
     single = np.array([target_spread(add_one(C0, J[i], sigma[i]), g) for i in range(len(cand))])
     si_unit, display_factor, display = tgt.units()
