@@ -193,6 +193,32 @@ def test_the_scenarios_stream_temperature_wave_and_the_sensor_accuracy_are_used(
     assert abs(first["sigma"] / field_sd(2.0) - 1) > 0.15
 
 
+def test_a_pair_that_cannot_read_the_flux_is_left_out_with_a_warning():
+    """A uniform sand column with head 4.0 m at its base (4 m down) under a 0.3 m stage carries
+    q = K (4.0 - 0.3) / 4 upward (Darcy); with K = 2e-5 m/s that is 1.6 m/d, at which the field
+    estimator flags a 5/15 cm pair's record too damped: the plan picks the meter only and warns."""
+    s = bedflux.Scenario.from_dict({
+        "grid": {"x": [0, 1], "bottom": -4.0, "dx": 1.0, "dz": 0.05},
+        "ground": {"elevation": 0.0},
+        "zone": [{"name": "sand", "kh": 2e-5, "kv": 2e-5}],
+        "stream": {"stage": 0.3},
+        "sides": {"bottom": {"head": 4.0}},
+    })
+    q = 2e-5 * (4.0 - 0.3) / 4.0
+    sand = SEDIMENTS["sand"]
+    t = np.arange(0.0, DAY, 900.0)
+    k = sand.thermal_conductivity / sand.heat_capacity
+    est = flux_from_temperature(t, stallman(t, 0.05, q, k, sand.heat_capacity),
+                                stallman(t, 0.15, q, k, sand.heat_capacity), 0.10, sand.thermal_conductivity,
+                                sand.heat_capacity, accuracy=0.1)
+    assert "too_damped" in est["flag"].iloc[0]
+    cand = pd.DataFrame({"kind": ["logger_pair", "seepage"], "x": [0.5, 0.5], "depth": [np.nan, 0.0]})
+    table = plan(s, [{"path": "sand.kv", "low": 1e-7, "high": 1e-3}], cand, 2, target="sand.kv")
+    assert list(table["kind"]) == ["seepage"]
+    assert table["simulated"].iloc[0] == pytest.approx(q, rel=1e-6)
+    assert any("1 logger-pair candidate(s) left out" in w for w in table.attrs["warnings"])
+
+
 # -------------------------------------------------------------------------------- command line
 
 SCENARIO = """title = "Small section for logger pairs (invented)"
