@@ -306,15 +306,26 @@ def plan_map(table, geometry, path: str | Path) -> Path:
     if wet.any():
         ax.plot(g.x, g.stage, color="#2166ac", lw=2, label="stage")
     ground_at = np.interp(table["x"], g.x, g.ground)
-    seep = table["kind"] == "seepage"
-    ax.plot(table["x"][seep], ground_at[seep], "v", color=GAINING, ms=9, label="seepage meter")
-    ax.plot(table["x"][~seep], ground_at[~seep] - table["depth"][~seep], "o", color=LOSING, ms=7,
-            label="piezometer opening")
+    seep = (table["kind"] == "seepage").to_numpy()
+    piezo = (table["kind"] == "piezometer").to_numpy()
+    pair = (table["kind"] == "logger_pair").to_numpy()
+    if seep.any():
+        ax.plot(table["x"][seep], ground_at[seep], "v", color=GAINING, ms=9, label="seepage meter")
+    if piezo.any():
+        ax.plot(table["x"][piezo], ground_at[piezo] - table["depth"][piezo], "o", color=LOSING, ms=7,
+                label="piezometer opening")
+    if pair.any():
+        xs = table["x"].to_numpy()[pair]
+        top, bottom = (ground_at[pair] - table[c].to_numpy(dtype=float)[pair] for c in ("shallow_depth", "deep_depth"))
+        ax.vlines(xs, bottom, top, color="0.2", lw=1.2)
+        ax.plot(np.concatenate([xs, xs]), np.concatenate([top, bottom]), "s", color="0.2", ms=5,
+                label="logger pair (sensors)")
     for _, r in table.iterrows():
         ax.annotate(str(int(r["rank"])), (r["x"], np.interp(r["x"], g.x, g.ground) - r["depth"]),
                     textcoords="offset points", xytext=(4, 6), fontsize=8)
     top = float(np.max(g.ground))
-    depth_shown = max(2.0, 6 * float(table["depth"].max() if len(table) else 0.3))
+    deepest = table["deep_depth"].max() if "deep_depth" in table and table["deep_depth"].notna().any() else 0.0
+    depth_shown = max(2.0, 6 * float(max(table["depth"].max(), deepest) if len(table) else 0.3))
     ax.set_ylim(top - depth_shown, top + 0.5 + (float(np.nanmax(g.stage)) - top if wet.any() else 0))
     ax.set_ylabel("elevation (m)")
     ax.set_title(f"next instruments for: {table.attrs.get('target', '')}")
@@ -326,12 +337,16 @@ def plan_map(table, geometry, path: str | Path) -> Path:
     sdep = np.asarray(table.attrs.get("single_depth", []), dtype=float)
     if sx.size:
         s = sk == "seepage"
+        p = sk == "piezometer"
         if s.any():
             axs.plot(sx[s], sd[s], color=GAINING, label="one seepage meter at x")
-        for dep in np.unique(sdep[~s]):
-            sel = (~s) & (sdep == dep)
-            axs.plot(sx[sel], sd[sel], color=LOSING, alpha=0.4 + 0.6 * dep / max(sdep.max(), 1e-9),
+        for dep in np.unique(sdep[p]):
+            sel = p & (sdep == dep)
+            axs.plot(sx[sel], sd[sel], color=LOSING, alpha=0.4 + 0.6 * dep / max(sdep[p].max(), 1e-9),
                      label=f"one piezometer {dep:.2g} m deep")
+        for dep in np.unique(sdep[sk == "logger_pair"]):
+            sel = (sk == "logger_pair") & (sdep == dep)
+            axs.plot(sx[sel], sd[sel], color="0.2", ls="-.", label=f"one logger pair, mid-depth {dep:.2g} m")
     prior = table.attrs.get("prior_sd")
     if prior is not None:
         axs.axhline(prior * factor, color="0.5", ls="--", lw=0.8, label="before")

@@ -24,7 +24,8 @@ def _run(args: argparse.Namespace) -> int:
         table = plan(spec.scenario, spec.free, spec.candidates, spec.n, spec.target, existing=spec.existing,
                      instruments=spec.instruments, min_spacing=spec.min_spacing,
                      max_per_transect=spec.max_per_transect, length=spec.length, pan_diameter=spec.pan_diameter,
-                     max_depth=spec.max_depth, fit=spec.fit, reading_time=spec.reading_time, source=spec.source,
+                     max_depth=spec.max_depth, fit=spec.fit, reading_time=spec.reading_time,
+                     logger_max_depth=spec.logger_max_depth, source=spec.source,
                      client=tasks.client)
         scenario = spec.scenario.with_values(spec.fit.best) if spec.fit is not None else spec.scenario
         detect = None
@@ -43,8 +44,9 @@ def _run(args: argparse.Namespace) -> int:
 
 def register(sub) -> None:
     """Add the ``plan`` verb."""
-    p = sub.add_parser("plan", help="choose where the next seepage meters and piezometers go",
-                       description="Rank candidate seepage meters and piezometers by how much each is expected "
+    p = sub.add_parser("plan", help="choose where the next seepage meters, piezometers and logger pairs go",
+                       description="Rank candidate seepage meters, piezometers and temperature logger pairs by how "
+                                   "much each is expected "
                                    "to reduce the uncertainty of the target (the parameters, one of them, or a "
                                    "prediction), by linear Bayesian data worth with the model's sensitivities; "
                                    "map the picks and, for transient scenarios, where a reversal is detectable. "

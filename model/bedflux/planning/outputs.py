@@ -9,6 +9,23 @@ import pandas as pd
 from bedflux.outputs.atomic import write_text, write_with
 
 
+#: Columns of the picks in plan_summary.json (sensor depths of logger pairs only where they apply).
+PICK_COLUMNS = ["rank", "kind", "x", "depth", "expected_sd", "reduction", "shallow_depth", "deep_depth"]
+#: Columns of plan_table.csv.
+TABLE_COLUMNS = ["rank", "kind", "x", "depth", "expected_sd", "reduction", "sigma", "simulated", "shallow_depth",
+                 "deep_depth"]
+
+
+def where_text(row) -> str:
+    """Where a pick goes, in words: x, and the opening's or the sensors' depth below the bed."""
+    where = f"x = {row['x']:.4g} m"
+    if row["kind"] == "piezometer":
+        where += f", {row['depth']:.2g} m deep"
+    elif row["kind"] == "logger_pair":
+        where += f", sensors {row['shallow_depth']:.2g} and {row['deep_depth']:.2g} m deep"
+    return where
+
+
 def summary_dict(table: pd.DataFrame, target: str) -> dict:
     """plan_summary.json content (SI; ``unit`` names the unit of the spreads)."""
     a = table.attrs
@@ -29,7 +46,8 @@ def summary_dict(table: pd.DataFrame, target: str) -> dict:
         "reading_stages_m": a.get("reading_stages"),
         "reading": a.get("reading"),
         "warnings": a.get("warnings", []),
-        "picks": table[["rank", "kind", "x", "depth", "expected_sd", "reduction"]].to_dict(orient="records"),
+        "picks": [{k: v for k, v in row.items() if not (isinstance(v, float) and pd.isna(v))} for row in
+                  table[[c for c in PICK_COLUMNS if c in table]].to_dict(orient="records")],
         "notes": {"expected_sd": "spread of the target after each pick, in unit; for the D-optimal "
                                  "target the geometric-mean standard deviation in the estimation space "
                                  "(log10 for log parameters)",
@@ -52,8 +70,7 @@ def plan_summary_text(table: pd.DataFrame) -> str:
     lines = [f"plan for: {a.get('target')}", f"start: {a.get('start')}", f"reading: {a.get('reading')}",
              f"spread before: {_spread(table, a.get('prior_sd'))} (standard deviation of the target)"]
     for _, r in table.iterrows():
-        where = f"x = {r['x']:.4g} m" + (f", {r['depth']:.2g} m deep" if r["kind"] == "piezometer" else "")
-        lines.append(f"  {int(r['rank'])}. {r['kind']} at {where}: spread {_spread(table, r['expected_sd'])} "
+        lines.append(f"  {int(r['rank'])}. {r['kind']} at {where_text(r)}: spread {_spread(table, r['expected_sd'])} "
                      f"({100 * r['reduction']:.0f} % less)")
     lines += [f"warning: {w}" for w in a.get("warnings", [])]
     return "\n".join(lines) + "\n"
@@ -63,7 +80,7 @@ def write_plan(table: pd.DataFrame, scenario, outdir: Path, detect: tuple | None
     """All outputs of ``bedflux plan`` into ``outdir`` (a staging folder)."""
     from bedflux.outputs import figures as plots
 
-    cols = ["rank", "kind", "x", "depth", "expected_sd", "reduction", "sigma", "simulated"]
+    cols = [c for c in TABLE_COLUMNS if c in table]
     write_with(outdir / "plan_table.csv", lambda tmp: table[cols].to_csv(tmp, index=False))
     write_text(outdir / "plan_summary.json", json.dumps(summary_dict(table, ""), indent=2, allow_nan=True) + "\n")
     write_text(outdir / "plan_summary.txt", plan_summary_text(table))

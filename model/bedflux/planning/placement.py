@@ -1,4 +1,5 @@
-"""Planning the next campaign: where new seepage meters and piezometers teach the most."""
+"""Planning the next campaign: where new seepage meters, piezometers and temperature logger pairs teach
+the most."""
 from __future__ import annotations
 
 from pathlib import Path
@@ -10,7 +11,8 @@ from bedflux.forward.observe import check_observations
 from bedflux.scenario.spec import Scenario
 from bedflux.forward.sensitivity import Forward, FreeParameter, free_parameters
 from bedflux.errors import InputError
-from bedflux.planning.candidates import DEFAULT_MAX_DEPTH, Instruments, as_observations, check_candidates
+from bedflux.planning.candidates import (DEFAULT_LOGGER_MAX_DEPTH, DEFAULT_MAX_DEPTH, Instruments, as_observations,
+                                         check_candidates)
 from bedflux.planning.fit_start import FitStart, covariance_from_fit, overlap_with_fit, read_fit
 from bedflux.planning.reading import default_reading_time, describe_reading
 from bedflux.planning.targets import parse_target, target_gradient, to_natural
@@ -36,7 +38,8 @@ def plan(scenario: Scenario, free: list[dict] | None, candidates: pd.DataFrame, 
          *, existing: pd.DataFrame | None = None, instruments: Instruments = Instruments(), min_spacing: float = 0.0,
          max_per_transect: int | None = None, length: float | None = None,
          pan_diameter: float = 0.57, max_depth: float = DEFAULT_MAX_DEPTH, fit: FitStart | str | Path | None = None,
-         reading_time: float | None = None, source: str = "plan", client=None) -> pd.DataFrame:
+         reading_time: float | None = None, logger_max_depth: float = DEFAULT_LOGGER_MAX_DEPTH,
+         source: str = "plan", client=None) -> pd.DataFrame:
     """Rank ``n`` new instruments by the expected reduction of the target's uncertainty.
 
     Parameters
@@ -47,8 +50,9 @@ def plan(scenario: Scenario, free: list[dict] | None, candidates: pd.DataFrame, 
         As in :func:`bedflux.calibration.fit` (SI dicts with path, low, high and optional prior, prior_sd);
         with ``fit`` it may be None (the fit's free parameters).
     candidates
-        ``kind`` (seepage or piezometer), ``x``, ``depth``, optional ``sigma`` (SI), ``transect``,
-        ``time`` (s; default ``reading_time``).
+        ``kind`` (seepage, piezometer or logger_pair), ``x``, ``depth``, optional ``sigma`` (SI),
+        ``transect``, ``time`` (s; default ``reading_time``), for logger pairs ``shallow_depth`` and
+        ``deep_depth`` (m below the bed; default 0.05 and 0.15 m; ``depth`` becomes their mid-depth).
     n
         Number of instruments to choose.
     target
@@ -67,6 +71,8 @@ def plan(scenario: Scenario, free: list[dict] | None, candidates: pd.DataFrame, 
     reading_time
         When a transient scenario's instruments are read (s; default: when the stage departs most
         from its start). Not allowed for a steady scenario.
+    logger_max_depth
+        Deepest sensor of a logger pair (m below the bed).
     client
         A ``dask.distributed`` client: the perturbed runs behind a prediction target's gradient
         run as tasks on its workers, with the same numbers as without one (None: in this process).
@@ -74,8 +80,9 @@ def plan(scenario: Scenario, free: list[dict] | None, candidates: pd.DataFrame, 
     Returns
     -------
     DataFrame
-        Ranked picks: ``rank, kind, x, depth, expected_sd, reduction`` (expected_sd of the target
-        after the pick, in its natural units; reduction: fraction of the spread it removes).
+        Ranked picks: ``rank, kind, x, depth, expected_sd, reduction, sigma, simulated,
+        shallow_depth, deep_depth`` (expected_sd of the target after the pick, in its natural units;
+        reduction: fraction of the spread it removes; sensor depths of logger pairs, else NaN).
         ``.attrs`` holds the target and its units, the spread before any pick, the
         single-instrument curve, where the plan started, the reading times and stages, warnings.
     """
@@ -94,7 +101,8 @@ def plan(scenario: Scenario, free: list[dict] | None, candidates: pd.DataFrame, 
     if not free:
         raise InputError("no free parameters: give [[free]] tables or a fit", source=source)
     fp = free_parameters(scenario, free, source)
-    cand = check_candidates(candidates, f"{source}: candidates", max_depth)
+    cand = check_candidates(candidates, f"{source}: candidates", max_depth, logger_max_depth)
+    instruments = instruments.for_scenario(scenario)
     if reading_time is not None:
         if not scenario.transient:
             raise InputError("a steady scenario has no clock: reading_time applies to transient scenarios only",
@@ -140,6 +148,8 @@ def plan(scenario: Scenario, free: list[dict] | None, candidates: pd.DataFrame, 
     kinds = cand["kind"].to_numpy()
 
     def allowed(i: int, chosen: list[int]) -> bool:
+        if not np.isfinite(sigma[i]):
+            return False
         for c in chosen:
             if kinds[c] == kinds[i] and abs(xs[c] - xs[i]) < min_spacing:
                 return False
@@ -158,11 +168,18 @@ def plan(scenario: Scenario, free: list[dict] | None, candidates: pd.DataFrame, 
         "reduction": [p.reduction for p in picks],
         "sigma": [sigma[p.index] for p in picks],
         "simulated": [d[p.index] for p in picks],
+        "shallow_depth": [cand["shallow_depth"].iloc[p.index] for p in picks],
+        "deep_depth": [cand["deep_depth"].iloc[p.index] for p in picks],
     })
     single = np.array([target_spread(add_one(C0, J[i], sigma[i]), g) for i in range(len(cand))])
     si_unit, display_factor, display = tgt.units()
     reading = describe_reading(scenario, times)
     warnings = list(reading.warnings)
+    unreadable = int(np.sum((kinds == "logger_pair") & ~np.isfinite(sigma)))
+    if unreadable:
+        warnings.append(f"{unreadable} logger-pair candidate(s) left out: at the flux predicted there the daily "
+                        "temperature wave at the deep sensor is too damped to read (strong upward flow) or not "
+                        "damped at all (strong downward flow); try shallower or closer sensors")
     if fit is not None:
         warnings += [f"in the fit, {note}; the plan's spread for it is linearised at that bound"
                      for p, note in fit.at_bound.items() if p in [q.path for q in fp]]

@@ -19,12 +19,18 @@ seepage_spacing = "5 m"            # > 0; leave out for no seepage meters
 piezometer_spacing = "10 m"        # > 0; leave out for no piezometers
 depths = ["10 cm", "20 cm", "30 cm"]
 max_depth = "30 cm"                # push limit of hand-driven piezometers
-# table = "candidates.csv"         # ... or listed: kind, x, depth[, transect, sigma, time]
+logger_spacing = "10 m"            # > 0; leave out for no temperature logger pairs
+logger_depths = ["5 cm", "15 cm"]  # the two sensors of a pair below the bed
+logger_max_depth = "50 cm"         # push limit of a logger rod
+# table = "candidates.csv"         # ... or listed: kind, x, depth[, transect, sigma, time,
+                                   #   shallow_depth, deep_depth]
 
 [instruments]
 seepage_relative_sd = 0.3
 seepage_floor = "0.01 m/d"
 head_resolution = "0.1 mm"
+logger_accuracy = "0.1 degC"       # +/- of a temperature sensor
+daily_amplitude = "2 degC"         # of the stream temperature (default: the scenario's [heat] wave)
 
 [[free]]                           # as in fit files (default with a fit: the fit's parameters)
 path = "bed.kv"
@@ -43,13 +49,15 @@ from bedflux.scenario import checks
 from bedflux.errors import InputError
 from bedflux.calibration.spec import free_tables, observations_from, read_toml
 from bedflux.scenario.spec import Scenario, load
-from bedflux.planning.candidates import DEFAULT_MAX_DEPTH, Instruments, check_candidates, generate
+from bedflux.planning.candidates import (DEFAULT_LOGGER_DEPTHS, DEFAULT_LOGGER_MAX_DEPTH, DEFAULT_MAX_DEPTH,
+                                         Instruments, check_candidates, generate)
 from bedflux.planning.fit_start import FitStart, fits_beside, read_fit
 
 _KEYS = ["fit", "scenario", "n", "target", "length", "existing", "min_spacing", "max_per_transect", "pan_diameter",
          "reading_time", "candidates", "instruments", "free"]
-CANDIDATE_KEYS = ["seepage_spacing", "piezometer_spacing", "depths", "max_depth", "table"]
-INSTRUMENT_KEYS = ["seepage_relative_sd", "seepage_floor", "head_resolution"]
+CANDIDATE_KEYS = ["seepage_spacing", "piezometer_spacing", "depths", "max_depth", "logger_spacing", "logger_depths",
+                  "logger_max_depth", "table"]
+INSTRUMENT_KEYS = ["seepage_relative_sd", "seepage_floor", "head_resolution", "logger_accuracy", "daily_amplitude"]
 
 
 @dataclass
@@ -72,6 +80,7 @@ class PlanSpec:
     max_depth: float
     fit: FitStart | None = None
     reading_time: float | None = None
+    logger_max_depth: float = DEFAULT_LOGGER_MAX_DEPTH
 
 
 def _fit(d: dict, path: Path, source: str, output: Path | None) -> FitStart | None:
@@ -135,6 +144,14 @@ def load_plan(path: str | Path, output: str | Path | None = None) -> PlanSpec:
             raise InputError("depths must be a list of depths below the bed", where="[candidates]")
         depths = [checks.quantity({"depths": v}, "depths", "length", "[candidates]", low=0.0, low_inclusive=False)
                   for v in depths_raw]
+        logger_max_depth = checks.quantity(c, "logger_max_depth", "length", "[candidates]",
+                                           default=DEFAULT_LOGGER_MAX_DEPTH, low=0.0, low_inclusive=False, high=5.0)
+        logger_raw = c.get("logger_depths", list(DEFAULT_LOGGER_DEPTHS))
+        if not isinstance(logger_raw, list) or len(logger_raw) != 2:
+            raise InputError("logger_depths must be a list of the two sensor depths of a pair below the bed, "
+                             "shallow first, e.g. [\"5 cm\", \"15 cm\"]", where="[candidates]")
+        logger_depths = tuple(checks.quantity({"logger_depths": v}, "logger_depths", "length", "[candidates]")
+                              for v in logger_raw)
         ins = checks.table(d, "instruments", "top level")
         checks.reject_unknown(ins, INSTRUMENT_KEYS, where="[instruments]")
         default = Instruments()
@@ -143,7 +160,11 @@ def load_plan(path: str | Path, output: str | Path | None = None) -> PlanSpec:
                           low=0.0, high=5.0),
             checks.quantity(ins, "seepage_floor", "velocity", "[instruments]", default=default.seepage_floor, low=0.0),
             checks.quantity(ins, "head_resolution", "length", "[instruments]", default=default.head_resolution,
-                            low=0.0, low_inclusive=False, high=0.1))
+                            low=0.0, low_inclusive=False, high=0.1),
+            checks.quantity(ins, "logger_accuracy", "temperature_difference", "[instruments]",
+                            default=default.logger_accuracy, low=0.0, low_inclusive=False, high=5.0),
+            checks.quantity(ins, "daily_amplitude", "temperature_difference", "[instruments]", default=None,
+                            low=0.0, low_inclusive=False, high=30.0))
     except InputError as err:
         raise err.located(source=source) from None
     if "table" in c:
@@ -156,7 +177,7 @@ def load_plan(path: str | Path, output: str | Path | None = None) -> PlanSpec:
             raise InputError("not a UTF-8 text file (save the candidates as CSV in UTF-8)", source=str(tpath)) from None
         except (pd.errors.EmptyDataError, pd.errors.ParserError) as err:
             raise InputError(f"cannot read as a candidate table: {err}", source=str(tpath)) from None
-        cand = check_candidates(table, str(tpath), max_depth)
+        cand = check_candidates(table, str(tpath), max_depth, logger_max_depth)
     else:
         from bedflux.forward.geometry import bed_geometry
 
@@ -168,7 +189,8 @@ def load_plan(path: str | Path, output: str | Path | None = None) -> PlanSpec:
         try:
             sspace = checks.quantity(c, "seepage_spacing", "length", "[candidates]", default=None)
             pspace = checks.quantity(c, "piezometer_spacing", "length", "[candidates]", default=None)
-            cand = generate(geo.x[wet], sspace, pspace, depths, max_depth)
+            lspace = checks.quantity(c, "logger_spacing", "length", "[candidates]", default=None)
+            cand = generate(geo.x[wet], sspace, pspace, depths, max_depth, lspace, logger_depths, logger_max_depth)
         except InputError as err:
             raise err.located(source=source) from None
     existing = None
@@ -176,4 +198,4 @@ def load_plan(path: str | Path, output: str | Path | None = None) -> PlanSpec:
         existing = observations_from(path.parent / str(d["existing"]), source)
     free = free_tables(d, source, scen) if "free" in d or fit is None else None
     return PlanSpec(source, scen, n, target, length, existing, min_spacing, mpt, pan, cand, instruments, free, depths,
-                    max_depth, fit, reading_time)
+                    max_depth, fit, reading_time, logger_max_depth)

@@ -33,7 +33,8 @@ TOPICS = {
 
 _KIND_WORDS = {"seepage": "seepage meter", "vhg": "mini-piezometer (vertical gradient)",
                "head": "piezometer (head)", "piezometer": "mini-piezometer",
-               "manometer": "mini-piezometer", "thermal_flux": "temperature-sensor pair (vertical flux)"}
+               "manometer": "mini-piezometer", "thermal_flux": "temperature-sensor pair (vertical flux)",
+               "logger_pair": "temperature logger pair (vertical flux)"}
 _PROPERTY_WORDS = {"kh": "horizontal conductivity", "kv": "vertical conductivity", "k": "conductivity",
                    "specific_storage": "specific storage", "specific_yield": "specific yield", "head": "head"}
 
@@ -519,7 +520,10 @@ def pick_text(row: dict) -> str:
     article = "an" if words[:1].lower() in "aeiou" else "a"
     text = f"{article} {words} at x = {length(row.get('x'))}"
     d = row.get("depth")
-    if finite(d) and float(d) > 0:
+    shallow, deep = row.get("shallow_depth"), row.get("deep_depth")
+    if finite(shallow) and finite(deep):
+        text += f", sensors {length(shallow)} and {length(deep)} below the bed"
+    elif finite(d) and float(d) > 0:
         text += f", {length(d)} below the bed"
     r = row.get("reduction")
     if finite(r) and float(r) > 0:
