@@ -43,7 +43,7 @@ import numpy as np
 import scipy.sparse as sp
 
 from bedflux.forward.observe import Operators, _seepage_weights, predict
-from bedflux.forward.sensitivity import (
+from bedflux.forward.derivatives import (
     DerivativeRule,
     face_conductance_derivative,
     term_conductance_derivative,
