@@ -327,9 +327,8 @@ class FlowTangent:
 
 def _scatter(cells: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
     """Column-wise sums of ``values`` (entries x P) into ``n`` cells."""
-    out = np.zeros((n, values.shape[1]))
-    np.add.at(out, cells, values)
-    return out
+    scatter = sp.csr_matrix((np.ones(cells.size), (cells, np.arange(cells.size))), shape=(n, cells.size))
+    return np.asarray(scatter @ values)
 
 
 def residual_tangent(op: HeatOperator, theta: np.ndarray, sources: dict[str, float], tangent: FlowTangent,
