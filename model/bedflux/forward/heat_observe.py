@@ -54,9 +54,6 @@ def require_heat(section: Section, has_temperature: bool, source: str) -> None:
         return
     if sc.heat is None:
         raise InputError("temperature observations need a [heat] table in the scenario", source=source)
-    if sc.variably_saturated:
-        raise InputError("temperature observations need saturated (linear) zones: [heat] does not run with "
-                         "retention in this release", source=source)
 
 
 def thermal_parts(model: HeatModel, rules: list[DerivativeRule]) -> tuple[FlowTangent, np.ndarray]:
@@ -112,7 +109,7 @@ def steady_flow_sensitivity(section: Section, rules: list[DerivativeRule], value
     return sol, sol.factor.solve(dR) if np.any(dR) else np.zeros((section.n, P))
 
 
-class _Readings:
+class Readings:
     """Temperatures and their derivatives at the loggers, linear in time between the states."""
 
     def __init__(self, weights: sp.csr_matrix, times: np.ndarray, P: int):
@@ -162,7 +159,7 @@ def observe_temperatures(section: Section, weights: sp.csr_matrix, times: np.nda
         sigma = factor.solve(dresidual(theta, sources)) if P else np.zeros((section.n, 0))
         return weights @ theta + t_ref, weights @ sigma
     theta, sigma = _start(model, op, dresidual, P)
-    readings = _Readings(weights, times, P)
+    readings = Readings(weights, times, P)
     readings.record(0.0, 0.0, theta, sigma)
     factors = StepFactors(model, op)
     plan, _ = step_plan(sc.time)
@@ -209,7 +206,7 @@ class AlongFlow:
         self.rules, self.param_values = rules, values
         self.P = len(rules)
         self.base, self.dstore = thermal_parts(self.model, rules)
-        self.readings = _Readings(weights, times, self.P)
+        self.readings = Readings(weights, times, self.P)
         self.theta = self.sigma = None
 
     @property

@@ -320,7 +320,7 @@ class Forward:
         with_rule = VARIABLY_SATURATED_RULES if self.scenario.variably_saturated else _LINEAR_RULES
         analytic = [j for j, rule in enumerate(self.rules) if rule.name in with_rule
                     and not (rule.name in _STORAGE_RULES and not self.scenario.transient)]
-        if self.has_temperature and not self.scenario.variably_saturated:
+        if self.has_temperature:
             analytic += [j for j, rule in enumerate(self.rules) if rule.name in THERMAL_RULES]
         d, J = self._run(m, analytic)
         numeric = []

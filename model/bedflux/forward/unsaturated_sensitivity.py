@@ -138,24 +138,46 @@ class ResidualDerivatives:
         sub = SoilWater(s.van_genuchten[cells], s.alpha[cells], s.n[cells], s.theta_r[cells], s.theta_s[cells])
         return sub.parameter_derivatives(np.where(from_face, np.nan_to_num(fpsi), 0.0))
 
-    def inflow(self, ev: Evaluation, forcing: StepForcing, term_flows: list[np.ndarray]) -> np.ndarray:
-        """``d(inflow)/dp`` per unknown and parameter (n x P)."""
+    def face_flows(self, ev: Evaluation) -> np.ndarray:
+        """``d(flow)/dp`` of every face (lo to hi; faces x P) at fixed heads."""
         sys_ = self.system
-        n, P = sys_.n, self.n_params
         u = sys_.head_u(ev.psi)
         dh = u[sys_.lo] - u[sys_.hi]
         cell_d = sys_.soil.parameter_derivatives(ev.psi) if self._has_retention() else None
-        out = np.zeros((n, P))
         up = np.where(ev.face_up_is_lo, sys_.lo, sys_.hi)
+        out = np.zeros((sys_.lo.size, self.n_params))
         for j, rule in enumerate(self.rules):
             dq = self.face_dC[j] * ev.face_kr * dh
             kr_p = self._kr_parameter(rule, cell_d) if cell_d is not None else None
             if kr_p is not None:
                 dq = dq + sys_.conductance * np.where(self.in_zone[j][up], kr_p[up], 0.0) * dh
-            out[:, j] = np.bincount(sys_.hi, weights=dq, minlength=n) - np.bincount(sys_.lo, weights=dq, minlength=n)
+            out[:, j] = dq
+        return out
+
+    def inflow(self, ev: Evaluation, forcing: StepForcing, term_flows: list[np.ndarray]) -> np.ndarray:
+        """``d(inflow)/dp`` per unknown and parameter (n x P)."""
+        sys_ = self.system
+        n, P = sys_.n, self.n_params
+        out = np.zeros((n, P))
+        faces = self.face_flows(ev)
+        for j in range(P):
+            out[:, j] = np.bincount(sys_.hi, weights=faces[:, j], minlength=n) - np.bincount(sys_.lo, weights=faces[:, j],
+                                                                                          minlength=n)
         for term, D in zip(forcing.terms, term_flows):
             for j in range(P):
                 out[:, j] += np.bincount(term.cells, weights=D[:, j], minlength=n)
+        return out
+
+    def water_content(self, ev: Evaluation) -> np.ndarray:
+        """``d(theta)/dp`` of every cell at fixed pressure heads (n x P)."""
+        out = np.zeros((self.system.n, self.n_params))
+        if not self._has_retention():
+            return out
+        d = self.system.soil.parameter_derivatives(ev.psi)
+        for j, rule in enumerate(self.rules):
+            if rule.name in ("retention-alpha", "retention-n"):
+                key = "theta_alpha" if rule.name == "retention-alpha" else "theta_n"
+                out[:, j] = np.where(self.in_zone[j], getattr(d, key), 0.0)
         return out
 
     def storage_rate(self, ev: Evaluation, storage: Storage) -> np.ndarray:
@@ -265,6 +287,15 @@ def run_with_sensitivities(section: Section, ops: Operators, rules: list[Derivat
         current["s"] = _solve(sens_solver, system.jacobian(ev, forcing, None, newton=True),
                               derivs.inflow(ev, forcing, flows), counts)
         current["flows"] = flows
+    heat = None
+    rows = ops.kind == "temperature"
+    if rows.any():
+        from bedflux.forward.unsaturated_heat import UnsaturatedHeat
+
+        heat = UnsaturatedHeat(system, ops.head_weights[rows], times[rows], rules, derivs)
+        if P and current["flows"] is None:
+            current["flows"] = derivs.term_flows(ev, forcing)
+        heat.state(0.0, 0.0, ev, forcing, current["s"], current["flows"], steady=not sc.transient)
     observe(ev, forcing, current["s"], 0.0, current["flows"])
     later = np.unique(times[times > 0.0])
     if later.size:
@@ -278,6 +309,8 @@ def run_with_sensitivities(section: Section, ops: Operators, rules: list[Derivat
                        - derivs.lag(ev1, storage)[:, None] * current["s"])
                 current["s"] = _solve(sens_solver, system.jacobian(ev1, forcing, storage, newton=True), rhs, counts)
                 current["flows"] = flows
+            if heat is not None:
+                heat.state(t0, t1, out.evaluation, forcing, current["s"], current["flows"], steady=False)
             return 0.0
 
         def on_stop(out, forcing, t) -> None:
@@ -286,4 +319,7 @@ def run_with_sensitivities(section: Section, ops: Operators, rules: list[Derivat
                 observe(out.evaluation, forcing, current["s"], float(later[i]), current["flows"])
 
         run_steps(stepper, ev.psi, state, stops, sc.time.step, on_step, on_stop, restarts=flooding)
+    if heat is not None:
+        d[rows] = heat.values
+        J[rows] = heat.jacobian
     return d, J, counts
