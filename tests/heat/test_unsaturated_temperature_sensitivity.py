@@ -106,3 +106,21 @@ def test_fit_recovers_conductivity_and_thermal_conductivity():
     for path, true in (("sand.kv", 1.0 / 86400.0), ("sand.thermal_conductivity", 1.6)):
         low, high = result.ci95[path]
         assert low <= true <= high, (path, result.best[path], (low, high))
+
+
+def test_thermal_flux_rows_take_direct_sensitivities():
+    # vertical fluxes at sensor-pair mid-depths in and above the water table, beside a temperature
+    obs = pd.DataFrame({"kind": ["thermal_flux"] * 4 + ["temperature"], "x": [0.25, 1.25, 2.75, 3.75, 1.0],
+                        "depth": [0.1, 0.35, 0.25, 0.6, 0.3], "time": [3600.0, 14400.0, 28800.0, 43200.0, 14400.0],
+                        "value": 0.0, "sigma": [1e-6] * 4 + [0.1]})
+    s = bedflux.Scenario.from_dict(BANK)
+    f = Forward(s, obs, free_parameters(s, FREE[:5]))
+    m = f.start()
+    d, J = f.predict_and_jacobian(m)
+    assert f.n_forward_runs == 1
+    fd = f.jacobian_fd(m, step=1e-5)
+    rows = (obs["kind"] == "thermal_flux").to_numpy()
+    scale = np.abs(fd[rows]).max(axis=0)
+    assert np.all(scale > 0)
+    for sel in (rows, ~rows):  # fluxes and the temperature, each against its own scale
+        assert np.all(np.abs(J[sel] - fd[sel]) <= 1e-6 * np.abs(fd[sel]).max(axis=0)[None, :])

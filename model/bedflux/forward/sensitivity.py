@@ -23,10 +23,13 @@ all parameters (:mod:`bedflux.forward.unsaturated_sensitivity`), for zone ``kh``
 ``recharge.rate`` and ``stream.leakance``.
 
 Parameters without an analytic derivative (for example a layer depth or the stage; and, in a
-variably saturated run, a side head or a riparian rate) fall back to central differences, and so
-do all flow parameters of a variably saturated table with ``thermal_flux`` rows. Elsewhere a
+variably saturated run, a side head or a riparian rate) fall back to central differences. A
 thermal-flux row chains the state sensitivities through the face fluxes and adds the explicit
-derivative of the face conductances and boundary inflows (:func:`thermal_flux_parts`).
+derivative of the face conductances and boundary inflows
+(:func:`bedflux.forward.derivatives.thermal_flux_parts`; in a variably saturated run
+:func:`bedflux.forward.unsaturated_sensitivity.flow_derivatives`). Temperature rows carry the
+head sensitivities into the heat steps (:mod:`bedflux.forward.heat_observe`,
+:mod:`bedflux.forward.unsaturated_heat`).
 """
 from __future__ import annotations
 

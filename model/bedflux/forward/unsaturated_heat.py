@@ -23,6 +23,7 @@ import scipy.sparse as sp
 
 from bedflux.forward.derivatives import DerivativeRule
 from bedflux.forward.heat_observe import Readings, thermal_parts
+from bedflux.forward.unsaturated_sensitivity import flow_derivatives
 from bedflux.scenario.heat import WATER_HEAT_CAPACITY
 from bedflux.section.heat import FlowTangent, HeatGeometry, residual_tangent
 from bedflux.section.heat_run import HeatModel
@@ -60,29 +61,7 @@ class UnsaturatedHeat:
 
     def _tangent(self, ev: Evaluation, forcing: StepForcing, s: np.ndarray, term_flows: list[np.ndarray] | None
                  ) -> FlowTangent:
-        sys_ = self.system
-        props = ev.props
-        u = sys_.head_u(ev.psi)
-        lo, hi = sys_.lo, sys_.hi
-        dh = u[lo] - u[hi]
-        c = sys_.conductance
-        dkr_up = np.where(ev.face_up_is_lo, props.dkr[lo], props.dkr[hi])
-        s_up = np.where(ev.face_up_is_lo[:, None], s[lo], s[hi])
-        dF = (c * ev.face_kr)[:, None] * (s[lo] - s[hi]) + (c * dh * dkr_up)[:, None] * s_up
-        if self.P:
-            dF += self.derivatives.face_flows(ev)
-        flows = []
-        for k, (term, tkr, from_face) in enumerate(zip(forcing.terms, ev.term_kr, ev.term_from_face)):
-            base = term.r - term.conductance * u[term.cells]
-            own = (term.conductance > 0) & ~from_face
-            dflow_du = -tkr * term.conductance + np.where(own, base * props.dkr[term.cells], 0.0)
-            dq = dflow_du[:, None] * s[term.cells]
-            if term_flows is not None:
-                dq = dq + term_flows[k]
-            flows.append(dq)
-        if forcing.uptake is not None:
-            _, da = forcing.uptake.reduction(ev.psi)
-            flows.append(-(forcing.uptake.potential * da)[:, None] * s[forcing.uptake.cells])
+        dF, flows = flow_derivatives(self.system, self.derivatives, ev, forcing, s, term_flows)
         return FlowTangent(self.base.conductivity, self.base.dispersivity, dF, flows)
 
     def state(self, t0: float, t1: float, ev: Evaluation, forcing: StepForcing, s: np.ndarray,

@@ -223,7 +223,62 @@ def _solve(solver: JacobianSolver, J: sp.csr_matrix, B: np.ndarray, counts: Coun
     return np.column_stack([solve(B[:, j]) for j in range(B.shape[1])])
 
 
-def observation_jacobian(system: RichardsSystem, ops: Operators, ev: Evaluation,
+def flow_derivatives(system: RichardsSystem, derivs: ResidualDerivatives, ev: Evaluation, forcing: StepForcing,
+                     s: np.ndarray, term_flows: list[np.ndarray] | None) -> tuple[np.ndarray, list[np.ndarray]]:
+    """``d(flow)/dp`` of every face (lo to hi; faces x P) and of every entry of the flow view's
+    terms (the uptake last, when there is one) for pressure-head sensitivities ``s``:
+
+        F = C Kr_up (u_lo - u_hi):  dF = C Kr_up (s_lo - s_hi) + C dKr/dpsi_up s_up (u_lo - u_hi) + dF|_psi
+        q = Kr (r - g u):           dq = (-Kr g + (r - g u) dKr/dpsi) s + dq|_psi  (dKr where Kr is the cell's)
+        uptake q = -a(psi) q_pot:   dq = -q_pot da/dpsi s
+
+    ``term_flows`` are the explicit parts of the terms (:meth:`ResidualDerivatives.term_flows`;
+    None: no parameter acts on them)."""
+    props = ev.props
+    u = system.head_u(ev.psi)
+    lo, hi = system.lo, system.hi
+    c = system.conductance
+    dkr_up = np.where(ev.face_up_is_lo, props.dkr[lo], props.dkr[hi])
+    s_up = np.where(ev.face_up_is_lo[:, None], s[lo], s[hi])
+    dF = (c * ev.face_kr)[:, None] * (s[lo] - s[hi]) + (c * (u[lo] - u[hi]) * dkr_up)[:, None] * s_up
+    if derivs.n_params:
+        dF += derivs.face_flows(ev)
+    flows = []
+    for k, (term, tkr, from_face) in enumerate(zip(forcing.terms, ev.term_kr, ev.term_from_face)):
+        base = term.r - term.conductance * u[term.cells]
+        own = (term.conductance > 0) & ~from_face
+        dflow_du = -tkr * term.conductance + np.where(own, base * props.dkr[term.cells], 0.0)
+        dq = dflow_du[:, None] * s[term.cells]
+        if term_flows is not None:
+            dq = dq + term_flows[k]
+        flows.append(dq)
+    if forcing.uptake is not None:
+        _, da = forcing.uptake.reduction(ev.psi)
+        flows.append(-(forcing.uptake.potential * da)[:, None] * s[forcing.uptake.cells])
+    return dF, flows
+
+
+def _vertical_flux_derivative(system: RichardsSystem, dF: np.ndarray, terms: list, flows: list[np.ndarray]
+                              ) -> np.ndarray:
+    """``d(qz)/dp`` of the cell-centre vertical flux (n x P): half the sum of the vertical faces'
+    ``dF / area`` and of the top (``-dq / dx``) and bottom (``+dq / dx``) boundary entries', as
+    :func:`bedflux.section.fluxes.derive` forms ``qz``."""
+    section = system.section
+    g, vf, n = section.grid, section.vfaces, system.n
+    dFv = 0.5 * dF[system.n_hfaces:] / vf.area[:, None]
+    cells = [vf.lo, vf.hi]
+    values = [dFv, dFv]
+    for term, dq in zip(terms, flows):
+        if term.face in ("top", "bottom"):
+            sign = 1.0 if term.face == "bottom" else -1.0
+            cells.append(term.cells)
+            values.append(sign * 0.5 * dq / g.dx[term.column_or_row][:, None])
+    idx = np.concatenate(cells)
+    scatter = sp.csr_matrix((np.ones(idx.size), (idx, np.arange(idx.size))), shape=(n, idx.size))
+    return np.asarray(scatter @ np.vstack(values))
+
+
+def observation_jacobian(system: RichardsSystem, derivs: ResidualDerivatives, ops: Operators, ev: Evaluation,
                          forcing: StepForcing, s: np.ndarray, term_flows: list[np.ndarray],
                          source: str) -> np.ndarray:
     """``d(observation)/dp`` (n_obs x P) of a state with sensitivities ``s``."""
@@ -233,6 +288,11 @@ def observation_jacobian(system: RichardsSystem, ops: Operators, ev: Evaluation,
     vhg = kind == "vhg"
     scale[vhg] = 1.0 / ops.table["depth"].to_numpy()[vhg]
     out = (sp.diags(scale) @ ops.head_weights) @ s
+    thermal = kind == "thermal_flux"
+    if thermal.any():
+        dF, flows = flow_derivatives(system, derivs, ev, forcing, s, term_flows)
+        dqz = _vertical_flux_derivative(system, dF, forcing.terms, flows)
+        out[thermal] = (ops.head_weights @ dqz)[thermal]
     if not seep.any():
         return out
     k = next(i for i, t in enumerate(forcing.terms) if t.kind == "stream" and t.face == "top")
@@ -279,7 +339,7 @@ def run_with_sensitivities(section: Section, ops: Operators, rules: list[Derivat
         d[at] = predict(view, ops, system.head_u(ev.psi), terms, t, source)[at]
         if P:
             flows = derivs.term_flows(ev, forcing) if flows is None else flows
-            J[at] = observation_jacobian(system, ops, ev, forcing, s, flows, source)[at]
+            J[at] = observation_jacobian(system, derivs, ops, ev, forcing, s, flows, source)[at]
 
     current = {"s": np.zeros((section.n, P)), "flows": None}
     if P and steady_start:
