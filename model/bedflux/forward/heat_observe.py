@@ -14,7 +14,7 @@ inflows ``q``, which the head sensitivities ``s = dh/dp`` of the flow run carry:
     dF/dp = C (s_lo - s_hi) + dC/dp (h_lo - h_hi),       dq/dp = -g s + dq/dp|_h
 
 and ``dR/dp = d(b - A theta)/dp`` at fixed temperatures follows exactly from the assembly
-(:func:`bedflux.section.heat.residual_tangent`). With it
+(:class:`bedflux.section.heat.ResidualTangent`). With it
 
     steady:  A sigma = dR/dp
     step:    (C/dt + w A) sigma1 = C/dt sigma0 - (1 - w) A sigma0 - dC/dp (theta1 - theta0) / dt
@@ -39,7 +39,7 @@ from bedflux.errors import InputError
 from bedflux.forward.derivatives import DerivativeRule, face_conductance_derivative, residual_derivative, \
     term_inflow_derivative
 from bedflux.section.discretisation import Section, Term
-from bedflux.section.heat import FlowTangent, HeatOperator, residual_tangent
+from bedflux.section.heat import FlowTangent, HeatOperator, ResidualTangent
 from bedflux.section.heat_run import HeatModel, StepFactors, flow_is_steady, step_plan
 from bedflux.section.steady import solve_steady
 
@@ -146,10 +146,7 @@ def observe_temperatures(section: Section, weights: sp.csr_matrix, times: np.nda
     P = len(rules)
     op = model.operator([(1.0, sol.u, sol.terms)], sol.terms, 0.0)
     base, dstore = thermal_parts(model, rules)
-    tangent = flow_tangent(model, base, [(1.0, sol.u, sol.terms, s)], rules, values)
-
-    def dresidual(theta: np.ndarray, sources: dict) -> np.ndarray:
-        return residual_tangent(op, theta, sources, tangent, P)
+    dresidual = ResidualTangent(op, flow_tangent(model, base, [(1.0, sol.u, sol.terms, s)], rules, values), P)
 
     t_ref = model.t_ref
     if not sc.transient:
@@ -222,8 +219,7 @@ class AlongFlow:
 
     def start(self, u: np.ndarray, terms: list[Term], s: np.ndarray) -> None:
         op = self.model.operator([(1.0, u, terms)], terms, 0.0)
-        tangent = self._tangent([(1.0, u, terms, s)])
-        self.theta, self.sigma = _start(self.model, op, lambda th, src: residual_tangent(op, th, src, tangent, self.P),
+        self.theta, self.sigma = _start(self.model, op, ResidualTangent(op, self._tangent([(1.0, u, terms, s)]), self.P),
                                         self.P)
         self.readings.record(0.0, 0.0, self.theta, self.sigma)
 
@@ -239,7 +235,7 @@ class AlongFlow:
         theta1, _, _ = model.step(op, factor, self.theta, info.t0, info.t1, 1.0)
         if self.P:
             rhs = (model.storage / info.dt)[:, None] * self.sigma - self.dstore * ((theta1 - self.theta) / info.dt)[:, None]
-            rhs += residual_tangent(op, theta1, model.sources(info.t1), self._tangent(states), self.P)
+            rhs += ResidualTangent(op, self._tangent(states), self.P)(theta1, model.sources(info.t1))
             self.sigma = factor.solve(rhs)
         self.theta = theta1
         self.readings.record(info.t0, info.t1, self.theta, self.sigma)

@@ -392,8 +392,12 @@ class Forward:
             self._fill_temperatures(section, ops, d)
             return _ForwardState(key, section, ops, d, sol)
         values = [p.natural(v) for p, v in zip(self.free, m)]
-        d, columns = self._transient(section, ops, [self.rules[j] for j in carry], [values[j] for j in carry])
-        self._fill_temperatures(section, ops, d)
+        rules, carried_values = [self.rules[j] for j in carry], [values[j] for j in carry]
+        d, columns = self._transient(section, ops, rules, carried_values)
+        if self.has_temperature and not self._flow_changes:
+            # heat over the one steady flow, its sensitivities carried beside the flow's
+            rows, temperatures, jac = self._temperatures(section, ops, rules, carried_values)
+            d[rows], columns[rows] = temperatures, jac
         return _ForwardState(key, section, ops, d, carried=carry, columns=columns)
 
     def _run(self, m: np.ndarray, analytic: list[int]) -> tuple[np.ndarray, np.ndarray]:
@@ -411,7 +415,7 @@ class Forward:
                                          [values[j] for j in analytic])
         else:
             Jsub = state.columns
-        if self.has_temperature and not self._flow_changes:
+        if self.has_temperature and state.solution is not None:
             rows, _, jac = self._temperatures(state.section, state.ops, rules, [values[j] for j in analytic])
             Jsub[rows] = jac
         J[:, analytic] = Jsub * chain[analytic][None, :]
@@ -423,9 +427,9 @@ class Forward:
         return self.scenario.transient and not flow_is_steady(self.scenario)
 
     def _fill_temperatures(self, section: Section, ops: Operators, d: np.ndarray) -> None:
-        """Fill the temperature rows of ``d`` from a heat run with steady flow (nothing without
-        temperatures or when the flow changes: :meth:`_transient` carries them)."""
-        if self.has_temperature and not self._flow_changes:
+        """Fill the temperature rows of ``d`` of a steady run from its heat run (nothing without
+        temperatures)."""
+        if self.has_temperature:
             rows, values, _ = self._temperatures(section, ops, [], [])
             d[rows] = values
 

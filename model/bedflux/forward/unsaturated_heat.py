@@ -14,7 +14,7 @@ sensitivities ``s = dpsi/dp`` of :mod:`bedflux.forward.unsaturated_sensitivity`:
 
 and the step ``(C1/dt + A1) sigma1 = C1/dt sigma0 - dC1/dp (theta1 - theta0)/dt + dR1/dp`` with
 ``dR/dp`` the exact derivative of the heat operator's assembly
-(:func:`bedflux.section.heat.residual_tangent`).
+(:class:`bedflux.section.heat.ResidualTangent`).
 """
 from __future__ import annotations
 
@@ -25,7 +25,7 @@ from bedflux.forward.derivatives import DerivativeRule
 from bedflux.forward.heat_observe import Readings, thermal_parts
 from bedflux.forward.unsaturated_sensitivity import flow_derivatives
 from bedflux.scenario.heat import WATER_HEAT_CAPACITY
-from bedflux.section.heat import FlowTangent, HeatGeometry, residual_tangent
+from bedflux.section.heat import FlowTangent, HeatGeometry, ResidualTangent
 from bedflux.section.heat_run import HeatModel
 from bedflux.section.richards import Evaluation, RichardsSystem, StepForcing
 
@@ -84,7 +84,7 @@ class UnsaturatedHeat:
                 sources = model.sources(0.0, steady=steady)
                 factor = model.factor(op.A)
                 self.theta = factor.solve(op.rhs(sources))
-                self.sigma = factor.solve(residual_tangent(op, self.theta, sources, tangent, P)) if P \
+                self.sigma = factor.solve(ResidualTangent(op, tangent, P)(self.theta, sources)) if P \
                     else np.zeros((sys_.n, 0))
         else:
             dt = t1 - t0
@@ -94,7 +94,7 @@ class UnsaturatedHeat:
                 dstore = self.dstore_thermal + WATER_HEAT_CAPACITY * volume[:, None] * (
                     ev.props.capacity[:, None] * s + self.derivatives.water_content(ev))
                 rhs = (model.storage / dt)[:, None] * self.sigma - dstore * ((theta1 - self.theta) / dt)[:, None]
-                rhs += residual_tangent(op, theta1, model.sources(t1), tangent, P)
+                rhs += ResidualTangent(op, tangent, P)(theta1, model.sources(t1))
                 self.sigma = factor.solve(rhs)
             self.theta = theta1
         self.readings.record(t0, t1, self.theta, self.sigma)

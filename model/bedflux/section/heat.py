@@ -179,7 +179,7 @@ class HeatOperator:
     peclet_max: float
     peclet_at: tuple[float, float] = (float("nan"), float("nan"))
     #: face water flows (lo to hi, m^2/s per metre), conduction conductances, Peclet numbers and
-    #: the two half cells' effective conductivities: what :func:`residual_tangent` differentiates
+    #: the two half cells' effective conductivities: what :class:`ResidualTangent` differentiates
     F: np.ndarray | None = None
     D: np.ndarray | None = None
     P: np.ndarray | None = None
@@ -325,60 +325,80 @@ class FlowTangent:
     term_flows: list[np.ndarray] | None = None
 
 
-def _scatter(cells: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
-    """Column-wise sums of ``values`` (entries x P) into ``n`` cells."""
-    scatter = sp.csr_matrix((np.ones(cells.size), (cells, np.arange(cells.size))), shape=(n, cells.size))
-    return np.asarray(scatter @ values)
-
-
-def residual_tangent(op: HeatOperator, theta: np.ndarray, sources: dict[str, float], tangent: FlowTangent,
-                     n_columns: int) -> np.ndarray:
-    """``d(b - A theta)/dp`` at fixed temperatures ``theta`` along ``tangent`` (n x P): the exact
+class ResidualTangent:
+    """``d(b - A theta)/dp`` at fixed temperatures along a :class:`FlowTangent` (n x P): the exact
     derivative of the assembly of :func:`heat_operator` (its branches held: the upstream side of
-    each boundary entry, the wetted faces).
+    each boundary entry, the wetted faces), linear in the temperatures and the source temperatures,
+    so kept as one sparse matrix ``K`` (P blocks of n rows) and one vector per source:
+    ``tangent(theta, sources) = (K theta) + sum of sources[k] V_k``.
 
     Faces: ``H = D (B(-P) theta_lo - B(P) theta_hi)`` with ``P = rho_w c_w F / D`` and ``D`` the
     harmonic mean of ``lambda + rho_w c_w alpha |F| / area``; boundary entries carry
     ``rho_w c_w q`` at the source or cell temperature, conduction entries ``lambda`` times their
     geometry, and the storage release ``rho_w c_w (net outflow - inflow) theta``.
     """
-    geo = op.geometry
-    n, rc = geo.n, WATER_HEAT_CAPACITY
-    lo, hi = geo.lo, geo.hi
-    dF = np.zeros((lo.size, n_columns)) if tangent.face_flow is None else tangent.face_flow
-    sign = np.sign(op.F)[:, None]
-    area = geo.area[:, None]
-    cells = geo.cells
-    dlam_lo = rc * cells.dispersivity[lo][:, None] * sign * dF / area
-    dlam_hi = rc * cells.dispersivity[hi][:, None] * sign * dF / area
-    if tangent.conductivity is not None:
-        dlam_lo = dlam_lo + tangent.conductivity[lo]
-        dlam_hi = dlam_hi + tangent.conductivity[hi]
-    if tangent.dispersivity is not None:
-        absq = (np.abs(op.F) / geo.area)[:, None]
-        dlam_lo = dlam_lo + rc * tangent.dispersivity[lo] * absq
-        dlam_hi = dlam_hi + rc * tangent.dispersivity[hi] * absq
-    D, P = op.D[:, None], op.P[:, None]
-    dD = D**2 / area * ((geo.d_lo / op.lam_lo**2)[:, None] * dlam_lo + (geo.d_hi / op.lam_hi**2)[:, None] * dlam_hi)
-    dP = rc * dF / D - P * dD / D
-    t_lo, t_hi = theta[lo][:, None], theta[hi][:, None]
-    Bm, Bp = bernoulli(-op.P)[:, None], bernoulli(op.P)[:, None]
-    dBm, dBp = bernoulli_derivative(-op.P)[:, None], bernoulli_derivative(op.P)[:, None]
-    dH = dD * (Bm * t_lo - Bp * t_hi) - D * (dBm * t_lo + dBp * t_hi) * dP
-    out = _scatter(hi, dH, n) - _scatter(lo, dH, n)
-    # water released from storage: rho_w c_w (net outflow over the faces - boundary inflow) theta
-    dnet = _scatter(lo, dF, n) - _scatter(hi, dF, n)
-    for term, dq in zip(op.water_terms, tangent.term_flows or []):
-        if term.source is None:  # a sink: rho_w c_w q theta_cell
-            per_q = rc * theta[term.cells]
-        else:  # inflow at the source temperature, outflow at the cell's
-            per_q = rc * np.where(term.flow > 0, sources[term.source], theta[term.cells])
-        out += _scatter(term.cells, per_q[:, None] * dq, n)
-        dnet -= _scatter(term.cells, dq, n)
-    out += rc * theta[:, None] * dnet
-    if tangent.conductivity is not None:
-        for term in op.terms:
-            if term.per_conductivity is not None:
-                gap = sources[term.source] - theta[term.cells]
-                out += _scatter(term.cells, (term.per_conductivity * gap)[:, None] * tangent.conductivity[term.cells], n)
-    return out
+
+    def __init__(self, op: HeatOperator, tangent: FlowTangent, n_columns: int):
+        geo = op.geometry
+        n, P, rc = geo.n, n_columns, WATER_HEAT_CAPACITY
+        lo, hi = geo.lo, geo.hi
+        self.n, self.P = n, P
+        dF = np.zeros((lo.size, P)) if tangent.face_flow is None else tangent.face_flow
+        sign = np.sign(op.F)[:, None]
+        area = geo.area[:, None]
+        cells = geo.cells
+        dlam_lo = rc * cells.dispersivity[lo][:, None] * sign * dF / area
+        dlam_hi = rc * cells.dispersivity[hi][:, None] * sign * dF / area
+        if tangent.conductivity is not None:
+            dlam_lo = dlam_lo + tangent.conductivity[lo]
+            dlam_hi = dlam_hi + tangent.conductivity[hi]
+        if tangent.dispersivity is not None:
+            absq = (np.abs(op.F) / geo.area)[:, None]
+            dlam_lo = dlam_lo + rc * tangent.dispersivity[lo] * absq
+            dlam_hi = dlam_hi + rc * tangent.dispersivity[hi] * absq
+        D, Pe = op.D[:, None], op.P[:, None]
+        dD = D**2 / area * ((geo.d_lo / op.lam_lo**2)[:, None] * dlam_lo
+                            + (geo.d_hi / op.lam_hi**2)[:, None] * dlam_hi)
+        dP = rc * dF / D - Pe * dD / D
+        # dH = c_lo theta_lo + c_hi theta_hi
+        c_lo = dD * bernoulli(-op.P)[:, None] - D * bernoulli_derivative(-op.P)[:, None] * dP
+        c_hi = -dD * bernoulli(op.P)[:, None] - D * bernoulli_derivative(op.P)[:, None] * dP
+        rows, cols, vals = [hi, hi, lo, lo], [lo, hi, lo, hi], [c_lo, c_hi, -c_lo, -c_hi]
+        # water released from storage: rho_w c_w (net outflow over the faces - boundary inflow) theta
+        diag_cells, diag_vals = [lo, hi], [rc * dF, -rc * dF]
+        self.sources: dict[str, np.ndarray] = {}
+        for term, dq in zip(op.water_terms, tangent.term_flows or []):
+            if term.source is None:  # a sink takes rho_w c_w q theta_cell; its release part cancels
+                continue
+            # inflow at the source temperature (its release part: -rho_w c_w dq theta), outflow at the cell's
+            inflow = term.flow > 0
+            self._add_source(term.source, term.cells[inflow], rc * dq[inflow])
+            diag_cells.append(term.cells[inflow])
+            diag_vals.append(-rc * dq[inflow])
+        if tangent.conductivity is not None:
+            for term in op.terms:
+                if term.per_conductivity is not None:
+                    part = term.per_conductivity[:, None] * tangent.conductivity[term.cells]
+                    self._add_source(term.source, term.cells, part)
+                    diag_cells.append(term.cells)
+                    diag_vals.append(-part)
+        rows += diag_cells
+        cols += diag_cells
+        vals += diag_vals
+        block = np.arange(P) * n
+        r = np.concatenate([(idx[:, None] + block[None, :]).ravel() for idx in rows])
+        c = np.concatenate([np.repeat(idx, P) for idx in cols])
+        v = np.concatenate([x.ravel() for x in vals])
+        self.K = sp.csr_matrix((v, (r, c)), shape=(n * P, n))
+
+    def _add_source(self, name: str, cells: np.ndarray, values: np.ndarray) -> None:
+        v = self.sources.setdefault(name, np.zeros((self.n, self.P)))
+        scatter = sp.csr_matrix((np.ones(cells.size), (cells, np.arange(cells.size))), shape=(self.n, cells.size))
+        v += scatter @ values
+
+    def __call__(self, theta: np.ndarray, sources: dict[str, float]) -> np.ndarray:
+        out = (self.K @ theta).reshape(self.P, self.n).T
+        for name, v in self.sources.items():
+            if sources[name] != 0.0:
+                out = out + sources[name] * v
+        return out
