@@ -23,10 +23,13 @@ all parameters (:mod:`bedflux.forward.unsaturated_sensitivity`), for zone ``kh``
 ``recharge.rate`` and ``stream.leakance``.
 
 Parameters without an analytic derivative (for example a layer depth or the stage; and, in a
-variably saturated run, a side head or a riparian rate) fall back to central differences, and so
-do all flow parameters of a variably saturated table with ``thermal_flux`` rows. Elsewhere a
+variably saturated run, a side head or a riparian rate) fall back to central differences. A
 thermal-flux row chains the state sensitivities through the face fluxes and adds the explicit
-derivative of the face conductances and boundary inflows (:func:`thermal_flux_parts`).
+derivative of the face conductances and boundary inflows
+(:func:`bedflux.forward.derivatives.thermal_flux_parts`; in a variably saturated run
+:func:`bedflux.forward.unsaturated_sensitivity.flow_derivatives`). Temperature rows carry the
+head sensitivities into the heat steps (:mod:`bedflux.forward.heat_observe`,
+:mod:`bedflux.forward.unsaturated_heat`).
 """
 from __future__ import annotations
 
@@ -36,18 +39,17 @@ from functools import partial
 from typing import Callable
 
 import numpy as np
-import scipy.sparse as sp
 import pandas as pd
 
 from bedflux.errors import InputError
-from bedflux.forward.heat_observe import observe_temperatures, require_heat
+from bedflux.forward.derivatives import (DerivativeRule, derivative_rule, residual_derivative,
+                                        thermal_flux_parts)
+from bedflux.forward.heat_observe import THERMAL_RULES, AlongFlow, observe_temperatures, require_heat
 from bedflux.forward.observe import DEFAULT_PAN_DIAMETER, Operators, check_observations, linear_parts, predict
 from bedflux.forward.reuse import OperatorSource, SectionSource
-from bedflux.scenario.heat import THERMAL_PROPERTIES
 from bedflux.scenario.spec import Scenario
-from bedflux.section.discretisation import ET_LINEAR, Section, Term
+from bedflux.section.discretisation import ET_LINEAR, Section
 from bedflux.section.heat_run import flow_is_steady
-from bedflux.section.operator import half_cell_resistance
 from bedflux.section.steady import SteadySolution, solve_steady
 
 LN10 = math.log(10.0)
@@ -201,205 +203,6 @@ def _allowed_bound(scenario: Scenario, path: str, start: float, bound: float, lo
 
 
 # ------------------------------------------------------------------------------------------
-# derivatives of the residual at fixed heads
-
-@dataclass
-class DerivativeRule:
-    """How one parameter enters the discrete equations, and so which analytic derivative applies."""
-
-    # zone-kh, zone-kv, zone-specific_storage, zone-specific_yield, recharge, riparian, side-head,
-    # leakance, retention-alpha, retention-n (variably saturated runs), numeric (central differences)
-    name: str
-    zone: int = -1
-    side: str = ""
-
-
-def derivative_rule(scenario: Scenario, path: str) -> DerivativeRule:
-    """Which analytic derivative applies to a parameter path (``numeric``: central differences)."""
-    parts = path.split(".")
-    names = scenario.zone_names()
-    if len(parts) == 2 and parts[0] in names and parts[1] in ("kh", "kv", "specific_storage", "specific_yield"):
-        return DerivativeRule(f"zone-{parts[1]}", zone=names.index(parts[0]))
-    if len(parts) == 3 and parts[0] in names and parts[1] == "retention" and parts[2] in ("alpha", "n"):
-        return DerivativeRule(f"retention-{parts[2]}", zone=names.index(parts[0]))
-    if len(parts) == 2 and parts[0] in names and parts[1] in THERMAL_PROPERTIES:
-        return DerivativeRule(f"thermal-{parts[1]}", zone=names.index(parts[0]))
-    if path == "recharge.rate":
-        return DerivativeRule("recharge")
-    if len(parts) == 3 and parts[0] == "riparian" and parts[2] == "max_rate":
-        return DerivativeRule("riparian", zone=int(parts[1]))
-    if len(parts) == 3 and parts[0] == "sides" and parts[2] == "head":
-        return DerivativeRule("side-head", side=parts[1])
-    if path == "stream.leakance":
-        return DerivativeRule("leakance")
-    return DerivativeRule("numeric")
-
-
-def _share(section: Section, prop: str, zone: int, value: float) -> np.ndarray:
-    """``(dK/dp) (p/K)`` of every cell (flat): 1 inside the zone, 0 outside, and the share the
-    zone has in the averaged conductivity of a cell that straddles its boundary."""
-    m = section.materials
-    return (m.derivative(prop, zone) * value / getattr(m, prop)).ravel()
-
-
-def _top_position(section: Section, cols: np.ndarray) -> np.ndarray:
-    """Flat (row-major) position of the top cell of each column in ``cols``."""
-    return section.grid.top_row[cols] * section.grid.nx + cols
-
-
-def face_conductance_derivative(section: Section, rule: DerivativeRule, value: float
-                                ) -> tuple[np.ndarray, np.ndarray]:
-    """``d(conductance)/dp`` of the interior faces (horizontal, vertical) for a zone's kh or kv
-    (zero for other rules): ``dC/dp = C (r_lo rho_lo + r_hi rho_hi) / (r_lo + r_hi) / p`` with
-    ``r`` the half-cell resistances in series and ``rho = (dK/dp)(p/K)`` the zone's share."""
-    g = section.grid
-    m = section.materials
-    out = [np.zeros(section.hfaces.lo.size), np.zeros(section.vfaces.lo.size)]
-    if rule.name not in ("zone-kh", "zone-kv"):
-        return out[0], out[1]
-    horizontal = rule.name == "zone-kh"
-    f = section.hfaces if horizontal else section.vfaces
-    if horizontal:
-        res = half_cell_resistance(np.broadcast_to(g.dx[None, :], g.active.shape), m.kh).ravel()
-    else:
-        res = half_cell_resistance(g.thickness, m.kv).ravel()
-    r_lo, r_hi = res[f.lo_pos], res[f.hi_pos]
-    rho = _share(section, "kh" if horizontal else "kv", rule.zone, value)
-    out[0 if horizontal else 1] = f.conductance * (r_lo * rho[f.lo_pos] + r_hi * rho[f.hi_pos]) / (r_lo + r_hi) / value
-    return out[0], out[1]
-
-
-def term_conductance_derivative(section: Section, t: Term, rule: DerivativeRule, value: float
-                                ) -> np.ndarray | None:
-    """``d(conductance)/dp`` of the entries of a head-dependent boundary term for a zone's kh or
-    kv or the bed leakance (None where the term does not depend on the parameter)."""
-    g = section.grid
-    if t.face == "cell" or not np.any(t.conductance > 0):
-        return None
-    if rule.name == "leakance":
-        if t.kind == "stream" and t.face == "top":
-            inv = 1.0 / value
-            return t.conductance * (inv / (section.top_half_resistance[t.column_or_row] + inv)) / value
-        return None
-    if rule.name not in ("zone-kh", "zone-kv"):
-        return None
-    horizontal = rule.name == "zone-kh"
-    rho = _share(section, "kh" if horizontal else "kv", rule.zone, value)
-    if horizontal and t.face in ("left", "right"):
-        col = 0 if t.face == "left" else g.nx - 1
-        return t.conductance * rho[t.column_or_row * g.nx + col] / value
-    if not horizontal and t.face == "bottom":
-        return t.conductance * rho[(g.nz - 1) * g.nx + t.column_or_row] / value
-    if not horizontal and t.face == "top":
-        half = section.top_half_resistance[t.column_or_row]
-        width = g.dx[t.column_or_row] if t.width is None else t.width
-        frac = half * t.conductance / width  # half / (half + 1/leakance)
-        return t.conductance * frac * rho[_top_position(section, t.column_or_row)] / value
-    return None
-
-
-def residual_derivative(section: Section, terms: list[Term], u: np.ndarray, rule: DerivativeRule, value: float
-                        ) -> tuple[np.ndarray, np.ndarray | None]:
-    """``dR/dp`` at fixed heads (per unknown) and ``d(conductance)/dp`` of the stream-top entries
-    (or None).
-
-    ``R`` is the sum of inflows into each cell; ``value`` is the parameter's current SI value.
-    """
-    n = section.n
-    dR = np.zeros(n)
-    dconductance_top = None
-    g = section.grid
-    if rule.name in ("zone-kh", "zone-kv", "leakance"):
-        for f, dC in zip((section.hfaces, section.vfaces), face_conductance_derivative(section, rule, value)):
-            dF = dC * (u[f.lo] - u[f.hi])
-            dR -= np.bincount(f.lo, weights=dF, minlength=n)
-            dR += np.bincount(f.hi, weights=dF, minlength=n)
-        for t in terms:
-            dconductance = term_conductance_derivative(section, t, rule, value)
-            if dconductance is None:
-                continue
-            dR += np.bincount(t.cells, weights=dconductance * (t.r / t.conductance - u[t.cells]), minlength=n)
-            if t.kind == "stream" and t.face == "top":
-                dconductance_top = dconductance
-        return dR, dconductance_top
-    if rule.name == "recharge":
-        for t in terms:
-            if t.kind == "recharge":
-                dR += np.bincount(t.cells, weights=g.dx[t.column_or_row] if t.width is None else t.width,
-                                  minlength=n)
-        return dR, None
-    if rule.name == "riparian":
-        for t in terms:
-            if t.kind == "evapotranspiration" and value > 0:
-                sel = section.et_zone == rule.zone
-                dR += np.bincount(t.cells[sel], weights=t.inflow(u)[sel] / value, minlength=n)
-        return dR, None
-    if rule.name == "side-head":
-        for t in terms:
-            if t.face == rule.side and t.kind == rule.side:
-                dR += np.bincount(t.cells, weights=t.conductance, minlength=n)
-        return dR, None
-    # storage parameters do not enter the steady residual
-    return dR, None
-
-
-def _term_inflow_derivative(section: Section, t: Term, u: np.ndarray, rule: DerivativeRule, value: float
-                            ) -> np.ndarray | None:
-    """``d(inflow)/dp`` of the entries of a top or bottom boundary term at fixed heads (None where
-    the term does not depend on the parameter); the per-term parts of :func:`residual_derivative`."""
-    g = section.grid
-    if rule.name in ("zone-kh", "zone-kv", "leakance"):
-        dconductance = term_conductance_derivative(section, t, rule, value)
-        return None if dconductance is None else dconductance * (t.r / t.conductance - u[t.cells])
-    if rule.name == "recharge" and t.kind == "recharge":
-        return g.dx[t.column_or_row] if t.width is None else t.width
-    if rule.name == "side-head" and t.face == rule.side and t.kind == rule.side:
-        return t.conductance
-    return None
-
-
-def thermal_flux_parts(section: Section, ops: Operators, u: np.ndarray, terms: list[Term],
-                       rules: list[DerivativeRule], values: list[float]) -> tuple[sp.csr_matrix, np.ndarray]:
-    """``d(value)/d(h)`` of the ``thermal_flux`` rows (sparse, zero rows for the other kinds) and
-    their explicit derivatives at fixed heads (n_obs x len(rules)).
-
-    The value is ``W qz`` with ``W`` the head weights and ``qz`` the cell-centre vertical flux
-    (:func:`bedflux.section.fluxes.derive`): half the sum of the interior faces' ``C (h_lo - h_hi)
-    / area`` below and above the cell, of the top terms' ``-inflow / dx`` and of the bottom term's
-    ``inflow / dx``. The explicit part carries ``dC/dp`` of the faces and ``d(inflow)/dp`` of the
-    boundary terms.
-    """
-    thermal = ops.kind == "thermal_flux"
-    n = section.n
-    Wt = sp.diags(thermal.astype(float)) @ ops.head_weights
-    vf = section.vfaces
-    g = section.grid
-    a = 0.5 * vf.conductance / vf.area
-    rows = np.concatenate([vf.lo, vf.lo, vf.hi, vf.hi])
-    cols = np.concatenate([vf.lo, vf.hi, vf.lo, vf.hi])
-    vals = np.concatenate([a, -a, a, -a])
-    boundary = [(t, 1.0 if t.face == "bottom" else -1.0) for t in terms if t.face in ("top", "bottom")]
-    for t, sign in boundary:
-        # qz gains sign * inflow / (2 dx) in the term's cell; d(inflow)/du = -c
-        rows = np.concatenate([rows, t.cells]); cols = np.concatenate([cols, t.cells])
-        vals = np.concatenate([vals, -sign * 0.5 * t.conductance / g.dx[t.column_or_row]])
-    M = sp.csr_matrix((vals, (rows, cols)), shape=(n, n))
-    E = np.zeros((ops.n, len(rules)))
-    for j, (rule, v) in enumerate(zip(rules, values)):
-        dqz = np.zeros(n)
-        dC = face_conductance_derivative(section, rule, v)[1]
-        if np.any(dC):
-            dF = 0.5 * dC * (u[vf.lo] - u[vf.hi]) / vf.area
-            dqz += np.bincount(vf.lo, weights=dF, minlength=n) + np.bincount(vf.hi, weights=dF, minlength=n)
-        for t, sign in boundary:
-            dinflow = _term_inflow_derivative(section, t, u, rule, v)
-            if dinflow is not None:
-                dqz += np.bincount(t.cells, weights=sign * 0.5 * dinflow / g.dx[t.column_or_row], minlength=n)
-        E[:, j] = Wt @ dqz
-    return (Wt @ M).tocsr(), E
-
-
-# ------------------------------------------------------------------------------------------
 
 @dataclass
 class _StepEnd:
@@ -521,14 +324,7 @@ class Forward:
         analytic = [j for j, rule in enumerate(self.rules) if rule.name in with_rule
                     and not (rule.name in _STORAGE_RULES and not self.scenario.transient)]
         if self.has_temperature:
-            # temperatures depend on the flow parameters through the whole run: central differences;
-            # thermal parameters (no effect on the flow) are analytic where the flow is steady
-            steady_flow = not self.scenario.transient or flow_is_steady(self.scenario)
-            analytic = [j for j, rule in enumerate(self.rules) if rule.name.startswith("thermal-") and steady_flow]
-        if self.has_thermal_flux and self.scenario.variably_saturated:
-            # the thermal-flux rows of a variably saturated run carry the relative conductances:
-            # central differences for the flow parameters (every column of such a parameter)
-            analytic = [j for j in analytic if self.rules[j].name.startswith("thermal-")]
+            analytic += [j for j, rule in enumerate(self.rules) if rule.name in THERMAL_RULES]
         d, J = self._run(m, analytic)
         numeric = []
         for j, rule in enumerate(self.rules):
@@ -596,55 +392,60 @@ class Forward:
             self._fill_temperatures(section, ops, d)
             return _ForwardState(key, section, ops, d, sol)
         values = [p.natural(v) for p, v in zip(self.free, m)]
-        d, columns = self._transient(section, ops, [self.rules[j] for j in carry], [values[j] for j in carry])
-        self._fill_temperatures(section, ops, d)
+        rules, carried_values = [self.rules[j] for j in carry], [values[j] for j in carry]
+        d, columns = self._transient(section, ops, rules, carried_values)
+        if self.has_temperature and not self._flow_changes:
+            # heat over the one steady flow, its sensitivities carried beside the flow's
+            rows, temperatures, jac = self._temperatures(section, ops, rules, carried_values)
+            d[rows], columns[rows] = temperatures, jac
         return _ForwardState(key, section, ops, d, carried=carry, columns=columns)
 
     def _run(self, m: np.ndarray, analytic: list[int]) -> tuple[np.ndarray, np.ndarray]:
         if self.scenario.variably_saturated and analytic:
             return self._variably_saturated_run(m, analytic)
-        if self.has_temperature:
-            return self._temperature_run(m, analytic)
         state = self._state(m, analytic if self.scenario.transient else None)
         J = np.zeros((self.n_data, self.n_params))
         if state.section.scenario.variably_saturated or not analytic:
             return state.predicted.copy(), J
         values = [p.natural(v) for p, v in zip(self.free, m)]
         chain = np.array([p.dnatural(v) for p, v in zip(self.free, m)])
+        rules = [self.rules[j] for j in analytic]
         if state.solution is not None:
-            Jsub = self._steady_jacobian(state.section, state.ops, state.solution, [self.rules[j] for j in analytic],
+            Jsub = self._steady_jacobian(state.section, state.ops, state.solution, rules,
                                          [values[j] for j in analytic])
         else:
             Jsub = state.columns
+        if self.has_temperature and state.solution is not None:
+            rows, _, jac = self._temperatures(state.section, state.ops, rules, [values[j] for j in analytic])
+            Jsub[rows] = jac
         J[:, analytic] = Jsub * chain[analytic][None, :]
         return state.predicted.copy(), J
 
+    @property
+    def _flow_changes(self) -> bool:
+        """True for a transient run whose flow changes (heat then follows every flow step)."""
+        return self.scenario.transient and not flow_is_steady(self.scenario)
+
     def _fill_temperatures(self, section: Section, ops: Operators, d: np.ndarray) -> None:
-        """Fill the temperature rows of ``d`` from the heat run (nothing without temperatures)."""
+        """Fill the temperature rows of ``d`` of a steady run from its heat run (nothing without
+        temperatures)."""
         if self.has_temperature:
-            rows, values, _ = self._temperatures(section, ops, [])
+            rows, values, _ = self._temperatures(section, ops, [], [])
             d[rows] = values
 
-    def _temperatures(self, section: Section, ops: Operators, params: list) -> tuple:
-        """The temperature rows, their simulated values and their derivatives with respect to the
-        thermal ``params`` (``(property, zone, value)``; :mod:`bedflux.forward.heat_observe`)."""
+    def _temperature_times(self, section: Section, ops: Operators) -> tuple[np.ndarray, np.ndarray]:
         rows = ops.kind == "temperature"
         times = ops.table["time"].to_numpy()[rows] if section.scenario.transient else np.zeros(int(rows.sum()))
-        values, jac = observe_temperatures(section, ops.head_weights[rows], times, params)
-        return rows, values, jac
+        return rows, times
 
-    def _temperature_run(self, m: np.ndarray, thermal: list[int]) -> tuple[np.ndarray, np.ndarray]:
-        """Predicted data with temperatures, and the analytic columns of the thermal parameters
-        ``thermal`` (they do not act on the flow: zero for every other kind)."""
-        state = self._state(m)
-        J = np.zeros((self.n_data, self.n_params))
-        if thermal:
-            values = [p.natural(v) for p, v in zip(self.free, m)]
-            chain = np.array([p.dnatural(v) for p, v in zip(self.free, m)])
-            params = [(self.rules[j].name.split("-", 1)[1], self.rules[j].zone, values[j]) for j in thermal]
-            rows, _, jac = self._temperatures(state.section, state.ops, params)
-            J[np.ix_(rows, thermal)] = jac * chain[thermal][None, :]
-        return state.predicted.copy(), J
+    def _temperatures(self, section: Section, ops: Operators, rules: list[DerivativeRule], values: list[float]
+                      ) -> tuple:
+        """The temperature rows, their simulated values and their derivatives with respect to
+        ``rules`` in a run with steady flow (:mod:`bedflux.forward.heat_observe`)."""
+        rows, times = self._temperature_times(section, ops)
+        values_, jac = observe_temperatures(section, ops.head_weights[rows], times, rules, values)
+        self.n_sensitivity_solves += len(rules)
+        return rows, values_, jac
 
     def _variably_saturated_run(self, m: np.ndarray, analytic: list[int]) -> tuple[np.ndarray, np.ndarray]:
         """Predicted data and the direct-method sensitivities of the parameters ``analytic`` of a
@@ -692,6 +493,10 @@ class Forward:
         d = np.full(ops.n, np.nan)
         J = np.zeros((ops.n, P))
         last = _StepEnd(np.zeros((section.n, P)), np.full(ops.n, np.nan), None)
+        heat = None
+        if self.has_temperature and self._flow_changes:
+            rows, t_rows = self._temperature_times(section, ops)
+            heat = AlongFlow(section, ops.head_weights[rows], t_rows, rules, values)
 
         def observe(u, s, terms, t):
             vals = predict(section, ops, u, terms, t)
@@ -715,6 +520,8 @@ class Forward:
                 dR = np.column_stack([residual_derivative(section, init.terms, u, rule, v)[0]
                                       for rule, v in zip(rules, values)])
                 s = init.factor.solve(dR)
+            if heat is not None:
+                heat.start(u, terms, s)
             vals, dJ = observe(u, s, terms, 0.0)
             at0 = times <= 0.0
             if at0.any():
@@ -727,6 +534,8 @@ class Forward:
             s1 = (_step_sensitivity(section, info, last.head_sensitivity, rules, values) if P
                   else last.head_sensitivity)
             self.n_sensitivity_solves += P
+            if heat is not None:
+                heat.step(info, last.head_sensitivity, s1)
             inside = (times > info.t0) & (times <= info.t1 + 1e-9 * max(info.t1, 1.0))
             v1, j1 = observe(info.u1, s1, info.terms1, info.t1)
             if inside.any():
@@ -738,6 +547,9 @@ class Forward:
             last.head_sensitivity, last.predicted, last.jacobian = s1, v1, j1
 
         run_transient(section, on_start=on_start, on_step=on_step)
+        if heat is not None:
+            d[rows] = heat.values
+            J[rows] = heat.jacobian
         return d, J
 
 

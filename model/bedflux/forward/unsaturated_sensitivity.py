@@ -43,7 +43,7 @@ import numpy as np
 import scipy.sparse as sp
 
 from bedflux.forward.observe import Operators, _seepage_weights, predict
-from bedflux.forward.sensitivity import (
+from bedflux.forward.derivatives import (
     DerivativeRule,
     face_conductance_derivative,
     term_conductance_derivative,
@@ -138,24 +138,46 @@ class ResidualDerivatives:
         sub = SoilWater(s.van_genuchten[cells], s.alpha[cells], s.n[cells], s.theta_r[cells], s.theta_s[cells])
         return sub.parameter_derivatives(np.where(from_face, np.nan_to_num(fpsi), 0.0))
 
-    def inflow(self, ev: Evaluation, forcing: StepForcing, term_flows: list[np.ndarray]) -> np.ndarray:
-        """``d(inflow)/dp`` per unknown and parameter (n x P)."""
+    def face_flows(self, ev: Evaluation) -> np.ndarray:
+        """``d(flow)/dp`` of every face (lo to hi; faces x P) at fixed heads."""
         sys_ = self.system
-        n, P = sys_.n, self.n_params
         u = sys_.head_u(ev.psi)
         dh = u[sys_.lo] - u[sys_.hi]
         cell_d = sys_.soil.parameter_derivatives(ev.psi) if self._has_retention() else None
-        out = np.zeros((n, P))
         up = np.where(ev.face_up_is_lo, sys_.lo, sys_.hi)
+        out = np.zeros((sys_.lo.size, self.n_params))
         for j, rule in enumerate(self.rules):
             dq = self.face_dC[j] * ev.face_kr * dh
             kr_p = self._kr_parameter(rule, cell_d) if cell_d is not None else None
             if kr_p is not None:
                 dq = dq + sys_.conductance * np.where(self.in_zone[j][up], kr_p[up], 0.0) * dh
-            out[:, j] = np.bincount(sys_.hi, weights=dq, minlength=n) - np.bincount(sys_.lo, weights=dq, minlength=n)
+            out[:, j] = dq
+        return out
+
+    def inflow(self, ev: Evaluation, forcing: StepForcing, term_flows: list[np.ndarray]) -> np.ndarray:
+        """``d(inflow)/dp`` per unknown and parameter (n x P)."""
+        sys_ = self.system
+        n, P = sys_.n, self.n_params
+        out = np.zeros((n, P))
+        faces = self.face_flows(ev)
+        for j in range(P):
+            out[:, j] = np.bincount(sys_.hi, weights=faces[:, j], minlength=n) - np.bincount(sys_.lo, weights=faces[:, j],
+                                                                                          minlength=n)
         for term, D in zip(forcing.terms, term_flows):
             for j in range(P):
                 out[:, j] += np.bincount(term.cells, weights=D[:, j], minlength=n)
+        return out
+
+    def water_content(self, ev: Evaluation) -> np.ndarray:
+        """``d(theta)/dp`` of every cell at fixed pressure heads (n x P)."""
+        out = np.zeros((self.system.n, self.n_params))
+        if not self._has_retention():
+            return out
+        d = self.system.soil.parameter_derivatives(ev.psi)
+        for j, rule in enumerate(self.rules):
+            if rule.name in ("retention-alpha", "retention-n"):
+                key = "theta_alpha" if rule.name == "retention-alpha" else "theta_n"
+                out[:, j] = np.where(self.in_zone[j], getattr(d, key), 0.0)
         return out
 
     def storage_rate(self, ev: Evaluation, storage: Storage) -> np.ndarray:
@@ -201,7 +223,62 @@ def _solve(solver: JacobianSolver, J: sp.csr_matrix, B: np.ndarray, counts: Coun
     return np.column_stack([solve(B[:, j]) for j in range(B.shape[1])])
 
 
-def observation_jacobian(system: RichardsSystem, ops: Operators, ev: Evaluation,
+def flow_derivatives(system: RichardsSystem, derivs: ResidualDerivatives, ev: Evaluation, forcing: StepForcing,
+                     s: np.ndarray, term_flows: list[np.ndarray] | None) -> tuple[np.ndarray, list[np.ndarray]]:
+    """``d(flow)/dp`` of every face (lo to hi; faces x P) and of every entry of the flow view's
+    terms (the uptake last, when there is one) for pressure-head sensitivities ``s``:
+
+        F = C Kr_up (u_lo - u_hi):  dF = C Kr_up (s_lo - s_hi) + C dKr/dpsi_up s_up (u_lo - u_hi) + dF|_psi
+        q = Kr (r - g u):           dq = (-Kr g + (r - g u) dKr/dpsi) s + dq|_psi  (dKr where Kr is the cell's)
+        uptake q = -a(psi) q_pot:   dq = -q_pot da/dpsi s
+
+    ``term_flows`` are the explicit parts of the terms (:meth:`ResidualDerivatives.term_flows`;
+    None: no parameter acts on them)."""
+    props = ev.props
+    u = system.head_u(ev.psi)
+    lo, hi = system.lo, system.hi
+    c = system.conductance
+    dkr_up = np.where(ev.face_up_is_lo, props.dkr[lo], props.dkr[hi])
+    s_up = np.where(ev.face_up_is_lo[:, None], s[lo], s[hi])
+    dF = (c * ev.face_kr)[:, None] * (s[lo] - s[hi]) + (c * (u[lo] - u[hi]) * dkr_up)[:, None] * s_up
+    if derivs.n_params:
+        dF += derivs.face_flows(ev)
+    flows = []
+    for k, (term, tkr, from_face) in enumerate(zip(forcing.terms, ev.term_kr, ev.term_from_face)):
+        base = term.r - term.conductance * u[term.cells]
+        own = (term.conductance > 0) & ~from_face
+        dflow_du = -tkr * term.conductance + np.where(own, base * props.dkr[term.cells], 0.0)
+        dq = dflow_du[:, None] * s[term.cells]
+        if term_flows is not None:
+            dq = dq + term_flows[k]
+        flows.append(dq)
+    if forcing.uptake is not None:
+        _, da = forcing.uptake.reduction(ev.psi)
+        flows.append(-(forcing.uptake.potential * da)[:, None] * s[forcing.uptake.cells])
+    return dF, flows
+
+
+def _vertical_flux_derivative(system: RichardsSystem, dF: np.ndarray, terms: list, flows: list[np.ndarray]
+                              ) -> np.ndarray:
+    """``d(qz)/dp`` of the cell-centre vertical flux (n x P): half the sum of the vertical faces'
+    ``dF / area`` and of the top (``-dq / dx``) and bottom (``+dq / dx``) boundary entries', as
+    :func:`bedflux.section.fluxes.derive` forms ``qz``."""
+    section = system.section
+    g, vf, n = section.grid, section.vfaces, system.n
+    dFv = 0.5 * dF[system.n_hfaces:] / vf.area[:, None]
+    cells = [vf.lo, vf.hi]
+    values = [dFv, dFv]
+    for term, dq in zip(terms, flows):
+        if term.face in ("top", "bottom"):
+            sign = 1.0 if term.face == "bottom" else -1.0
+            cells.append(term.cells)
+            values.append(sign * 0.5 * dq / g.dx[term.column_or_row][:, None])
+    idx = np.concatenate(cells)
+    scatter = sp.csr_matrix((np.ones(idx.size), (idx, np.arange(idx.size))), shape=(n, idx.size))
+    return np.asarray(scatter @ np.vstack(values))
+
+
+def observation_jacobian(system: RichardsSystem, derivs: ResidualDerivatives, ops: Operators, ev: Evaluation,
                          forcing: StepForcing, s: np.ndarray, term_flows: list[np.ndarray],
                          source: str) -> np.ndarray:
     """``d(observation)/dp`` (n_obs x P) of a state with sensitivities ``s``."""
@@ -211,6 +288,11 @@ def observation_jacobian(system: RichardsSystem, ops: Operators, ev: Evaluation,
     vhg = kind == "vhg"
     scale[vhg] = 1.0 / ops.table["depth"].to_numpy()[vhg]
     out = (sp.diags(scale) @ ops.head_weights) @ s
+    thermal = kind == "thermal_flux"
+    if thermal.any():
+        dF, flows = flow_derivatives(system, derivs, ev, forcing, s, term_flows)
+        dqz = _vertical_flux_derivative(system, dF, forcing.terms, flows)
+        out[thermal] = (ops.head_weights @ dqz)[thermal]
     if not seep.any():
         return out
     k = next(i for i, t in enumerate(forcing.terms) if t.kind == "stream" and t.face == "top")
@@ -257,7 +339,7 @@ def run_with_sensitivities(section: Section, ops: Operators, rules: list[Derivat
         d[at] = predict(view, ops, system.head_u(ev.psi), terms, t, source)[at]
         if P:
             flows = derivs.term_flows(ev, forcing) if flows is None else flows
-            J[at] = observation_jacobian(system, ops, ev, forcing, s, flows, source)[at]
+            J[at] = observation_jacobian(system, derivs, ops, ev, forcing, s, flows, source)[at]
 
     current = {"s": np.zeros((section.n, P)), "flows": None}
     if P and steady_start:
@@ -265,6 +347,15 @@ def run_with_sensitivities(section: Section, ops: Operators, rules: list[Derivat
         current["s"] = _solve(sens_solver, system.jacobian(ev, forcing, None, newton=True),
                               derivs.inflow(ev, forcing, flows), counts)
         current["flows"] = flows
+    heat = None
+    rows = ops.kind == "temperature"
+    if rows.any():
+        from bedflux.forward.unsaturated_heat import UnsaturatedHeat
+
+        heat = UnsaturatedHeat(system, ops.head_weights[rows], times[rows], rules, derivs)
+        if P and current["flows"] is None:
+            current["flows"] = derivs.term_flows(ev, forcing)
+        heat.state(0.0, 0.0, ev, forcing, current["s"], current["flows"], steady=not sc.transient)
     observe(ev, forcing, current["s"], 0.0, current["flows"])
     later = np.unique(times[times > 0.0])
     if later.size:
@@ -278,6 +369,8 @@ def run_with_sensitivities(section: Section, ops: Operators, rules: list[Derivat
                        - derivs.lag(ev1, storage)[:, None] * current["s"])
                 current["s"] = _solve(sens_solver, system.jacobian(ev1, forcing, storage, newton=True), rhs, counts)
                 current["flows"] = flows
+            if heat is not None:
+                heat.state(t0, t1, out.evaluation, forcing, current["s"], current["flows"], steady=False)
             return 0.0
 
         def on_stop(out, forcing, t) -> None:
@@ -286,4 +379,7 @@ def run_with_sensitivities(section: Section, ops: Operators, rules: list[Derivat
                 observe(out.evaluation, forcing, current["s"], float(later[i]), current["flows"])
 
         run_steps(stepper, ev.psi, state, stops, sc.time.step, on_step, on_stop, restarts=flooding)
+    if heat is not None:
+        d[rows] = heat.values
+        J[rows] = heat.jacobian
     return d, J, counts

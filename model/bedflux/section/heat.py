@@ -109,6 +109,11 @@ class HeatTerm:
     g: np.ndarray
     s: np.ndarray
     source: str | None
+    #: the water inflow (m^2/s per metre, times the flow state's weight) of each entry of a term
+    #: that water crosses (None: a conduction term or the storage release)
+    flow: np.ndarray | None = None
+    #: ``g / lambda[cells]`` of a conduction term (None: not a conduction term)
+    per_conductivity: np.ndarray | None = None
 
     def inflow(self, theta: np.ndarray, sources: dict[str, float]) -> np.ndarray:
         src = 0.0 if self.source is None else sources[self.source]
@@ -173,6 +178,18 @@ class HeatOperator:
     A: sp.csr_matrix
     peclet_max: float
     peclet_at: tuple[float, float] = (float("nan"), float("nan"))
+    #: face water flows (lo to hi, m^2/s per metre), conduction conductances, Peclet numbers and
+    #: the two half cells' effective conductivities: what :class:`ResidualTangent` differentiates
+    F: np.ndarray | None = None
+    D: np.ndarray | None = None
+    P: np.ndarray | None = None
+    lam_lo: np.ndarray | None = None
+    lam_hi: np.ndarray | None = None
+
+    @property
+    def water_terms(self) -> list[HeatTerm]:
+        """The terms water crosses, in the order of the flow states' water terms."""
+        return [t for t in self.terms if t.flow is not None]
 
     def internal_gross(self, theta: np.ndarray) -> float:
         """Sum of the magnitudes of the face heat flows' parts (the scale of their round-off)."""
@@ -230,27 +247,30 @@ def heat_operator(geo: HeatGeometry, flows: list[tuple[float, np.ndarray, list[T
             q = w * term.inflow(u)
             water_in += np.bincount(term.cells, weights=q, minlength=geo.n)
             if term.face == "cell":
-                terms.append(HeatTerm(line_of(term), term.cells, -rc * q, np.zeros(q.size), None))
+                terms.append(HeatTerm(line_of(term), term.cells, -rc * q, np.zeros(q.size), None, flow=q))
             else:
                 terms.append(HeatTerm(line_of(term), term.cells, rc * np.maximum(-q, 0.0), rc * np.maximum(q, 0.0),
-                                      source_of(term, ground_given)))
+                                      source_of(term, ground_given), flow=q))
     # conduction through the boundaries
     g = section.grid
     lam = cells.conductivity
     for term in wet_terms:
         if term.kind == "stream" and term.face == "top":
             width = g.dx[term.column_or_row] if term.width is None else term.width
-            cond = lam[term.cells] * width / geo.top_half[term.column_or_row]
-            terms.append(HeatTerm("stream", term.cells, cond, cond, "stream"))
+            per = width / geo.top_half[term.column_or_row]
+            cond = lam[term.cells] * per
+            terms.append(HeatTerm("stream", term.cells, cond, cond, "stream", per_conductivity=per))
     base = section.sides["bottom"]
-    cond = lam[base.cells] * base.area / (0.5 * g.thickness[g.nz - 1, base.column_or_row])
-    terms.append(HeatTerm("bottom", base.cells, cond, cond, "groundwater"))
+    per = base.area / (0.5 * g.thickness[g.nz - 1, base.column_or_row])
+    cond = lam[base.cells] * per
+    terms.append(HeatTerm("bottom", base.cells, cond, cond, "groundwater", per_conductivity=per))
     if ground_given:
         dry = section.wet_state(t).dry
         cols = np.flatnonzero(dry > 0.0)
         cells_top = section.top_cells[cols]
-        cond = lam[cells_top] * dry[cols] / geo.top_half[cols]
-        terms.append(HeatTerm("ground", cells_top, cond, cond, "ground"))
+        per = dry[cols] / geo.top_half[cols]
+        cond = lam[cells_top] * per
+        terms.append(HeatTerm("ground", cells_top, cond, cond, "ground", per_conductivity=per))
     # water released from storage (the cell's water imbalance) leaves at the cell's temperature
     net_out = np.bincount(geo.lo, weights=F, minlength=geo.n) - np.bincount(geo.hi, weights=F, minlength=geo.n)
     release = net_out - water_in
@@ -271,9 +291,114 @@ def heat_operator(geo: HeatGeometry, flows: list[tuple[float, np.ndarray, list[T
     cols = np.concatenate([geo.lo, geo.hi, geo.hi, geo.lo, all_cells])
     vals = np.concatenate([a_lo, -a_hi, a_hi, -a_lo, diag])
     A = sp.csr_matrix((vals, (rows, cols)), shape=(geo.n, geo.n))
+    parts = {"F": F, "D": D, "P": P, "lam_lo": lam_lo, "lam_hi": lam_hi}
     if not P.size:
-        return HeatOperator(geo, a_lo, a_hi, terms, A, 0.0)
+        return HeatOperator(geo, a_lo, a_hi, terms, A, 0.0, **parts)
     k = int(np.argmax(np.abs(P)))
     pos = geo.section.hfaces.positions[geo.lo[k]]
     at = (float(g.xc[pos % g.nx]), float(g.z_centre.ravel()[pos]))
-    return HeatOperator(geo, a_lo, a_hi, terms, A, float(abs(P[k])), at)
+    return HeatOperator(geo, a_lo, a_hi, terms, A, float(abs(P[k])), at, **parts)
+
+
+def bernoulli_derivative(x: np.ndarray) -> np.ndarray:
+    """``B'(x) = B(x) (1 - B(-x)) / x`` (from ``B(-x) = B(x) e^x``), by its series
+    ``-1/2 + x/6 - x^3/180`` near 0."""
+    x = np.asarray(x, dtype=float)
+    out = np.empty_like(x)
+    small = np.abs(x) < 1e-3
+    xs = x[small]
+    out[small] = -0.5 + xs / 6.0 - xs**3 / 180.0
+    xl = x[~small]
+    out[~small] = bernoulli(xl) * (1.0 - bernoulli(-xl)) / xl
+    return out
+
+
+@dataclass
+class FlowTangent:
+    """A direction of change of what the heat operator is built from, one column per parameter:
+    per-cell bulk conductivity and dispersivity (n x P), face water flows (faces x P) and the water
+    inflow of each entry of each of :attr:`HeatOperator.water_terms` (entries x P). None: no change."""
+
+    conductivity: np.ndarray | None = None
+    dispersivity: np.ndarray | None = None
+    face_flow: np.ndarray | None = None
+    term_flows: list[np.ndarray] | None = None
+
+
+class ResidualTangent:
+    """``d(b - A theta)/dp`` at fixed temperatures along a :class:`FlowTangent` (n x P): the exact
+    derivative of the assembly of :func:`heat_operator` (its branches held: the upstream side of
+    each boundary entry, the wetted faces), linear in the temperatures and the source temperatures,
+    so kept as one sparse matrix ``K`` (P blocks of n rows) and one vector per source:
+    ``tangent(theta, sources) = (K theta) + sum of sources[k] V_k``.
+
+    Faces: ``H = D (B(-P) theta_lo - B(P) theta_hi)`` with ``P = rho_w c_w F / D`` and ``D`` the
+    harmonic mean of ``lambda + rho_w c_w alpha |F| / area``; boundary entries carry
+    ``rho_w c_w q`` at the source or cell temperature, conduction entries ``lambda`` times their
+    geometry, and the storage release ``rho_w c_w (net outflow - inflow) theta``.
+    """
+
+    def __init__(self, op: HeatOperator, tangent: FlowTangent, n_columns: int):
+        geo = op.geometry
+        n, P, rc = geo.n, n_columns, WATER_HEAT_CAPACITY
+        lo, hi = geo.lo, geo.hi
+        self.n, self.P = n, P
+        dF = np.zeros((lo.size, P)) if tangent.face_flow is None else tangent.face_flow
+        sign = np.sign(op.F)[:, None]
+        area = geo.area[:, None]
+        cells = geo.cells
+        dlam_lo = rc * cells.dispersivity[lo][:, None] * sign * dF / area
+        dlam_hi = rc * cells.dispersivity[hi][:, None] * sign * dF / area
+        if tangent.conductivity is not None:
+            dlam_lo = dlam_lo + tangent.conductivity[lo]
+            dlam_hi = dlam_hi + tangent.conductivity[hi]
+        if tangent.dispersivity is not None:
+            absq = (np.abs(op.F) / geo.area)[:, None]
+            dlam_lo = dlam_lo + rc * tangent.dispersivity[lo] * absq
+            dlam_hi = dlam_hi + rc * tangent.dispersivity[hi] * absq
+        D, Pe = op.D[:, None], op.P[:, None]
+        dD = D**2 / area * ((geo.d_lo / op.lam_lo**2)[:, None] * dlam_lo
+                            + (geo.d_hi / op.lam_hi**2)[:, None] * dlam_hi)
+        dP = rc * dF / D - Pe * dD / D
+        # dH = c_lo theta_lo + c_hi theta_hi
+        c_lo = dD * bernoulli(-op.P)[:, None] - D * bernoulli_derivative(-op.P)[:, None] * dP
+        c_hi = -dD * bernoulli(op.P)[:, None] - D * bernoulli_derivative(op.P)[:, None] * dP
+        rows, cols, vals = [hi, hi, lo, lo], [lo, hi, lo, hi], [c_lo, c_hi, -c_lo, -c_hi]
+        # water released from storage: rho_w c_w (net outflow over the faces - boundary inflow) theta
+        diag_cells, diag_vals = [lo, hi], [rc * dF, -rc * dF]
+        self.sources: dict[str, np.ndarray] = {}
+        for term, dq in zip(op.water_terms, tangent.term_flows or []):
+            if term.source is None:  # a sink takes rho_w c_w q theta_cell; its release part cancels
+                continue
+            # inflow at the source temperature (its release part: -rho_w c_w dq theta), outflow at the cell's
+            inflow = term.flow > 0
+            self._add_source(term.source, term.cells[inflow], rc * dq[inflow])
+            diag_cells.append(term.cells[inflow])
+            diag_vals.append(-rc * dq[inflow])
+        if tangent.conductivity is not None:
+            for term in op.terms:
+                if term.per_conductivity is not None:
+                    part = term.per_conductivity[:, None] * tangent.conductivity[term.cells]
+                    self._add_source(term.source, term.cells, part)
+                    diag_cells.append(term.cells)
+                    diag_vals.append(-part)
+        rows += diag_cells
+        cols += diag_cells
+        vals += diag_vals
+        block = np.arange(P) * n
+        r = np.concatenate([(idx[:, None] + block[None, :]).ravel() for idx in rows])
+        c = np.concatenate([np.repeat(idx, P) for idx in cols])
+        v = np.concatenate([x.ravel() for x in vals])
+        self.K = sp.csr_matrix((v, (r, c)), shape=(n * P, n))
+
+    def _add_source(self, name: str, cells: np.ndarray, values: np.ndarray) -> None:
+        v = self.sources.setdefault(name, np.zeros((self.n, self.P)))
+        scatter = sp.csr_matrix((np.ones(cells.size), (cells, np.arange(cells.size))), shape=(self.n, cells.size))
+        v += scatter @ values
+
+    def __call__(self, theta: np.ndarray, sources: dict[str, float]) -> np.ndarray:
+        out = (self.K @ theta).reshape(self.P, self.n).T
+        for name, v in self.sources.items():
+            if sources[name] != 0.0:
+                out = out + sources[name] * v
+        return out

@@ -64,6 +64,9 @@ class HeatModel:
         self.geometry = HeatGeometry(section, self.cells)
         self.t_ref = self.spec.groundwater
         self.storage = self.cells.capacity * section.cell_volume  # J/K per metre of width
+        #: the grains' share of the bulk heat capacity (``1 - porosity``; ``1 - theta_s`` when
+        #: the water content sets the water's share)
+        self.grain_share = 1.0 - self.cells.porosity
         self.factorizations = 0
         self.peclet_max = 0.0
         self.peclet_at = (float("nan"), float("nan"))

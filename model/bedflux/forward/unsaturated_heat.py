@@ -1,0 +1,100 @@
+"""Temperatures and their sensitivities in a variably saturated run, by the direct method.
+
+Heat follows every accepted step of the Richards run as :mod:`bedflux.section.heat_run` runs it:
+the flow view's faces (conductance times upstream ``Kr``) and terms, and the bulk heat capacity
+``theta_w rho_w c_w + (1 - theta_s) c_s`` of the step's end. Along the pressure-head
+sensitivities ``s = dpsi/dp`` of :mod:`bedflux.forward.unsaturated_sensitivity`:
+
+    face flow:  F = C Kr_up (u_lo - u_hi),
+                dF/dp = C Kr_up (s_lo - s_hi) + C dKr/dpsi_up s_up (u_lo - u_hi) + dF/dp|_psi
+    boundary:   q = Kr (r - g u),  dq/dp = (-Kr g + (r - g u) dKr/dpsi) s + dq/dp|_psi
+    uptake:     q = -a(psi) q_pot,  dq/dp = -q_pot da/dpsi s
+    storage:    dC/dp = rho_w c_w V (dtheta/dpsi s + dtheta/dp|_psi) (+ the grains' share of a
+                zone heat capacity)
+
+and the step ``(C1/dt + A1) sigma1 = C1/dt sigma0 - dC1/dp (theta1 - theta0)/dt + dR1/dp`` with
+``dR/dp`` the exact derivative of the heat operator's assembly
+(:class:`bedflux.section.heat.ResidualTangent`).
+"""
+from __future__ import annotations
+
+import numpy as np
+import scipy.sparse as sp
+
+from bedflux.forward.derivatives import DerivativeRule
+from bedflux.forward.heat_observe import Readings, thermal_parts
+from bedflux.forward.unsaturated_sensitivity import flow_derivatives
+from bedflux.scenario.heat import WATER_HEAT_CAPACITY
+from bedflux.section.heat import FlowTangent, HeatGeometry, ResidualTangent
+from bedflux.section.heat_run import HeatModel
+from bedflux.section.richards import Evaluation, RichardsSystem, StepForcing
+
+
+class UnsaturatedHeat:
+    """Heat after every accepted state of a variably saturated run, with its sensitivities.
+
+    Call :meth:`state` for the state at t = 0 and after every accepted step; the readings are then
+    in :attr:`values` (degC) and :attr:`jacobian` (per SI parameter).
+    """
+
+    def __init__(self, system: RichardsSystem, weights: sp.csr_matrix, times: np.ndarray,
+                 rules: list[DerivativeRule], derivatives):
+        section = system.section
+        self.system, self.derivatives = system, derivatives
+        self.model = model = HeatModel(section)
+        cells = model.cells
+        solid = (cells.capacity - cells.porosity * WATER_HEAT_CAPACITY) / (1.0 - cells.porosity)
+        model.grain_share = 1.0 - system.soil.theta_s
+        self.grains = model.grain_share * solid
+        self.P = len(rules)
+        self.base, self.dstore_thermal = thermal_parts(model, rules)
+        self.readings = Readings(weights, times, self.P)
+        self.theta = self.sigma = None
+
+    @property
+    def values(self) -> np.ndarray:
+        return self.readings.values + self.model.t_ref
+
+    @property
+    def jacobian(self) -> np.ndarray:
+        return self.readings.jacobian
+
+    def _tangent(self, ev: Evaluation, forcing: StepForcing, s: np.ndarray, term_flows: list[np.ndarray] | None
+                 ) -> FlowTangent:
+        dF, flows = flow_derivatives(self.system, self.derivatives, ev, forcing, s, term_flows)
+        return FlowTangent(self.base.conductivity, self.base.dispersivity, dF, flows)
+
+    def state(self, t0: float, t1: float, ev: Evaluation, forcing: StepForcing, s: np.ndarray,
+              term_flows: list[np.ndarray] | None, steady: bool) -> None:
+        """Heat at the state ``ev`` reached at ``t1`` (from ``t0``; ``t1 = 0``: the start, ``steady``
+        for a steady run), with the pressure-head sensitivities ``s`` and the explicit boundary
+        flow derivatives ``term_flows`` (None without parameters)."""
+        model, sys_ = self.model, self.system
+        view, terms = sys_.flow_view(ev, forcing)
+        volume = model.section.cell_volume
+        model.storage = (ev.props.theta * WATER_HEAT_CAPACITY + self.grains) * volume
+        model.geometry = HeatGeometry(view, model.cells)
+        op = model.operator([(1.0, sys_.head_u(ev.psi), terms)], terms, t1)
+        P = self.P
+        tangent = self._tangent(ev, forcing, s, term_flows) if P else None
+        if t1 == 0.0:
+            if model.spec.initial is not None and not steady:
+                self.theta, self.sigma = np.full(sys_.n, model.spec.initial - model.t_ref), np.zeros((sys_.n, P))
+            else:
+                sources = model.sources(0.0, steady=steady)
+                factor = model.factor(op.A)
+                self.theta = factor.solve(op.rhs(sources))
+                self.sigma = factor.solve(ResidualTangent(op, tangent, P)(self.theta, sources)) if P \
+                    else np.zeros((sys_.n, 0))
+        else:
+            dt = t1 - t0
+            factor = model.factor(model.step_matrix(op, dt, 1.0))
+            theta1, _, _ = model.step(op, factor, self.theta, t0, t1, 1.0)
+            if P:
+                dstore = self.dstore_thermal + WATER_HEAT_CAPACITY * volume[:, None] * (
+                    ev.props.capacity[:, None] * s + self.derivatives.water_content(ev))
+                rhs = (model.storage / dt)[:, None] * self.sigma - dstore * ((theta1 - self.theta) / dt)[:, None]
+                rhs += ResidualTangent(op, tangent, P)(theta1, model.sources(t1))
+                self.sigma = factor.solve(rhs)
+            self.theta = theta1
+        self.readings.record(t0, t1, self.theta, self.sigma)
