@@ -84,8 +84,6 @@ def test_amplitude_ratio_method_gives_back_the_model_flux(records):
 
 
 @pytest.mark.slow
-@pytest.mark.skipif(not hasattr(bedflux.field, "flux_from_temperature"),
-                    reason="needs bedflux.field.flux_from_temperature (the field side of temperature records)")
 @pytest.mark.parametrize("method", ["amplitude", "combined"])
 def test_field_estimator_gives_back_the_model_flux(records, method):
     t, shallow, deep, q_model = records

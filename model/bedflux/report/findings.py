@@ -595,7 +595,8 @@ def next_finding(plans: Iterable[tuple[str, dict | None, pd.DataFrame | None]],
                            + "; ".join(hints) + ".")
     else:
         f.sentences.append("There is no plan in this folder: run bedflux plan to rank where the next "
-                           "seepage meters and piezometers would narrow the bed conductivity most.")
+                           "seepage meters, piezometers and temperature logger pairs would narrow the "
+                           "bed conductivity most.")
     return f
 
 
