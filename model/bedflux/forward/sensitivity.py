@@ -229,6 +229,8 @@ class _ForwardState:
     solution: SteadySolution | None = None
     carried: tuple = ()
     columns: np.ndarray | None = None
+    #: the temperature rows' Jacobian columns of the ``carried`` parameters (a run with steady flow)
+    temperature_columns: np.ndarray | None = None
 
 
 @dataclass
@@ -386,18 +388,20 @@ class Forward:
             from bedflux.forward.unsaturated_sensitivity import run_with_sensitivities
 
             return _ForwardState(key, section, ops, run_with_sensitivities(section, ops, [], [], self.source)[0])
-        if not section.scenario.transient:
+        if not section.scenario.transient or (self.has_temperature and not self._flow_changes):
+            # a steady run; or a run with [heat] whose flow never changes: the heat run takes its
+            # one flow solve for every time (bedflux.section.heat_run), and so do the flow data
             sol = solve_steady(section, reuse=True)
             d = predict(section, ops, sol.u, sol.terms, 0.0, self.source)
-            self._fill_temperatures(section, ops, d)
-            return _ForwardState(key, section, ops, d, sol)
+            state = _ForwardState(key, section, ops, d, sol, carried=carry)
+            if self.has_temperature:
+                values = [p.natural(v) for p, v in zip(self.free, m)]
+                rows, temperatures, state.temperature_columns = self._temperatures(
+                    section, ops, [self.rules[j] for j in carry], [values[j] for j in carry])
+                d[rows] = temperatures
+            return state
         values = [p.natural(v) for p, v in zip(self.free, m)]
-        rules, carried_values = [self.rules[j] for j in carry], [values[j] for j in carry]
-        d, columns = self._transient(section, ops, rules, carried_values)
-        if self.has_temperature and not self._flow_changes:
-            # heat over the one steady flow, its sensitivities carried beside the flow's
-            rows, temperatures, jac = self._temperatures(section, ops, rules, carried_values)
-            d[rows], columns[rows] = temperatures, jac
+        d, columns = self._transient(section, ops, [self.rules[j] for j in carry], [values[j] for j in carry])
         return _ForwardState(key, section, ops, d, carried=carry, columns=columns)
 
     def _run(self, m: np.ndarray, analytic: list[int]) -> tuple[np.ndarray, np.ndarray]:
@@ -416,8 +420,11 @@ class Forward:
         else:
             Jsub = state.columns
         if self.has_temperature and state.solution is not None:
-            rows, _, jac = self._temperatures(state.section, state.ops, rules, [values[j] for j in analytic])
-            Jsub[rows] = jac
+            rows = state.ops.kind == "temperature"
+            if state.carried == tuple(analytic):
+                Jsub[rows] = state.temperature_columns
+            else:
+                Jsub[rows] = self._temperatures(state.section, state.ops, rules, [values[j] for j in analytic])[2]
         J[:, analytic] = Jsub * chain[analytic][None, :]
         return state.predicted.copy(), J
 
@@ -425,13 +432,6 @@ class Forward:
     def _flow_changes(self) -> bool:
         """True for a transient run whose flow changes (heat then follows every flow step)."""
         return self.scenario.transient and not flow_is_steady(self.scenario)
-
-    def _fill_temperatures(self, section: Section, ops: Operators, d: np.ndarray) -> None:
-        """Fill the temperature rows of ``d`` of a steady run from its heat run (nothing without
-        temperatures)."""
-        if self.has_temperature:
-            rows, values, _ = self._temperatures(section, ops, [], [])
-            d[rows] = values
 
     def _temperature_times(self, section: Section, ops: Operators) -> tuple[np.ndarray, np.ndarray]:
         rows = ops.kind == "temperature"
