@@ -104,3 +104,12 @@ def test_worked_heat_fit_from_the_command_line(tmp_path):
     calibrated = bedflux.load(out / "calibrated.toml")
     assert np.isclose(calibrated.value_at("bed.thermal_conductivity"), results["best"]["bed.thermal_conductivity"],
                       rtol=1e-9)
+
+
+def test_the_stream_temperature_series_travels_with_the_scenario():
+    # calibrated.toml and inputs/ copy the CSV files a scenario reads; the stream's temperature
+    # series is one of them (without it calibrated.toml would not load)
+    from bedflux.outputs.files import input_files
+
+    files = [p.name for p in input_files(bedflux.load(SCENARIOS / "reach_heat.toml"))]
+    assert files == ["reach_heat.toml", "reach_stream_temperature.csv"]
