@@ -27,9 +27,9 @@ def test_upper_case_names_are_read(tmp_path):
     a = pd.read_csv(tmp_path / "a" / "observations.csv")
     b = pd.read_csv(tmp_path / "b" / "observations.csv")
     # the demo campaign: 14 unflagged meters, 6 piezometers with a gradient and a head each, and
-    # three sensor rods of two pairs read for 21 daily windows
-    assert len(b) == len(a) == 26 + 126
-    assert (a["kind"] == "thermal_flux").sum() == 126
+    # three sensor rods of two pairs read for 21 daily windows, and six loggers read 37 times
+    assert len(b) == len(a) == 26 + 126 + 222
+    assert (a["kind"] == "thermal_flux").sum() == 126 and (a["kind"] == "temperature").sum() == 222
     pd.testing.assert_frame_equal(a, b)
 
 

@@ -15,7 +15,8 @@ def test_demo_writes_everything(demo):
     for name in ["observations.csv", "seepage_readings.csv", "seepage_meters.csv", "seepage_transects.csv",
                  "manometer_readings.csv", "piezometers.csv", "slug_tests.csv", "permeameter_tests.csv",
                  "velocity_readings.csv", "consistency.csv", "flags.csv", "rejected.csv",
-                 "flagged_observations.csv", "field_summary.json", "transect_profiles.png", "bed_flux_map.png", "gradient_vs_flux.png"]:
+                 "flagged_observations.csv", "field_summary.json", "transect_profiles.png", "bed_flux_map.png", "gradient_vs_flux.png",
+                 "logger_readings.csv"]:
         assert (out / name).stat().st_size > 0, name
     assert json.loads((out / "field_summary.json").read_text()) == json.loads(json.dumps(summary))
 
@@ -24,7 +25,7 @@ def test_demo_observation_table(demo):
     out, _ = demo
     obs = pd.read_csv(out / "observations.csv")
     assert list(obs.columns) == ["kind", "x", "depth", "time", "value", "sigma"]
-    assert set(obs["kind"]) <= {"seepage", "vhg", "head", "thermal_flux"}
+    assert set(obs["kind"]) <= {"seepage", "vhg", "head", "thermal_flux", "temperature"}
     assert (obs["sigma"] > 0).all()
     assert (obs.loc[obs["kind"] == "seepage", "depth"] == 0).all()
 

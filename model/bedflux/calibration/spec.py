@@ -4,6 +4,7 @@
 scenario = "reach.toml"            # relative to the fit file
 observations = "field"             # an observations CSV, or a folder of field sheets
 observation_times = ["0 d", "8 d"] # optional: only rows timed inside [a, b] (empty times kept)
+kinds = ["seepage", "vhg"]         # optional: only rows of these kinds (default: every kind)
 pan_diameter = "57 cm"             # seepage-meter footprint (default 0.57 m)
 starts = 3                         # starting points (default 1)
 seed = 1
@@ -33,7 +34,8 @@ from bedflux.scenario.spec import Scenario, load
 from bedflux.forward.sensitivity import FreeParameter, free_parameters
 from bedflux.calibration.display import dimension_of
 
-_KEYS = ["scenario", "observations", "observation_times", "pan_diameter", "starts", "seed", "sample", "free"]
+_KEYS = ["scenario", "observations", "observation_times", "kinds", "pan_diameter", "starts", "seed", "sample",
+         "free"]
 _FREE_KEYS = ["path", "low", "high", "start", "log", "prior", "prior_sd"]
 
 
@@ -53,15 +55,20 @@ class FitSpec:
     sample: int
 
 
-def observations_from(path: Path, source: str) -> pd.DataFrame:
-    """An observation table from a CSV file, or reduced from a folder of field sheets."""
+def observations_from(path: Path, source: str, scenario: Scenario | None = None) -> pd.DataFrame:
+    """An observation table from a CSV file, or reduced from a folder of field sheets.
+
+    From a folder, the rows of logger readings (``temperature``) are kept only when ``scenario``
+    is None or has a ``[heat]`` table: a scenario without heat does not predict them.
+    """
     if path.is_dir():
         from bedflux.field import reduce_field
 
         table = reduce_field(path).observations
         # A folder of sheets may yield kinds the model does not predict; the fit uses the kinds it
         # knows. A CSV table must hold known kinds only.
-        table = table[table["kind"].isin(KINDS)].reset_index(drop=True)
+        known = [k for k in KINDS if k != "temperature" or scenario is None or scenario.heat is not None]
+        table = table[table["kind"].isin(known)].reset_index(drop=True)
         return check_observations(table, f"{path} (field sheets)")
     if not path.exists():
         raise InputError(f"observations '{path}' not found (a CSV table or a folder of field sheets)",
@@ -85,6 +92,26 @@ def within_times(table: pd.DataFrame, window: tuple[float, float] | None, source
     if not keep.any():
         raise InputError(f"no observation is timed inside [{window[0]:g}, {window[1]:g}] s",
                          source=source, where="observation_times")
+    return table[keep].reset_index(drop=True)
+
+
+def of_kinds(table: pd.DataFrame, d: dict, source: str) -> pd.DataFrame:
+    """The rows of ``table`` whose kind the fit file's ``kinds`` lists (every row without it).
+
+    Raises
+    ------
+    InputError
+        Naming ``kinds``: not a list of known kinds, or no row of them left.
+    """
+    if "kinds" not in d:
+        return table
+    kinds = d["kinds"]
+    if not isinstance(kinds, list) or not kinds or any(k not in KINDS for k in kinds):
+        raise InputError(f"kinds must be a list of observation kinds from {', '.join(KINDS)}; got {kinds!r}",
+                         source=source, where="kinds")
+    keep = table["kind"].isin(kinds)
+    if not keep.any():
+        raise InputError(f"no observation of the kinds {', '.join(kinds)} is left", source=source, where="kinds")
     return table[keep].reset_index(drop=True)
 
 
@@ -153,7 +180,8 @@ def load_fit(path: str | Path) -> FitSpec:
     except InputError as err:
         raise err.located(source=source) from None
     scenario = load(path.parent / scen_name)
-    observations = within_times(observations_from(path.parent / obs_name, source), window, source)
+    observations = observations_from(path.parent / obs_name, source, scenario)
+    observations = within_times(of_kinds(observations, d, source), window, source)
     free_si = free_tables(d, source, scenario)
     free = free_parameters(scenario, free_si, source)
     return FitSpec(source, path.parent / scen_name, scenario, check_observations(observations, obs_name, scenario.transient),

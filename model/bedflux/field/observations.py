@@ -2,8 +2,9 @@
 
 kind is ``seepage`` (bed flux, m/s, positive upward, depth 0), ``vhg`` (vertical hydraulic
 gradient, positive upward, at the piezometer opening depth), ``head`` (m, where the manometer
-sheet gives the stage) or ``thermal_flux`` (vertical Darcy flux from a pair of temperature
-sensors, m/s, positive upward, at the pair's mid-depth; time is the window centre). depth is below the bed (m), time is seconds since the campaign origin.
+sheet gives the stage) ``thermal_flux`` (vertical Darcy flux from a pair of temperature
+sensors, m/s, positive upward, at the pair's mid-depth; time is the window centre) or
+``temperature`` (a logger's reading, degC, at its depth and time). depth is below the bed (m), time is seconds since the campaign origin.
 
 Rows of a meter or piezometer whose flag says its value does not stand for the bed (see
 :data:`LEAVE_OUT`) are left out unless asked for; :func:`observation_table` returns them
@@ -39,7 +40,8 @@ def _leave_out_reason(flags: pd.Series) -> pd.Series:
 
 
 def observation_table(meters: pd.DataFrame, piezometers: pd.DataFrame, *, keep_flagged: bool = False,
-                      thermal: pd.DataFrame | None = None) -> tuple[pd.DataFrame, pd.DataFrame]:
+                      thermal: pd.DataFrame | None = None, loggers: pd.DataFrame | None = None
+                      ) -> tuple[pd.DataFrame, pd.DataFrame]:
     """Observations from the per-meter and per-piezometer tables.
 
     Parameters
@@ -51,6 +53,9 @@ def observation_table(meters: pd.DataFrame, piezometers: pd.DataFrame, *, keep_f
     thermal
         The per-window fluxes from temperature (:func:`bedflux.field.temperature.reduce_temperature`);
         windows without a flux (too few readings, or no damping) are not observations.
+    loggers
+        The logger readings (:func:`bedflux.field.loggers.reduce_loggers`): one ``temperature``
+        row each.
 
     Returns
     -------
@@ -86,6 +91,12 @@ def observation_table(meters: pd.DataFrame, piezometers: pd.DataFrame, *, keep_f
             "kind": "thermal_flux", "x": read["x [m]"], "depth": read["mid_depth [m]"], "time": read["time [s]"],
             "value": read["flux [m/s]"], "sigma": read["flux_sd [m/s]"], "site": read["site"],
             "flags": read["flags"],
+        }))
+    if loggers is not None and not loggers.empty:
+        parts.append(pd.DataFrame({
+            "kind": "temperature", "x": loggers["x [m]"], "depth": loggers["depth [m]"],
+            "time": loggers["time [s]"], "value": loggers["temperature [degC]"], "sigma": loggers["sigma [degC]"],
+            "site": loggers["site"], "flags": "",
         }))
     parts = [p for p in parts if not p.empty]
     if not parts:

@@ -24,6 +24,7 @@ from bedflux.field.recovery import add_ln_k_sigma, reduce_permeameter, reduce_sl
 from bedflux.field.seepage import flagged_meters, reduce_seepage
 from bedflux.field.sheets import Rejected, Sheet, read_sheet, reject_unknown_sites
 from bedflux.field.sites import Sites, read_sites
+from bedflux.field.loggers import reduce_loggers
 from bedflux.field.temperature import TemperatureReduction, reduce_temperature
 from bedflux.field.velocity import head_from_velocity, reduce_velocity
 
@@ -150,6 +151,7 @@ class FieldReduction:
     summary: dict
     temperature: TemperatureReduction | None = None
     sites: Sites | None = None
+    loggers: pd.DataFrame | None = None
 
 
 def reduce_field(sheets_dir: str | Path, keep_flagged: bool = False) -> FieldReduction:
@@ -172,6 +174,7 @@ def reduce_field(sheets_dir: str | Path, keep_flagged: bool = False) -> FieldRed
     slug = reduce_slug(sheets["slug"], rejected, flags) if "slug" in sheets else None
     perm = reduce_permeameter(sheets["permeameter"], rejected, flags) if "permeameter" in sheets else None
     temp = reduce_temperature(sheets["temperature"], sites, rejected, flags) if "temperature" in sheets else None
+    loggers = reduce_loggers(sheets["logger"], sites, rejected)[0] if "logger" in sheets else None
     for sheet in sheets.values():
         _check_trust(sheet, rejected, sites)
     between = {"seepage meters": seep.between} if seep else {}
@@ -185,7 +188,7 @@ def reduce_field(sheets_dir: str | Path, keep_flagged: bool = False) -> FieldRed
     perm_k = perm if perm is not None else pd.DataFrame(columns=["site", "kv [m/s]"])
     comparison = compare_methods(meters, piezos, slug_k, perm_k, flags)
     observations, flagged = observation_table(meters, piezos, keep_flagged=keep_flagged,
-                                              thermal=temp.fluxes if temp else None)
+                                              thermal=temp.fluxes if temp else None, loggers=loggers)
 
     left_out = flagged_meters(meters)
     bed_all, reach_all = _reach(meters)
@@ -196,7 +199,7 @@ def reduce_field(sheets_dir: str | Path, keep_flagged: bool = False) -> FieldRed
     if temp is not None:
         summary["temperature"] = thermal_summary(temp, meters if keep_flagged else meters[~left_out], sites)
     return FieldReduction(sheets, seep, mano, slug, perm, velocity, meters, left_out, comparison, observations,
-                          flagged, flags, rejected, not_read, bed, summary, temp, sites)
+                          flagged, flags, rejected, not_read, bed, summary, temp, sites, loggers)
 
 
 def run_field(sheets_dir: str | Path, outdir: str | Path, *, quiet: bool = False,
@@ -254,6 +257,8 @@ def run_field(sheets_dir: str | Path, outdir: str | Path, *, quiet: bool = False
             _write_csv(r.temperature.fluxes, stage / "thermal_flux.csv")
             temperature_records(r.temperature.readings, stage / "temperature_records.png")
             thermal_flux_figure(r.temperature.fluxes, meters, stage / "thermal_flux.png")
+        if r.loggers is not None:
+            _write_csv(r.loggers, stage / "logger_readings.csv")
         if r.bed is not None:
             plots.field_bed_map(r.bed, meters if keep_flagged else meters[~left_out], stage / "bed_flux_map.png")
         if not comparison.empty:

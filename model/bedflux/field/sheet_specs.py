@@ -191,6 +191,14 @@ TEMPERATURE = SheetSpec(
     one_of=(("time", "datetime"),),
 )
 
+#: Single temperature loggers in the bed (columns of the temperature sheet): each reading becomes a
+#: ``temperature`` observation that a scenario with ``[heat]`` predicts.
+LOGGER = SheetSpec(
+    "logger",
+    (Column("site", None, meaning="site id of the logger"),) + TEMPERATURE.columns[1:],
+    one_of=(("time", "datetime"),),
+)
+
 #: File name in the sheets folder -> sheet kind.
 SHEET_FILES: dict[str, SheetSpec] = {
     "sites.csv": SITES,
@@ -200,4 +208,5 @@ SHEET_FILES: dict[str, SheetSpec] = {
     "permeameter.csv": PERMEAMETER,
     "velocity.csv": VELOCITY,
     "temperature.csv": TEMPERATURE,
+    "logger.csv": LOGGER,
 }

@@ -37,7 +37,7 @@ class TemperatureReduction:
     origin: str | None
 
 
-def _times(sheet: Sheet, rejected: Rejected) -> tuple[Sheet, np.ndarray, str | None]:
+def reading_times(sheet: Sheet, rejected: Rejected) -> tuple[Sheet, np.ndarray, str | None]:
     """Seconds since the origin: the ``time`` column, or ``datetime`` since the first day's midnight."""
     if not sheet.has("datetime"):
         return sheet, sheet.numbers["time"], None
@@ -111,7 +111,7 @@ def reduce_temperature(sheet: Sheet, sites: Sites, rejected: Rejected, flags: Fl
         missing = ~np.isfinite(sheet.numbers["time"])
         sheet = reject_where(sheet, missing, "time", "empty cell; 'time' is required (or use a 'datetime' column)",
                              rejected, "empty")
-    sheet, seconds, origin = _times(sheet, rejected)
+    sheet, seconds, origin = reading_times(sheet, rejected)
     sheet.numbers["time"] = seconds
     sheet = reject_duplicates(sheet, ("site", "depth", "time"), rejected)
     readings = pd.DataFrame({

@@ -66,9 +66,10 @@ def write_summary(ds: xr.Dataset, outdir: str | Path, hyporheic: dict | None = N
 
 
 def referenced_files(scenario: Scenario) -> list[str]:
-    """The CSV files a scenario reads (stage and side-head series), relative to its folder."""
+    """The CSV files a scenario reads (stage, side-head and stream-temperature series), relative to
+    its folder."""
     raw = scenario.raw
-    names = [(raw.get("stream") or {}).get("stage_csv")]
+    names = [(raw.get("stream") or {}).get("stage_csv"), (raw.get("heat") or {}).get("temperature_csv")]
     names += [side.get("head_csv") for side in (raw.get("sides") or {}).values() if isinstance(side, dict)]
     return [n for n in names if n]
 

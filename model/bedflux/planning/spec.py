@@ -195,7 +195,7 @@ def load_plan(path: str | Path, output: str | Path | None = None) -> PlanSpec:
             raise err.located(source=source) from None
     existing = None
     if "existing" in d:
-        existing = observations_from(path.parent / str(d["existing"]), source)
+        existing = observations_from(path.parent / str(d["existing"]), source, scen)
     free = free_tables(d, source, scen) if "free" in d or fit is None else None
     return PlanSpec(source, scen, n, target, length, existing, min_spacing, mpt, pan, cand, instruments, free, depths,
                     max_depth, fit, reading_time, logger_max_depth)
