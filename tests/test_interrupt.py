@@ -96,3 +96,20 @@ def test_sigterm_keeps_a_marked_partial_result(tmp_path):
         assert "interrupted" in ds.attrs["partial"]
         assert ds["time"].values[-1] < 20 * 86400
     assert "result.nc" in json.loads((out / "run_manifest.json").read_text())["files"]
+
+
+def test_closed_screen_reader_stops_without_a_traceback(tmp_path):
+    # `bedflux field ... | head` whose reader has gone: the screen summary meets a closed pipe
+    # (EPIPE); the verb says so on stderr and exits 1, and the files it wrote are whole
+    root = Path(__file__).resolve().parents[1]
+    env = {**os.environ, "PYTHONPATH": str(root / "model")}
+    out = tmp_path / "field"
+    read, write = os.pipe()
+    os.close(read)  # nobody reads the screen output
+    proc = subprocess.run([sys.executable, "-m", "bedflux.cli", "field", str(root / "scenarios" / "field"),
+                           "-o", str(out)], stdout=write, stderr=subprocess.PIPE, text=True, env=env, timeout=600)
+    os.close(write)
+    assert proc.returncode == 1, proc.stderr
+    assert "Traceback" not in proc.stderr
+    assert "reader closed" in proc.stderr
+    assert (out / "observations.csv").stat().st_size > 0

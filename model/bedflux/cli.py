@@ -8,6 +8,7 @@ send). Both signals end a transient run the same way: its outputs so far are kep
 from __future__ import annotations
 
 import argparse
+import os
 import signal
 import sys
 import threading
@@ -137,6 +138,12 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         print(f"bedflux {args.verb}: {'stopped by SIGTERM' if _terminations else 'interrupted'}", file=sys.stderr)
         return _interrupt_status()
+    except BrokenPipeError:
+        # the reader of the screen summary stopped (e.g. `| head`): the rest goes nowhere
+        # (Python docs, "Note on SIGPIPE"); files written so far are whole (atomic writes)
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        print(f"bedflux {args.verb}: the screen output's reader closed; stopped", file=sys.stderr)
+        return 1
     finally:
         if in_main:
             signal.signal(signal.SIGTERM, before)

@@ -1,4 +1,5 @@
-"""The flood wave is given by its height: the peak rise of the stage above base.
+"""The flood wave is given by its height, the peak rise of the stage above base, or by
+Cooper & Rorabaugh's N0 (``amplitude``).
 
 Sources:
 - Cooper & Rorabaugh (1963), USGS Water-Supply Paper 1536-J, hydrograph
@@ -70,8 +71,18 @@ def test_with_decay_the_peak_is_still_the_peak_rise(ratio, tp):
     np.testing.assert_allclose(v, cooper_rorabaugh(t, n0, delta), rtol=0, atol=5e-5 * RISE)
 
 
-def test_the_old_amplitude_key_is_refused_with_the_new_one():
-    fw = {"base": BASE, "amplitude": 0.3, "duration": TAU, "decay": "0 1/d"}
+@pytest.mark.parametrize("ratio", [0.0, 0.5, 1.0])
+def test_amplitude_is_cooper_and_rorabaughs_n0(ratio):
+    # the contract's key (shared design.md): amplitude = N0 of the published hydrograph
+    delta = ratio * 2 * np.pi / TAU
+    fw = {"base": BASE, "amplitude": 0.3, "duration": TAU, "decay": delta, "start": "1 d"}
+    t = DAY + np.linspace(-0.1 * TAU, 1.1 * TAU, 20001)
+    np.testing.assert_allclose(stage_of(fw).stream.stage(t), cooper_rorabaugh(t, 0.3, delta), atol=1e-12)
+
+
+@pytest.mark.parametrize("keys", [("peak_rise", "amplitude"), ()])
+def test_the_height_is_given_once(keys):
+    fw = {"base": BASE, "duration": TAU, "decay": "0 1/d", **{k: 0.3 for k in keys}}
     with pytest.raises(bedflux.InputError, match="peak_rise") as err:
         stage_of(fw)
     assert "flood_wave" in str(err.value) and "amplitude" in str(err.value)

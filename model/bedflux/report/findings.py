@@ -36,7 +36,9 @@ _KIND_WORDS = {"seepage": "seepage meter", "vhg": "mini-piezometer (vertical gra
                "manometer": "mini-piezometer", "thermal_flux": "temperature-sensor pair (vertical flux)",
                "logger_pair": "temperature logger pair (vertical flux)"}
 _PROPERTY_WORDS = {"kh": "horizontal conductivity", "kv": "vertical conductivity", "k": "conductivity",
-                   "specific_storage": "specific storage", "specific_yield": "specific yield", "head": "head"}
+                   "specific_storage": "specific storage", "specific_yield": "specific yield", "head": "head",
+                   "thermal_conductivity": "thermal conductivity", "heat_capacity": "grain heat capacity",
+                   "dispersivity": "thermal dispersivity"}
 
 
 @dataclass
@@ -129,6 +131,12 @@ def parameter_value(path: str, value: float) -> str:
         return f"{number(value, 5)} m"
     if prop in ("rate", "max_rate"):
         return f"{number(float(value) * 1000 * DAY)} mm/d"
+    if prop == "thermal_conductivity":
+        return f"{number(value)} W/(m K)"
+    if prop == "heat_capacity":
+        return f"{number(float(value) / 1e6)} MJ/(m3 K)"
+    if prop == "dispersivity":
+        return f"{number(value)} m"
     return number(value)
 
 

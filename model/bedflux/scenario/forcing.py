@@ -112,6 +112,14 @@ class FloodWave:
         omega = 2.0 * np.pi / self.duration
         return float(2.0 / omega * np.arctan2(omega, self.decay))
 
+    @classmethod
+    def from_n0(cls, base: float, n0: float, duration: float, decay: float, start: float) -> "FloodWave":
+        """The wave of Cooper & Rorabaugh's ``N0`` (m): its peak rise is
+        ``N0 exp(-delta s) (1 - cos(omega s))`` at the peak delay ``s``."""
+        omega = 2.0 * np.pi / duration
+        s = 2.0 / omega * np.arctan2(omega, decay)
+        return cls(base, float(n0 * np.exp(-decay * s) * (1.0 - np.cos(omega * s))), duration, decay, start)
+
     @property
     def n0(self) -> float:
         """Cooper & Rorabaugh's N0 (m): half the peak rise when the decay is zero."""

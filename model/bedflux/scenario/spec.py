@@ -524,15 +524,17 @@ def _signal_stage(t: dict, base_dir: Path, grid: GridSpec, t_end: float, clock: 
     elif form == "flood_wave":
         p = checks.table(t, "flood_wave", "[stream]")
         w = "[stream.flood_wave]"
-        if "amplitude" in p:
-            raise InputError("amplitude is not read any more (it was Cooper & Rorabaugh's N0, half the "
-                             "flood's height when decay = 0); give peak_rise = the highest rise of the "
-                             "stage above base, e.g. peak_rise = \"1.2 m\"", where=w)
-        checks.reject_unknown(p, ["base", "peak_rise", "duration", "decay", "start"], where=w)
-        sig = FloodWave(checks.quantity(p, "base", "length", w),
-                        checks.quantity(p, "peak_rise", "length", w, low=0.0, low_inclusive=False),
-                        checks.quantity(p, "duration", "time", w, low=0.0, low_inclusive=False),
-                        _rate(p, "decay", w), checks.quantity(p, "start", "time", w, default=0.0, low=0.0))
+        checks.reject_unknown(p, ["base", "peak_rise", "amplitude", "duration", "decay", "start"], where=w)
+        given = [k for k in ("peak_rise", "amplitude") if k in p]
+        if len(given) != 1:
+            raise InputError("give the flood's height as one of peak_rise (the highest rise of the stage above "
+                             "base) or amplitude (Cooper & Rorabaugh's N0: half the peak rise when decay = 0), "
+                             f"e.g. peak_rise = \"1.2 m\"; found {given or 'neither'}", where=w)
+        height = checks.quantity(p, given[0], "length", w, low=0.0, low_inclusive=False)
+        parts = (checks.quantity(p, "base", "length", w), height,
+                 checks.quantity(p, "duration", "time", w, low=0.0, low_inclusive=False),
+                 _rate(p, "decay", w), checks.quantity(p, "start", "time", w, default=0.0, low=0.0))
+        sig = FloodWave(*parts) if given[0] == "peak_rise" else FloodWave.from_n0(*parts)
     else:
         p = checks.table(t, "wave", "[stream]")
         w = "[stream.wave]"
