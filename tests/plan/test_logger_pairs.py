@@ -33,7 +33,7 @@ from bedflux.field.thermal_properties import SEDIMENTS
 from bedflux.forward.sensitivity import Forward, free_parameters
 from bedflux.planning import plan
 from bedflux.planning.candidates import Instruments, as_observations, check_candidates
-from bedflux.planning.thermal_sigma import logger_flux_sd
+from bedflux.field.logger_pair_spread import logger_flux_sd
 from bedflux.report.findings import pick_text
 
 DAY = 86400.0

@@ -26,6 +26,7 @@ import pandas as pd
 from scipy import optimize, stats
 
 from bedflux.errors import InputError, SolverError
+from bedflux.field.logger_pair_spread import PAIR_DEPTHS, logger_flux_sd
 from bedflux.forward.observe import HAND_DRIVEN_MAX_DEPTH, HEAD_RESOLUTION, SEEPAGE_FLOOR, SEEPAGE_RELATIVE_SD
 from bedflux.forward.observe import DEFAULT_PAN_DIAMETER
 from bedflux.forward.sensitivity import LN10, Forward, free_parameters
@@ -378,6 +379,9 @@ DRIVE_POINT_DEPTHS = (1.0, 3.0)
 def _instrument_words(kind: str, x: float, depth: float) -> str:
     if kind == "seepage":
         return f"a seepage meter near x = {x:.3g} m"
+    if kind == "thermal_flux":
+        return (f"a temperature logger pair at x = {x:.3g} m, sensors {PAIR_DEPTHS[0]:g} and {PAIR_DEPTHS[1]:g} m "
+                "below the bed")
     return f"a piezometer at x = {x:.3g} m, {depth:.2g} m below the bed"
 
 
@@ -387,9 +391,11 @@ def suggest_instrument(forward: Forward, m: np.ndarray, j: int, k: int, info: np
     """The new instrument that most reduces the correlation of parameters ``j`` and ``k``.
 
     Candidates: a seepage meter over every submerged column (scatter ``relative_sd`` of the
-    flux, not below ``floor``) and piezometers at :data:`HAND_DEPTHS` and
+    flux, not below ``floor``), piezometers at :data:`HAND_DEPTHS` and
     :data:`DRIVE_POINT_DEPTHS` below the bed (gradient uncertainty = manometer resolution /
-    depth); the instrument defaults of ``bedflux plan`` (common practice). When the best is
+    depth) and temperature logger pairs at :data:`~bedflux.field.logger_pair_spread.PAIR_DEPTHS`
+    (the flux spread the field reduction would give, infinite where the wave cannot be read); the
+    instrument defaults of ``bedflux plan`` (common practice). When the best is
     deeper than a hand-driven mini-piezometer reaches, the suggestion says that it needs a drive
     point and names the best instrument within reach by hand as well.
     """
@@ -405,6 +411,7 @@ def suggest_instrument(forward: Forward, m: np.ndarray, j: int, k: int, info: np
     t_obs = float(forward.observations["time"].max()) if scen.transient else 0.0
     depths = HAND_DEPTHS + DRIVE_POINT_DEPTHS
     rows = [("seepage", x, 0.0) for x in xs] + [("vhg", x, dep) for dep in depths for x in xs]
+    rows += [("thermal_flux", x, 0.5 * (PAIR_DEPTHS[0] + PAIR_DEPTHS[1])) for x in xs]
     cand = pd.DataFrame({"kind": [r[0] for r in rows], "x": [r[1] for r in rows], "depth": [r[2] for r in rows],
                          "time": t_obs, "value": 0.0, "sigma": 1.0})
     base_z = geo.base
@@ -412,14 +419,17 @@ def suggest_instrument(forward: Forward, m: np.ndarray, j: int, k: int, info: np
     cand = cand[(cand["kind"] == "seepage") | (ground - cand["depth"] > base_z)].reset_index(drop=True)
     probe = _F(forward.scenario, cand, forward.free, forward.pan_diameter)
     d, Jc = probe.predict_and_jacobian(m)
-    sig = np.where(cand["kind"] == "seepage", np.maximum(relative_sd * np.abs(d), floor),
+    kind = cand["kind"].to_numpy()
+    sig = np.where(kind == "seepage", np.maximum(relative_sd * np.abs(d), floor),
                    head_resolution / np.maximum(cand["depth"].to_numpy(), 1e-6))
+    pairs = kind == "thermal_flux"
+    sig[pairs] = logger_flux_sd(d[pairs], *PAIR_DEPTHS)
     corr = np.empty(len(cand))
     for i in range(len(cand)):
         row = Jc[i] / sig[i]
         new = np.linalg.pinv(info + np.outer(row, row), rcond=1e-12) * s2
         corr[i] = abs(new[j, k] / math.sqrt(max(new[j, j] * new[k, k], 1e-300)))
-    by_hand = (cand["kind"] == "seepage").to_numpy() | (cand["depth"].to_numpy() <= HAND_DRIVEN_MAX_DEPTH + 1e-12)
+    by_hand = (kind != "vhg") | (cand["depth"].to_numpy() <= HAND_DRIVEN_MAX_DEPTH + 1e-12)
     best = int(np.argmin(corr))
     r = cand.iloc[best]
     words = _instrument_words(r["kind"], r["x"], r["depth"])

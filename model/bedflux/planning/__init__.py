@@ -1,7 +1,7 @@
 """Planning: where the next seepage meters, piezometers and temperature logger pairs go.
 
-Modules: ``spec`` (the plan file), ``candidates`` (instrument sites), ``thermal_sigma``
-(the error spread of a logger pair), ``fit_start`` (starting from a
+Modules: ``spec`` (the plan file), ``candidates`` (instrument sites; the error spread of a logger
+pair from :mod:`bedflux.field.logger_pair_spread`), ``fit_start`` (starting from a
 fit), ``worth`` (linear Bayesian data worth, greedy selection), ``targets`` (what to pin down),
 ``reading`` (when the instruments are read), ``detect`` (detectability), ``placement``
 (:func:`plan`), ``outputs`` and ``command`` (the ``plan`` verb).

@@ -11,7 +11,7 @@ label and an optional ``sigma`` (SI) that overrides the instrument default:
 - piezometer: vertical gradient uncertainty = head resolution / depth (0.1 mm of head by
   default, e.g. 0.1 mm over 0.3 m: common practice for an inverted U-tube manometer);
 - logger pair: the ``flux_sd`` that the field reduction (amplitude method) would give for the
-  daily wave at the predicted flux (:mod:`bedflux.planning.thermal_sigma`).
+  daily wave at the predicted flux (:mod:`bedflux.field.logger_pair_spread`).
 
 The meter and piezometer defaults live in :mod:`bedflux.forward.observe`, shared with the fit's
 suggestions.
@@ -26,16 +26,15 @@ import pandas as pd
 from bedflux.errors import InputError
 from bedflux.field.thermal import DEFAULT_ACCURACY
 from bedflux.forward.observe import HAND_DRIVEN_MAX_DEPTH, HEAD_RESOLUTION, SEEPAGE_FLOOR, SEEPAGE_RELATIVE_SD
-from bedflux.planning.thermal_sigma import DEFAULT_DAILY_AMPLITUDE, DEFAULT_PERIOD, logger_flux_sd
+from bedflux.field.logger_pair_spread import DEFAULT_DAILY_AMPLITUDE, DEFAULT_PERIOD, PAIR_DEPTHS, logger_flux_sd
 from bedflux.scenario.forcing import Wave
 
 #: Candidate kinds (as written in a table) and the observation kind each becomes.
 KINDS = {"seepage": "seepage", "piezometer": "vhg", "vhg": "vhg", "logger_pair": "thermal_flux"}
 #: Deepest opening for hand-driven mini-piezometers in sand (m; common practice).
 DEFAULT_MAX_DEPTH = HAND_DRIVEN_MAX_DEPTH
-#: Sensor depths of a logger pair below the bed (m): 5 and 15 cm, a 10 cm spacing near the top of
-#: the bed where the daily wave is still well above the sensors' accuracy (common practice).
-DEFAULT_LOGGER_DEPTHS = (0.05, 0.15)
+#: Sensor depths of a logger pair below the bed (m; :data:`bedflux.field.logger_pair_spread.PAIR_DEPTHS`).
+DEFAULT_LOGGER_DEPTHS = PAIR_DEPTHS
 #: Deepest sensor of a logger rod pushed by hand into a sandy bed (m; common practice).
 DEFAULT_LOGGER_MAX_DEPTH = 0.5
 #: Least distance between the two sensors of a pair (m): four times the 5 mm uncertainty of a
@@ -52,7 +51,7 @@ class Instruments:
     head_resolution: float = HEAD_RESOLUTION
     logger_accuracy: float = DEFAULT_ACCURACY
     #: Amplitude (degC) of the stream's daily temperature wave; None: the scenario's wave, else
-    #: :data:`~bedflux.planning.thermal_sigma.DEFAULT_DAILY_AMPLITUDE` (see :meth:`for_scenario`).
+    #: :data:`~bedflux.field.logger_pair_spread.DEFAULT_DAILY_AMPLITUDE` (see :meth:`for_scenario`).
     daily_amplitude: float | None = None
     period: float = DEFAULT_PERIOD
 

@@ -32,6 +32,9 @@ from bedflux.field.periodic import periodic_temperature
 from bedflux.field.thermal import DEFAULT_ACCURACY, flux_from_temperature
 from bedflux.field.thermal_properties import SEDIMENTS, WATER_HEAT_CAPACITY
 
+#: Sensor depths of a logger pair below the bed (m): 5 and 15 cm, a 10 cm spacing near the top of
+#: the bed where the daily wave is still well above the sensors' accuracy (common practice).
+PAIR_DEPTHS = (0.05, 0.15)
 #: Interval between logger readings (s): 15 min (common practice for stream-temperature loggers).
 READING_INTERVAL = 900.0
 #: Half the daily range of the stream temperature when the scenario gives no temperature wave
