@@ -44,10 +44,13 @@ def read_result(path: str | Path) -> xr.Dataset:
         return ds.load()
 
 
-def write_summary(ds: xr.Dataset, outdir: str | Path, hyporheic: dict | None = None) -> dict:
+def write_summary(ds: xr.Dataset, outdir: str | Path, hyporheic: dict | None = None,
+                  refinement: dict | None = None) -> dict:
     """Write summary.txt and summary.json into ``outdir`` (with the exchange events of a
     transient run, also events.csv; with the ``hyporheic`` block of the run's flow paths, its
-    lines before the budget closure); return the summary with its ``text``."""
+    lines before the budget closure; with a ``refinement`` check
+    (:func:`bedflux.outputs.refinement.refinement_check`), its lines last); return the summary
+    with its ``text``."""
     outdir = Path(outdir)
     s, text, table = build_summary(ds)
     if hyporheic is not None:
@@ -57,6 +60,11 @@ def write_summary(ds: xr.Dataset, outdir: str | Path, hyporheic: dict | None = N
         lines = text.splitlines()
         at = next((i for i, line in enumerate(lines) if line.startswith("water budget closure")), len(lines))
         text = "\n".join(lines[:at] + hyporheic_lines(hyporheic) + lines[at:]) + "\n"
+    if refinement is not None:
+        from bedflux.outputs.refinement import refinement_text
+
+        s["refinement_check"] = refinement
+        text = text.rstrip("\n") + "\n" + "\n".join(refinement_text(refinement)) + "\n"
     if table is not None:
         write_with(outdir / "events.csv", lambda tmp: table.to_csv(tmp, index=False))
     write_text(outdir / "summary.txt", text)

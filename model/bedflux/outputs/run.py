@@ -46,8 +46,11 @@ def result_size(scenario: Scenario) -> tuple[int, str]:
     return size, f"{cells:,} cells x {times:,} output time{plural} x {n_vars} variables x 8 bytes"
 
 
-def run_scenario(path: Path, outdir: Path, unit: str = "m/d", quiet: bool = False) -> dict:
-    """Run one scenario file and write its outputs; return the summary with its text."""
+def run_scenario(path: Path, outdir: Path, unit: str = "m/d", quiet: bool = False,
+                 refine: float | None = None) -> dict:
+    """Run one scenario file and write its outputs; return the summary with its text. With
+    ``refine`` (a ratio > 1), run it again on the grid and step refined by it and by its square
+    and add the refinement check (:mod:`bedflux.outputs.refinement`) to the summary."""
     from bedflux.outputs.animation import animate
     from bedflux.outputs.figures import run_figures
     from bedflux.outputs.hyporheic import write_flowpaths
@@ -67,10 +70,36 @@ def run_scenario(path: Path, outdir: Path, unit: str = "m/d", quiet: bool = Fals
             bar.close()
         write_result(ds, stage / "result.nc")
         hyporheic = write_flowpaths(scenario, ds, stage)
-        summary = write_summary(ds, stage, hyporheic=hyporheic)
+        check = None
+        if refine is not None and failure is None:
+            check = _refinement_check(scenario, ds, refine, quiet)
+        summary = write_summary(ds, stage, hyporheic=hyporheic, refinement=check)
         run_figures(ds, stage, unit)
         animate(ds, stage / "animation", unit=unit)
     summary["partial"] = ds.attrs.get("partial", "")
     if failure is not None:
         raise SolverError(f"{failure}. The outputs before that step are in {outdir}/, marked partial") from None
     return summary
+
+
+def _refinement_check(scenario, ds, ratio: float, quiet: bool) -> dict:
+    """The run again on the grid and step refined by ``ratio`` and by ``ratio^2``, compared with
+    ``ds`` (:mod:`bedflux.outputs.refinement`)."""
+    from bedflux.outputs.refinement import refinement_check
+    from bedflux.outputs.summary import build_summary
+    from bedflux.scenario.refinement import refined
+
+    summaries, steps = [build_summary(ds)[0]], [scenario.time.step] if scenario.transient else None
+    for factor in (ratio, ratio**2):
+        finer = refined(scenario, factor)
+        bar = ProgressBar(enabled=not quiet, label=f"refined run (x{factor:.3g})")
+        try:
+            fine = simulate(finer, progress=bar.update if scenario.transient else None)
+        except SolverError as err:
+            return {"ratio": ratio, "failed": f"the run refined by {factor:.3g} failed: {err}"}
+        finally:
+            bar.close()
+        summaries.append(build_summary(fine)[0])
+        if steps is not None:
+            steps.append(finer.time.step)
+    return refinement_check(summaries, ratio, steps)
