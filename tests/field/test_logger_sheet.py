@@ -65,6 +65,25 @@ def test_date_times_count_from_the_first_midnight(tmp_path):
     assert np.allclose(rows["time"], [6 * 3600.0, 86400.0 + 18.5 * 3600.0])
 
 
+def test_date_times_share_the_temperature_sheets_clock(tmp_path):
+    # the rods' sheet starts a day before the loggers: both count from the rods' first midnight
+    # (one campaign clock), and the summary says which
+    sheet = ("site,datetime,depth [cm],temperature [degC]\n"
+             "L1,2026-07-02 06:00,10,13.0\n")
+    folder = _folder(tmp_path, sheet)
+    rods = ["site,datetime,depth [cm],temperature [degC]"]
+    for hour in range(0, 72):
+        day, h = divmod(hour, 24)
+        for depth, amp in ((5, 3.0), (15, 1.5)):
+            value = 14.0 + amp * np.sin(2 * np.pi * (hour - 2 * (depth == 15)) / 24.0)
+            rods.append(f"L1,2026-07-{1 + day:02d} {h:02d}:00,{depth},{value:.2f}")
+    (folder / "temperature.csv").write_text("\n".join(rods) + "\n")
+    r = reduce_field(folder)
+    rows = _temperature_rows(r.observations)
+    assert np.allclose(rows["time"], [86400.0 + 6 * 3600.0])
+    assert r.summary["logger_time_origin"] == r.temperature.origin == "2026-07-01T00:00:00"
+
+
 def test_bad_rows_are_rejected_and_listed(tmp_path):
     sheet = ("site,time [h],depth [cm],temperature [degC]\n"
              "L1,1,10,14.0\n"

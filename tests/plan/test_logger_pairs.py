@@ -326,6 +326,7 @@ def test_zero_logger_spacing_is_refused(tmp_path, capsys):
     ("logger_pair,0.5,0.3,0.05,0.15", ("row 3", "mid-depth of its sensors, 0.1 m")),
     ("logger_pair,0.5,,0.05,", ("row 3", "both shallow_depth and deep_depth")),
     ("logger_pair,0.5,,five,0.15", ("row 3", "shallow_depth", "not a number")),
+    ("logger_pair,0.5,abc,0.05,0.15", ("row 3", "'depth'", "not a number")),  # text, not an empty cell
     ("thermometer,0.5,0.1,,", ("row 3", "seepage, piezometer or logger_pair")),
 ])
 def test_bad_logger_rows_in_a_candidate_table(tmp_path, capsys, row, words):

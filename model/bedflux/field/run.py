@@ -174,7 +174,11 @@ def reduce_field(sheets_dir: str | Path, keep_flagged: bool = False) -> FieldRed
     slug = reduce_slug(sheets["slug"], rejected, flags) if "slug" in sheets else None
     perm = reduce_permeameter(sheets["permeameter"], rejected, flags) if "permeameter" in sheets else None
     temp = reduce_temperature(sheets["temperature"], sites, rejected, flags) if "temperature" in sheets else None
-    loggers = reduce_loggers(sheets["logger"], sites, rejected)[0] if "logger" in sheets else None
+    loggers, logger_origin = reduce_loggers(sheets["logger"], sites, rejected) if "logger" in sheets else (None, None)
+    if logger_origin is not None and temp is not None and temp.origin is not None and temp.origin != logger_origin:
+        # one clock for the campaign: the temperature sheet's date-time origin
+        loggers["time [s]"] += (pd.Timestamp(logger_origin) - pd.Timestamp(temp.origin)).total_seconds()
+        logger_origin = temp.origin
     for sheet in sheets.values():
         _check_trust(sheet, rejected, sites)
     between = {"seepage meters": seep.between} if seep else {}
@@ -198,6 +202,8 @@ def reduce_field(sheets_dir: str | Path, keep_flagged: bool = False) -> FieldRed
                        keep_flagged, reach_all, reach_clean, between, not_read)
     if temp is not None:
         summary["temperature"] = thermal_summary(temp, meters if keep_flagged else meters[~left_out], sites)
+    if logger_origin is not None:
+        summary["logger_time_origin"] = logger_origin
     return FieldReduction(sheets, seep, mano, slug, perm, velocity, meters, left_out, comparison, observations,
                           flagged, flags, rejected, not_read, bed, summary, temp, sites, loggers)
 

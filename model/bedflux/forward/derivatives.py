@@ -25,7 +25,8 @@ class DerivativeRule:
     """How one parameter enters the discrete equations, and so which analytic derivative applies."""
 
     # zone-kh, zone-kv, zone-specific_storage, zone-specific_yield, recharge, riparian, side-head,
-    # leakance, retention-alpha, retention-n (variably saturated runs), numeric (central differences)
+    # leakance, retention-alpha, retention-n (variably saturated runs), thermal-thermal_conductivity,
+    # thermal-heat_capacity, thermal-dispersivity (temperatures only), numeric (central differences)
     name: str
     zone: int = -1
     side: str = ""

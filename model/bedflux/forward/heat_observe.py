@@ -41,7 +41,7 @@ from bedflux.forward.derivatives import DerivativeRule, face_conductance_derivat
 from bedflux.section.discretisation import Section, Term
 from bedflux.section.heat import FlowTangent, HeatOperator, ResidualTangent
 from bedflux.section.heat_run import HeatModel, StepFactors, flow_is_steady, step_plan
-from bedflux.section.steady import solve_steady
+from bedflux.section.steady import SteadySolution
 
 #: Thermal parameter rules (``thermal-`` and the zone property).
 THERMAL_RULES = ("thermal-thermal_conductivity", "thermal-heat_capacity", "thermal-dispersivity")
@@ -49,10 +49,7 @@ THERMAL_RULES = ("thermal-thermal_conductivity", "thermal-heat_capacity", "therm
 
 def require_heat(section: Section, has_temperature: bool, source: str) -> None:
     """Raise unless temperature observations can be predicted for this scenario."""
-    sc = section.scenario
-    if not has_temperature:
-        return
-    if sc.heat is None:
+    if has_temperature and section.scenario.heat is None:
         raise InputError("temperature observations need a [heat] table in the scenario", source=source)
 
 
@@ -98,15 +95,15 @@ def flow_tangent(model: HeatModel, base: FlowTangent, states: list[tuple[float, 
     return FlowTangent(base.conductivity, base.dispersivity, dF, term_flows)
 
 
-def steady_flow_sensitivity(section: Section, rules: list[DerivativeRule], values: list[float]):
-    """The steady flow at t = 0 and its head sensitivities ``dh/dp`` (n x P; zero for parameters
-    without an effect on steady heads: thermal and storage)."""
-    sol = solve_steady(section, 0.0, method="direct")
+def steady_flow_sensitivity(section: Section, sol: SteadySolution, rules: list[DerivativeRule],
+                            values: list[float]) -> np.ndarray:
+    """The head sensitivities ``dh/dp`` of the steady flow ``sol`` (n x P; zero for parameters
+    without an effect on steady heads: thermal and storage), with its factor."""
     P = len(rules)
     if not P:
-        return sol, np.zeros((section.n, 0))
+        return np.zeros((section.n, 0))
     dR = np.column_stack([residual_derivative(section, sol.terms, sol.u, r, v)[0] for r, v in zip(rules, values)])
-    return sol, sol.factor.solve(dR) if np.any(dR) else np.zeros((section.n, P))
+    return sol.factor.solve(dR) if np.any(dR) else np.zeros((section.n, P))
 
 
 class Readings:
@@ -133,16 +130,16 @@ class Readings:
         self._prev = (v1, j1)
 
 
-def observe_temperatures(section: Section, weights: sp.csr_matrix, times: np.ndarray,
+def observe_temperatures(section: Section, sol: SteadySolution, weights: sp.csr_matrix, times: np.ndarray,
                          rules: list[DerivativeRule], values: list[float]) -> tuple[np.ndarray, np.ndarray]:
-    """Model temperatures at the observations of a run with steady flow (``weights`` per unknown,
-    ``times`` in s; zeros in a steady run) and their derivatives with respect to the parameters
-    ``rules`` at their SI ``values`` (n_obs x P)."""
+    """Model temperatures at the observations of a run with steady flow ``sol`` (the flow solve at
+    t = 0 with its factor; ``weights`` per unknown, ``times`` in s, zeros in a steady run) and their
+    derivatives with respect to the parameters ``rules`` at their SI ``values`` (n_obs x P)."""
     sc = section.scenario
     if sc.transient and not flow_is_steady(sc):
         raise ValueError("a run whose flow changes carries its temperatures along the flow (AlongFlow)")
     model = HeatModel(section)
-    sol, s = steady_flow_sensitivity(section, rules, values)
+    s = steady_flow_sensitivity(section, sol, rules, values)
     P = len(rules)
     op = model.operator([(1.0, sol.u, sol.terms)], sol.terms, 0.0)
     base, dstore = thermal_parts(model, rules)

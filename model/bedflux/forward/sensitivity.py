@@ -20,7 +20,9 @@ A variably saturated run (Richards' equation) takes its sensitivities by the dir
 the steps of the base run, one factorization of the converged Newton Jacobian per state shared by
 all parameters (:mod:`bedflux.forward.unsaturated_sensitivity`), for zone ``kh``, ``kv``,
 ``specific_storage`` (``specific_yield``: zero), ``ZONE.retention.alpha`` / ``.n``,
-``recharge.rate`` and ``stream.leakance``.
+``recharge.rate`` and ``stream.leakance``; with temperature observations, also the zone thermal
+properties (``thermal_conductivity``, ``heat_capacity``, ``dispersivity``), in linear and
+variably saturated runs alike.
 
 Parameters without an analytic derivative (for example a layer depth or the stage; and, in a
 variably saturated run, a side head or a riparian rate) fall back to central differences. A
@@ -397,7 +399,7 @@ class Forward:
             if self.has_temperature:
                 values = [p.natural(v) for p, v in zip(self.free, m)]
                 rows, temperatures, state.temperature_columns = self._temperatures(
-                    section, ops, [self.rules[j] for j in carry], [values[j] for j in carry])
+                    section, ops, sol, [self.rules[j] for j in carry], [values[j] for j in carry])
                 d[rows] = temperatures
             return state
         values = [p.natural(v) for p, v in zip(self.free, m)]
@@ -424,7 +426,8 @@ class Forward:
             if state.carried == tuple(analytic):
                 Jsub[rows] = state.temperature_columns
             else:
-                Jsub[rows] = self._temperatures(state.section, state.ops, rules, [values[j] for j in analytic])[2]
+                Jsub[rows] = self._temperatures(state.section, state.ops, state.solution, rules,
+                                                [values[j] for j in analytic])[2]
         J[:, analytic] = Jsub * chain[analytic][None, :]
         return state.predicted.copy(), J
 
@@ -438,12 +441,12 @@ class Forward:
         times = ops.table["time"].to_numpy()[rows] if section.scenario.transient else np.zeros(int(rows.sum()))
         return rows, times
 
-    def _temperatures(self, section: Section, ops: Operators, rules: list[DerivativeRule], values: list[float]
-                      ) -> tuple:
+    def _temperatures(self, section: Section, ops: Operators, sol: SteadySolution, rules: list[DerivativeRule],
+                      values: list[float]) -> tuple:
         """The temperature rows, their simulated values and their derivatives with respect to
-        ``rules`` in a run with steady flow (:mod:`bedflux.forward.heat_observe`)."""
+        ``rules`` in a run with the steady flow ``sol`` (:mod:`bedflux.forward.heat_observe`)."""
         rows, times = self._temperature_times(section, ops)
-        values_, jac = observe_temperatures(section, ops.head_weights[rows], times, rules, values)
+        values_, jac = observe_temperatures(section, sol, ops.head_weights[rows], times, rules, values)
         self.n_sensitivity_solves += len(rules)
         return rows, values_, jac
 

@@ -42,10 +42,7 @@ class UnsaturatedHeat:
         section = system.section
         self.system, self.derivatives = system, derivatives
         self.model = model = HeatModel(section)
-        cells = model.cells
-        solid = (cells.capacity - cells.porosity * WATER_HEAT_CAPACITY) / (1.0 - cells.porosity)
-        model.grain_share = 1.0 - system.soil.theta_s
-        self.grains = model.grain_share * solid
+        model.with_water_content(system.soil.theta_s)
         self.P = len(rules)
         self.base, self.dstore_thermal = thermal_parts(model, rules)
         self.readings = Readings(weights, times, self.P)
@@ -72,7 +69,7 @@ class UnsaturatedHeat:
         model, sys_ = self.model, self.system
         view, terms = sys_.flow_view(ev, forcing)
         volume = model.section.cell_volume
-        model.storage = (ev.props.theta * WATER_HEAT_CAPACITY + self.grains) * volume
+        model.set_water(ev.props.theta)
         model.geometry = HeatGeometry(view, model.cells)
         op = model.operator([(1.0, sys_.head_u(ev.psi), terms)], terms, t1)
         P = self.P

@@ -175,11 +175,13 @@ def check_candidates(df: pd.DataFrame, source: str = "candidates", max_depth: fl
     pairs = (out["kind"] == "logger_pair").to_numpy()
     for col in ("x", "depth") + (("sigma",) if "sigma" in out else ()):
         vals = pd.to_numeric(out[col], errors="coerce")
-        missing = vals.isna().to_numpy().copy()
-        if col == "depth":
-            missing &= ~pairs  # a logger pair's depth follows from its sensors
-        if col != "sigma" and missing.any():
-            i = int(np.flatnonzero(missing)[0])
+        empty = out[col].isna().to_numpy() | (out[col].astype(str).str.strip() == "").to_numpy()
+        # an empty sigma takes the default, an empty depth of a logger pair follows from its sensors;
+        # text is an error everywhere
+        may_be_empty = {"sigma": np.ones(len(out), dtype=bool), "depth": pairs}.get(col, np.zeros(len(out), dtype=bool))
+        bad = vals.isna().to_numpy() & ~(empty & may_be_empty)
+        if bad.any():
+            i = int(np.flatnonzero(bad)[0])
             raise _row_error(f"column '{col}' is empty or not a number", source, i)
         out[col] = vals.astype(float)
     out = _logger_rows(out, source, logger_max_depth)

@@ -65,11 +65,25 @@ class HeatModel:
         self.t_ref = self.spec.groundwater
         self.storage = self.cells.capacity * section.cell_volume  # J/K per metre of width
         #: the grains' share of the bulk heat capacity (``1 - porosity``; ``1 - theta_s`` when
-        #: the water content sets the water's share)
+        #: the water content sets the water's share, :meth:`with_water_content`)
         self.grain_share = 1.0 - self.cells.porosity
+        self._grains: np.ndarray | None = None
         self.factorizations = 0
         self.peclet_max = 0.0
         self.peclet_at = (float("nan"), float("nan"))
+
+    def with_water_content(self, theta_s: np.ndarray) -> None:
+        """Take the bulk heat capacity from the water content from now on (a variably saturated
+        run): ``theta_w rho_w c_w + (1 - theta_s) c_s``, air's capacity neglected; set it for a
+        state with :meth:`set_water`."""
+        cells = self.cells
+        solid = (cells.capacity - cells.porosity * WATER_HEAT_CAPACITY) / (1.0 - cells.porosity)
+        self.grain_share = 1.0 - theta_s
+        self._grains = self.grain_share * solid
+
+    def set_water(self, water: np.ndarray) -> None:
+        """The heat storage (J/K per metre) of the cells with water content ``water``."""
+        self.storage = (water * WATER_HEAT_CAPACITY + self._grains) * self.section.cell_volume
 
     def sources(self, t: float, steady: bool = False) -> dict[str, float]:
         """Source temperatures relative to the groundwater temperature at time ``t``."""
@@ -311,13 +325,12 @@ def _variably_saturated(section: Section, model: HeatModel, method: str, progres
     from bedflux.section.richards_run import run_variably_saturated
     from bedflux.section.richards_steps import soil_water
 
-    solid = (model.cells.capacity - model.cells.porosity * WATER_HEAT_CAPACITY) / (1.0 - model.cells.porosity)
-    grains = (1.0 - soil_water(section.scenario, section).theta_s) * solid
+    model.with_water_content(soil_water(section.scenario, section).theta_s)
     record: dict[float, tuple[np.ndarray, dict, float]] = {}
     current: dict[str, np.ndarray] = {}
 
     def on_state(t0, t1, view, terms, u, water) -> None:
-        model.storage = (water * WATER_HEAT_CAPACITY + grains) * section.cell_volume
+        model.set_water(water)
         model.geometry = HeatGeometry(view, model.cells)
         op = model.operator([(1.0, u, terms)], terms, t1)
         if t1 == 0.0:
