@@ -148,6 +148,8 @@ def test_a_scenario_without_heat_leaves_the_logger_rows_out(tmp_path):
     folder = _folder(tmp_path, _logger_sheet([1, 2, 3]), seepage=True)
     spec = load_fit(_fit_file(tmp_path, folder, "reach_long.toml"))
     assert set(spec.observations["kind"]) == {"seepage"}
+    with pytest.raises(InputError, match=r"only for a scenario with a \[heat\] table"):
+        load_fit(_fit_file(tmp_path, folder, "reach_long.toml", 'kinds = ["temperature"]'))
 
 
 @pytest.mark.parametrize("kinds, message", [('["seepage", "flux"]', "kinds must be a list of observation kinds"),

@@ -111,7 +111,9 @@ def of_kinds(table: pd.DataFrame, d: dict, source: str) -> pd.DataFrame:
                          source=source, where="kinds")
     keep = table["kind"].isin(kinds)
     if not keep.any():
-        raise InputError(f"no observation of the kinds {', '.join(kinds)} is left", source=source, where="kinds")
+        why = ("; temperature rows are read only for a scenario with a [heat] table" if "temperature" in kinds
+               else "")
+        raise InputError(f"no observation of the kinds {', '.join(kinds)} is left{why}", source=source, where="kinds")
     return table[keep].reset_index(drop=True)
 
 
