@@ -126,39 +126,20 @@ def residual_derivative(section: Section, terms: list[Term], u: np.ndarray, rule
     n = section.n
     dR = np.zeros(n)
     dconductance_top = None
-    g = section.grid
     if rule.name in ("zone-kh", "zone-kv", "leakance"):
         for f, dC in zip((section.hfaces, section.vfaces), face_conductance_derivative(section, rule, value)):
             dF = dC * (u[f.lo] - u[f.hi])
             dR -= np.bincount(f.lo, weights=dF, minlength=n)
             dR += np.bincount(f.hi, weights=dF, minlength=n)
-        for t in terms:
-            dconductance = term_conductance_derivative(section, t, rule, value)
-            if dconductance is None:
-                continue
-            dR += np.bincount(t.cells, weights=dconductance * (t.r / t.conductance - u[t.cells]), minlength=n)
-            if t.kind == "stream" and t.face == "top":
-                dconductance_top = dconductance
-        return dR, dconductance_top
-    if rule.name == "recharge":
-        for t in terms:
-            if t.kind == "recharge":
-                dR += np.bincount(t.cells, weights=g.dx[t.column_or_row] if t.width is None else t.width,
-                                  minlength=n)
-        return dR, None
-    if rule.name == "riparian":
-        for t in terms:
-            if t.kind == "evapotranspiration" and value > 0:
-                sel = section.et_zone == rule.zone
-                dR += np.bincount(t.cells[sel], weights=t.inflow(u)[sel] / value, minlength=n)
-        return dR, None
-    if rule.name == "side-head":
-        for t in terms:
-            if t.face == rule.side and t.kind == rule.side:
-                dR += np.bincount(t.cells, weights=t.conductance, minlength=n)
-        return dR, None
-    # storage parameters do not enter the steady residual
-    return dR, None
+    # storage parameters do not enter the steady residual: no term depends on them
+    for t in terms:
+        dinflow = term_inflow_derivative(section, t, u, rule, value)
+        if dinflow is None:
+            continue
+        dR += np.bincount(t.cells, weights=dinflow, minlength=n)
+        if t.kind == "stream" and t.face == "top" and rule.name in ("zone-kh", "zone-kv", "leakance"):
+            dconductance_top = term_conductance_derivative(section, t, rule, value)
+    return dR, dconductance_top
 
 
 def term_inflow_derivative(section: Section, t: Term, u: np.ndarray, rule: DerivativeRule, value: float
