@@ -7,13 +7,20 @@ Differentiating them at the converged states of the base run gives the sensitivi
 the sensitivity equations of an implicit time stepper; both from memory):
 
     steady:     J s = -dF/dp
-    transient:  J_n s_n = -(dF_n/dpsi_{n-1} s_{n-1} + dF_n/dp)
+    transient:  J_n s_n = -(dF_n/dpsi_{n-1} s_{n-1} + dF_n/dp + dF_n/dt0 dt0/dp + dF_n/dt1 dt1/dp)
 
 with ``J`` and ``J_n`` the Newton Jacobians at the converged states (exact derivatives of ``F``:
 upstream Kr with its pressure derivative, Feddes uptake, mixed-form storage). Each state is
-factorised once and the factor serves every parameter. The step sequence and the active sets
-(submerged faces, seepage faces) are those of the base run, so the derivative is that of the branch
-the solution lies on, as in the linear model (:mod:`bedflux.forward.sensitivity`).
+factorised once and the factor serves every parameter. The active sets (submerged faces, seepage
+faces), the branches of the step control and the number of steps are those of the base run, so the
+derivative is that of the branch the solution lies on, as in the linear model
+(:mod:`bedflux.forward.sensitivity`). The lengths of the steps are not fixed: the error control
+(:func:`bedflux.section.richards_steps.run_steps`) picks each from the water content of the last
+steps, so where it, not ``[time] step`` or a stop, sets a step (water content changing fast, as
+where a seepage face drains a bank) the step ends move with the parameters.
+:class:`StepSensitivities` carries their derivatives ``dt0/dp``, ``dt1/dp`` (the run
+differentiates its error estimate at its largest cell) and adds their terms: the storage rate over
+the step length, and the forcing's rate in time.
 
 ``dF/dp`` of each parameter kind with an analytic rule:
 
