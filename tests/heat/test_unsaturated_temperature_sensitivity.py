@@ -14,7 +14,7 @@ Checks:
   the steps and their lengths move with the retention parameters: the Jacobian still agrees with
   central differences of whole runs (Nocedal & Wright 2006, "Numerical Optimization", eq. 8.7:
   truncation O(h^2)), heads beside the face and temperatures, also under a stage pulse (the
-  forcing changes while the step ends move).
+  forcing changes while the step ends move) and where the control rejects a step.
 """
 from __future__ import annotations
 
@@ -140,29 +140,39 @@ PULSE = {"pulse": {"base": 0.05, "peak": 0.15, "start": "1 h", "rise": "4 h", "f
          "leakance": "2 1/d"}
 
 
-def seepage_bank(pulse: bool, alpha: float = RETENTION["alpha"]) -> bedflux.Scenario:
+def seepage_bank(case: str = "drain", alpha: float = RETENTION["alpha"]) -> bedflux.Scenario:
+    """The bank with a side head above the ground at x < 0.25 m (a seepage face forms there):
+    ``drain`` the bank draining; ``pulse`` with a stage pulse in a channel over the face;
+    ``wetting`` a dry bank under a higher side head and heavy recharge, in long steps (the error
+    control rejects a step and retries it shorter)."""
     d = copy.deepcopy(BANK)
-    d["sides"]["left"] = {"head": 0.1}  # above the ground at x < 0.25 m: a seepage face forms there
+    d["sides"]["left"] = {"head": 0.1}
     d["zone"][0]["retention"] = dict(RETENTION, alpha=alpha)
-    if pulse:
+    if case == "pulse":
         d["stream"] = copy.deepcopy(PULSE)
         d["heat"]["stream_temperature"] = 14.0
+    elif case == "wetting":
+        d["sides"]["left"] = {"head": 0.3}
+        d.update(initial={"head": -1.0}, recharge={"rate": "80 mm/d"},
+                 time={"end": "12 h", "step": "3 h", "output_every": "3 h"})
     return bedflux.Scenario.from_dict(d)
 
 
 def test_step_lengths_of_a_draining_bank_move_with_alpha():
     # the premise of the next test: the error control, not [time] step, sets steps here, and their
     # lengths change smoothly with the retention alpha (same number of steps)
-    runs = [bedflux.simulate(seepage_bank(False, a)) for a in (3.6, 3.6 * 1.01)]
+    runs = [bedflux.simulate(seepage_bank("drain", a)) for a in (3.6, 3.6 * 1.01)]
     assert float(np.nanmax(runs[0]["outflow"].sel(term="seepage_face").values)) > 0.0
     lengths = [r["step_length"].values for r in runs]
     assert lengths[0].size == lengths[1].size
     assert np.abs(lengths[0] - lengths[1]).max() > 1.0  # s
 
 
-@pytest.mark.parametrize("pulse", [False, True], ids=["seepage-face", "seepage-face-pulse"])
-def test_seepage_face_jacobian_agrees_with_central_differences(pulse):
-    s = seepage_bank(pulse)
+@pytest.mark.parametrize("case", ["drain", "pulse", "wetting"])
+def test_seepage_face_jacobian_agrees_with_central_differences(case):
+    s = seepage_bank(case)
+    if case == "wetting":  # the premise: a step rejected by the error control
+        assert bedflux.simulate(s).attrs["rejected_steps"] > 0
     obs = pd.concat([OBS, FACE_OBS], ignore_index=True)
     f = Forward(s, obs, free_parameters(s, [FREE[0], FREE[2], FREE[3]]))  # kv, retention alpha and n
     m = f.start()
