@@ -9,7 +9,12 @@ Checks:
   alpha and n, recharge) and thermal ones, in a bank whose water content changes;
 - synthetic-truth recovery (common practice for checking an estimator): a fit of kv and the
   thermal conductivity to noisy loggers generated at known values holds the truth in its 95 %
-  intervals.
+  intervals;
+- where a seepage face drains the bank (a side head above the ground), the error control shortens
+  the steps and their lengths move with the retention parameters: the Jacobian still agrees with
+  central differences of whole runs (Nocedal & Wright 2006, "Numerical Optimization", eq. 8.7:
+  truncation O(h^2)), heads beside the face and temperatures, also under a stage pulse (the
+  forcing changes while the step ends move) and where the control rejects a step.
 """
 from __future__ import annotations
 
@@ -124,3 +129,59 @@ def test_thermal_flux_rows_take_direct_sensitivities():
     assert np.all(scale > 0)
     for sel in (rows, ~rows):  # fluxes and the temperature, each against its own scale
         assert np.all(np.abs(J[sel] - fd[sel]) <= 1e-6 * np.abs(fd[sel]).max(axis=0)[None, :])
+
+
+#: Heads beside the seepage face (x < 1.25 m, where the ground lies below the left head) while
+#: the bank drains.
+FACE_OBS = pd.DataFrame({"kind": "head", "x": [0.25, 0.25, 0.75, 0.75, 1.25], "depth": [0.05, 0.15, 0.05, 0.25, 0.05],
+                         "time": 7200.0, "value": 0.0, "sigma": 0.01})
+#: A stage pulse in a channel over the face (the flow forcing changes within the moving steps).
+PULSE = {"pulse": {"base": 0.05, "peak": 0.15, "start": "1 h", "rise": "4 h", "fall": "6 h"}, "channel": [0.0, 1.0],
+         "leakance": "2 1/d"}
+
+
+def seepage_bank(case: str = "drain", alpha: float = RETENTION["alpha"]) -> bedflux.Scenario:
+    """The bank with a side head above the ground at x < 0.25 m (a seepage face forms there):
+    ``drain`` the bank draining; ``pulse`` with a stage pulse in a channel over the face;
+    ``wetting`` a dry bank under a higher side head and heavy recharge, in long steps (the error
+    control rejects a step and retries it shorter)."""
+    d = copy.deepcopy(BANK)
+    d["sides"]["left"] = {"head": 0.1}
+    d["zone"][0]["retention"] = dict(RETENTION, alpha=alpha)
+    if case == "pulse":
+        d["stream"] = copy.deepcopy(PULSE)
+        d["heat"]["stream_temperature"] = 14.0
+    elif case == "wetting":
+        d["sides"]["left"] = {"head": 0.3}
+        d.update(initial={"head": -1.0}, recharge={"rate": "80 mm/d"},
+                 time={"end": "12 h", "step": "3 h", "output_every": "3 h"})
+    return bedflux.Scenario.from_dict(d)
+
+
+def test_step_lengths_of_a_draining_bank_move_with_alpha():
+    # the premise of the next test: the error control, not [time] step, sets steps here, and their
+    # lengths change smoothly with the retention alpha (same number of steps)
+    runs = [bedflux.simulate(seepage_bank("drain", a)) for a in (3.6, 3.6 * 1.01)]
+    assert float(np.nanmax(runs[0]["outflow"].sel(term="seepage_face").values)) > 0.0
+    lengths = [r["step_length"].values for r in runs]
+    assert lengths[0].size == lengths[1].size
+    assert np.abs(lengths[0] - lengths[1]).max() > 1.0  # s
+
+
+@pytest.mark.parametrize("case", ["drain", "pulse", "wetting"])
+def test_seepage_face_jacobian_agrees_with_central_differences(case):
+    s = seepage_bank(case)
+    if case == "wetting":  # the premise: a step rejected by the error control
+        assert bedflux.simulate(s).attrs["rejected_steps"] > 0
+    obs = pd.concat([OBS, FACE_OBS], ignore_index=True)
+    f = Forward(s, obs, free_parameters(s, [FREE[0], FREE[2], FREE[3]]))  # kv, retention alpha and n
+    m = f.start()
+    _, J = f.predict_and_jacobian(m)
+    assert f.n_forward_runs == 1
+    fd = f.jacobian_fd(m, step=1e-5)
+    for kind in ("temperature", "head"):  # each kind against its own column scale
+        rows = (obs["kind"] == kind).to_numpy()
+        scale = np.abs(fd[rows]).max(axis=0)
+        assert np.all(scale > 0)
+        error = np.abs(J[rows] - fd[rows]).max(axis=0)
+        assert np.all(error <= 1e-6 * scale), (kind, error / scale)

@@ -17,8 +17,10 @@ The section is invented: a channel with a rising bank, a van Genuchten aquifer a
 exponential-model lens whose edges cut through cells (volume-fraction conductivities), recharge on
 the exposed ground, a bed leakance; the transient cases add a stage pulse that stays below the bank
 and one that floods the lower bank. After a column floods the steps restart short and grow again
-after easy steps, so the step sequence (held fixed by the direct method) may change with a
-parameter: that case is checked by central differences with a small step only. Observations:
+after easy steps (a count of Newton iterations, a branch the direct method holds fixed), so the
+step sequence may change with a parameter: that case is checked by central differences with a
+small step only. (Step lengths the error control sets move smoothly with the parameters and are
+differentiated: tests/heat/test_unsaturated_temperature_sensitivity.py.) Observations:
 tensiometer and piezometer heads above and below the water table, a vertical gradient under the
 channel and seepage-meter fluxes, at times between the forcing's breakpoints.
 """

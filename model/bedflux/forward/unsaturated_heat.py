@@ -62,10 +62,13 @@ class UnsaturatedHeat:
         return FlowTangent(self.base.conductivity, self.base.dispersivity, dF, flows)
 
     def state(self, t0: float, t1: float, ev: Evaluation, forcing: StepForcing, s: np.ndarray,
-              term_flows: list[np.ndarray] | None, steady: bool) -> None:
+              term_flows: list[np.ndarray] | None, steady: bool,
+              times: tuple[np.ndarray, np.ndarray] | None = None) -> None:
         """Heat at the state ``ev`` reached at ``t1`` (from ``t0``; ``t1 = 0``: the start, ``steady``
         for a steady run), with the pressure-head sensitivities ``s`` and the explicit boundary
-        flow derivatives ``term_flows`` (None without parameters)."""
+        flow derivatives ``term_flows`` (None without parameters). ``times``: the derivatives of
+        ``t0`` and ``t1`` where the step's ends move with the parameters (the flow's error control):
+        the step ``G = C1 (T1 - T0)/dt + A1 T1 - b(t1)`` then adds ``-dG/dt0 dt0/dp - dG/dt1 dt1/dp``."""
         model, sys_ = self.model, self.system
         view, terms = sys_.flow_view(ev, forcing)
         volume = model.section.cell_volume
@@ -92,6 +95,21 @@ class UnsaturatedHeat:
                     ev.props.capacity[:, None] * s + self.derivatives.water_content(ev))
                 rhs = (model.storage / dt)[:, None] * self.sigma - dstore * ((theta1 - self.theta) / dt)[:, None]
                 rhs += ResidualTangent(op, tangent, P)(theta1, model.sources(t1))
+                if times is not None:
+                    rhs -= self._time_derivatives(op, theta1, t0, t1, *times)
                 self.sigma = factor.solve(rhs)
             self.theta = theta1
         self.readings.record(t0, t1, self.theta, self.sigma)
+
+    def _time_derivatives(self, op, theta1: np.ndarray, t0: float, t1: float, dt0: np.ndarray,
+                          dt1: np.ndarray) -> np.ndarray:
+        """``dG/dt0 dt0/dp + dG/dt1 dt1/dp`` of a backward-Euler heat step (cells x parameters);
+        the sources' rate by central differences in time."""
+        dt = t1 - t0
+        store = self.model.storage * (theta1 - self.theta) / (dt * dt)
+        out = np.outer(store, dt0) - np.outer(store, dt1)
+        if np.any(dt1 != 0.0):
+            delta = 1e-3 * dt
+            db = (op.rhs(self.model.sources(t1 + delta)) - op.rhs(self.model.sources(t1 - delta))) / (2.0 * delta)
+            out -= np.outer(db, dt1)
+        return out

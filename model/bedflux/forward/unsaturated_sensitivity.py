@@ -7,13 +7,20 @@ Differentiating them at the converged states of the base run gives the sensitivi
 the sensitivity equations of an implicit time stepper; both from memory):
 
     steady:     J s = -dF/dp
-    transient:  J_n s_n = -(dF_n/dpsi_{n-1} s_{n-1} + dF_n/dp)
+    transient:  J_n s_n = -(dF_n/dpsi_{n-1} s_{n-1} + dF_n/dp + dF_n/dt0 dt0/dp + dF_n/dt1 dt1/dp)
 
 with ``J`` and ``J_n`` the Newton Jacobians at the converged states (exact derivatives of ``F``:
 upstream Kr with its pressure derivative, Feddes uptake, mixed-form storage). Each state is
-factorised once and the factor serves every parameter. The step sequence and the active sets
-(submerged faces, seepage faces) are those of the base run, so the derivative is that of the branch
-the solution lies on, as in the linear model (:mod:`bedflux.forward.sensitivity`).
+factorised once and the factor serves every parameter. The active sets (submerged faces, seepage
+faces), the branches of the step control and the number of steps are those of the base run, so the
+derivative is that of the branch the solution lies on, as in the linear model
+(:mod:`bedflux.forward.sensitivity`). The lengths of the steps are not fixed: the error control
+(:func:`bedflux.section.richards_steps.run_steps`) picks each from the water content of the last
+steps, so where it, not ``[time] step`` or a stop, sets a step (water content changing fast, as
+where a seepage face drains a bank) the step ends move with the parameters.
+:class:`StepSensitivities` carries their derivatives ``dt0/dp``, ``dt1/dp`` (the run
+differentiates its error estimate at its largest cell) and adds their terms: the storage rate over
+the step length, and the forcing's rate in time.
 
 ``dF/dp`` of each parameter kind with an analytic rule:
 
@@ -309,6 +316,59 @@ def observation_jacobian(system: RichardsSystem, derivs: ResidualDerivatives, op
     return out
 
 
+class StepSensitivities:
+    """The direct method along the steps of :func:`bedflux.section.richards_steps.run_steps`
+    (its :class:`~bedflux.section.richards_steps.StepTangent`): per candidate step
+
+        J_n s_n = -(dF_n/dpsi_{n-1} s_{n-1} + dF_n/dp + dF_n/dt0 dt0/dp + dF_n/dt1 dt1/dp)
+
+    where the step's start and end move with the parameters (the error control picks step lengths
+    from the water content): ``dF/dt1 = -storage_rate / dt + d(-inflow)/dt1`` and
+    ``dF/dt0 = storage_rate / dt + d(-inflow)/dt0``, the forcing's parts by central differences
+    in time of the residual at the step's pressure heads and active set."""
+
+    def __init__(self, system: RichardsSystem, boundaries: SectionBoundaries, derivs: ResidualDerivatives,
+                 solver: JacobianSolver, counts: Counts, ev: Evaluation, s: np.ndarray, flows):
+        self.system, self.boundaries, self.derivs = system, boundaries, derivs
+        self.solver, self.counts = solver, counts
+        self.s, self.flows = s, flows
+        self.theta_derivative = self._theta_derivative(ev, s)
+        self.dt0 = self.dt1 = np.zeros(derivs.n_params)
+        self._candidate = None
+
+    def _theta_derivative(self, ev: Evaluation, s: np.ndarray) -> np.ndarray:
+        return ev.props.capacity[:, None] * s + self.derivs.water_content(ev)
+
+    def _forcing_rate(self, psi: np.ndarray, state, t0: float, t1: float, end: bool) -> np.ndarray:
+        """``d(-inflow)/dt`` of the step's end (``end``) or start at fixed pressure heads."""
+        delta = 1e-3 * (t1 - t0)
+        res = []
+        for sign in (1.0, -1.0):
+            a, b = (t0, t1 + sign * delta) if end else (t0 + sign * delta, t1)
+            res.append(self.system.evaluate(psi, self.boundaries.forcing(a, b, state, steady=False), None).residual)
+        return (res[0] - res[1]) / (2.0 * delta)
+
+    def step(self, out, forcing: StepForcing, storage: Storage, state, t0: float, t1: float,
+             dt0: np.ndarray, dt1: np.ndarray) -> np.ndarray:
+        ev1 = out.evaluation
+        derivs = self.derivs
+        flows = derivs.term_flows(ev1, forcing)
+        rhs = (derivs.inflow(ev1, forcing, flows) - derivs.storage_rate(ev1, storage)
+               - derivs.lag(ev1, storage)[:, None] * self.s)
+        for dt, end in ((dt1, True), (dt0, False)):
+            if np.any(dt != 0.0):
+                sign = -1.0 if end else 1.0
+                rate = sign * ev1.storage_rate / storage.dt + self._forcing_rate(ev1.psi, state, t0, t1, end)
+                rhs -= np.outer(rate, dt)
+        s = _solve(self.solver, self.system.jacobian(ev1, forcing, storage, newton=True), rhs, self.counts)
+        theta = self._theta_derivative(ev1, s)
+        self._candidate = (s, flows, theta, dt0, dt1)
+        return theta
+
+    def accept(self) -> None:
+        self.s, self.flows, self.theta_derivative, self.dt0, self.dt1 = self._candidate
+
+
 def run_with_sensitivities(section: Section, ops: Operators, rules: list[DerivativeRule], values: list[float],
                            source: str = "observations") -> tuple[np.ndarray, np.ndarray, Counts]:
     """Predicted observations of a variably saturated run and their derivatives with respect to
@@ -361,16 +421,16 @@ def run_with_sensitivities(section: Section, ops: Operators, rules: list[Derivat
     if later.size:
         stops, flooding = _stops(section, later)
 
+        tangent = StepSensitivities(system, boundaries, derivs, sens_solver, counts, ev, current["s"],
+                                    current["flows"]) if P else None
+
         def on_step(out, forcing, storage, t0, t1) -> float:
-            if P:
-                ev1 = out.evaluation
-                flows = derivs.term_flows(ev1, forcing)
-                rhs = (derivs.inflow(ev1, forcing, flows) - derivs.storage_rate(ev1, storage)
-                       - derivs.lag(ev1, storage)[:, None] * current["s"])
-                current["s"] = _solve(sens_solver, system.jacobian(ev1, forcing, storage, newton=True), rhs, counts)
-                current["flows"] = flows
+            if tangent is not None:
+                current["s"], current["flows"] = tangent.s, tangent.flows
             if heat is not None:
-                heat.state(t0, t1, out.evaluation, forcing, current["s"], current["flows"], steady=False)
+                moving = None if tangent is None else (tangent.dt0, tangent.dt1)
+                heat.state(t0, t1, out.evaluation, forcing, current["s"], current["flows"], steady=False,
+                           times=moving)
             return 0.0
 
         def on_stop(out, forcing, t) -> None:
@@ -378,7 +438,8 @@ def run_with_sensitivities(section: Section, ops: Operators, rules: list[Derivat
             if abs(later[i] - t) <= 1e-9 * max(t, 1.0):
                 observe(out.evaluation, forcing, current["s"], float(later[i]), current["flows"])
 
-        run_steps(stepper, ev.psi, state, stops, sc.time.step, on_step, on_stop, restarts=flooding)
+        run_steps(stepper, ev.psi, state, stops, sc.time.step, on_step, on_stop, restarts=flooding,
+                  tangent=tangent)
     if heat is not None:
         d[rows] = heat.values
         J[rows] = heat.jacobian

@@ -29,7 +29,7 @@ rate of water content jumps there), and it then grows with the error estimate.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Callable
+from typing import Callable, Protocol
 
 import numpy as np
 
@@ -331,63 +331,107 @@ class Stepper:
         return psi
 
 
+class StepTangent(Protocol):
+    """Sensitivities carried along :func:`run_steps` (the direct method of
+    :mod:`bedflux.forward.unsaturated_sensitivity`): the step lengths the error control picks
+    depend on the parameters through the water content, so the run passes the derivatives of
+    each step's start and end times with its candidate states."""
+
+    #: ``d(theta)/dp`` of the current (last accepted) state, cells x parameters.
+    theta_derivative: np.ndarray
+
+    def step(self, out: Outcome, forcing: StepForcing, storage: Storage, state: ActiveSet, t0: float, t1: float,
+             dt0: np.ndarray, dt1: np.ndarray) -> np.ndarray:
+        """Sensitivities of a candidate step from ``t0`` to ``t1`` (``dt0``, ``dt1``: their
+        derivatives); returns ``d(theta)/dp`` of its end state."""
+
+    def accept(self) -> None:
+        """The last candidate step is accepted: it becomes the current state."""
+
+
 def run_steps(stepper: Stepper, psi: np.ndarray, state: ActiveSet, stops: np.ndarray, dt_max: float,
               on_step: Callable[[Outcome, StepForcing, Storage, float, float], float],
               on_stop: Callable[[Outcome, StepForcing, float], None],
               progress: Callable[[float], None] | None = None,
-              restarts: np.ndarray | None = None) -> list[StepRecord]:
+              restarts: np.ndarray | None = None, tangent: StepTangent | None = None) -> list[StepRecord]:
     """Adaptive backward-Euler steps through the ``stops`` (output times and breakpoints, sorted,
     after t = 0). ``on_step`` sees every accepted step and returns its budget closure;
     ``on_stop`` sees the state at every stop. At the stops listed in ``restarts`` the next step
     restarts short (:data:`RESTART_STEP`); the local error per step is held near
-    :data:`THETA_TOLERANCE` (see the module doc)."""
+    :data:`THETA_TOLERANCE` (see the module doc).
+
+    With a ``tangent`` every candidate step is passed to it with the derivatives of its start and
+    end times: the step lengths are differentiated through the error control (the largest local
+    error's cell, the clamps and branches taken), so the sensitivities are those of the run as
+    stepped, whose step lengths move with the parameters. The steps themselves do not change.
+    """
     restarts = np.zeros(0) if restarts is None else np.asarray(restarts)
     records: list[StepRecord] = []
     t = 0.0
     dt = dt_max
     end = float(stops[-1])
     dt_min = MIN_STEP_FRACTION * dt_max
-    # the last accepted step's water content rate, length and pressure head rate
-    last: tuple[np.ndarray, float, np.ndarray] | None = None
+    P = 0 if tangent is None else tangent.theta_derivative.shape[1]
+    # derivatives of t and of the proposed step length
+    d_t = d_dt = np.zeros(P)
+    # the last accepted step's water content rate, length and pressure head rate, and the
+    # derivatives of the rate and the length
+    last: tuple[np.ndarray, float, np.ndarray, np.ndarray, np.ndarray] | None = None
     for stop in stops:
         while t < stop - 1e-9 * max(stop, 1.0):
-            h = min(dt, stop - t)
+            h, d_h = (dt, d_dt) if dt <= stop - t else (stop - t, -d_t)
             if stop - (t + h) < 0.05 * h:
                 # no sliver before the stop: stretch up to the longest step, else halve the rest
-                h = stop - t if stop - t <= dt_max else 0.5 * (stop - t)
+                h, d_h = (stop - t, -d_t) if stop - t <= dt_max else (0.5 * (stop - t), -0.5 * d_t)
             guess = None if last is None else psi + h * last[2]  # linear predictor
             out, forcing, storage, new_state = stepper.solve_step(psi, t, t + h, state, guess)
             if not out.converged:
-                dt = h * CUT
+                dt, d_dt = h * CUT, d_h * CUT
                 if dt < dt_min:
                     raise SolverError(f"the variably saturated step from t = {t:g} s did not converge even at "
                                       f"{h:.3g} s; refine the grid or shorten [time] step")
                 continue
+            at_stop = h == stop - t
+            d_t1 = np.zeros(P) if at_stop else d_t + d_h
             rate = (out.evaluation.props.theta - storage.theta0) / h
+            d_rate = None
+            if tangent is not None:
+                dtheta = tangent.step(out, forcing, storage, new_state, t, t + h, d_t, d_t1)
+                d_rate = (dtheta - tangent.theta_derivative) / h - np.outer(rate, d_h / h)
+            d_grow = np.zeros(P)
             if last is None:
                 grow = GROWTH if out.iterations <= EASY_ITERATIONS else 1.0
             else:
-                error = local_error(rate, h, *last[:2])
+                error, d_error = local_error_tangent(rate, h, last[0], last[1], d_rate, d_h, last[3], last[4])
                 grow = SAFETY * np.sqrt(THETA_TOLERANCE / error) if error > 0.0 else MAX_GROWTH
+                if error > 0.0:
+                    d_grow = -0.5 * grow * d_error / error
                 if error > REJECT * THETA_TOLERANCE and h > RESTART_STEP * MIN_ERROR_STEP:
                     stepper.rejected += 1
-                    dt = h * max(grow, CUT)
+                    dt, d_dt = (h * grow, d_h * grow + h * d_grow) if grow > CUT else (h * CUT, d_h * CUT)
                     continue
-                grow = min(grow, MAX_GROWTH)
-            t1 = stop if h == stop - t else t + h
+                if grow > MAX_GROWTH:
+                    grow, d_grow = MAX_GROWTH, np.zeros(P)
+            t1 = stop if at_stop else t + h
+            if tangent is not None:
+                tangent.accept()
             closure = on_step(out, forcing, storage, t, t1)
             records.append(StepRecord(t1, h, out.iterations, closure))
-            last = (rate, h, (out.psi - psi) / h)
-            psi, state, t = out.psi, new_state, t1
-            if out.iterations > HARD_ITERATIONS:
-                grow = min(grow, SHRINK)
+            last = (rate, h, (out.psi - psi) / h, d_rate, d_h)
+            psi, state, t, d_t = out.psi, new_state, t1, d_t1
+            if out.iterations > HARD_ITERATIONS and grow > SHRINK:
+                grow, d_grow = SHRINK, np.zeros(P)
             # a step cut short by a stop does not hold back the next
-            dt = min(max(h * grow, dt if h < dt and grow >= 1.0 else 0.0), dt_max)
+            longer, d_longer = h * grow, d_h * grow + h * d_grow
+            if h < dt and grow >= 1.0 and dt > longer:
+                longer, d_longer = dt, d_dt
+            dt, d_dt = (longer, d_longer) if longer <= dt_max else (dt_max, np.zeros(P))
             if progress is not None:
                 progress(t / end)
         on_stop(out, forcing, t)
         if restarts.size and np.min(np.abs(restarts - t)) <= 1e-9 * max(t, 1.0):
-            dt = min(dt, RESTART_STEP)
+            if dt > RESTART_STEP:
+                dt, d_dt = RESTART_STEP, np.zeros(P)
             last = None
     return records
 
@@ -397,3 +441,18 @@ def local_error(rate: np.ndarray, h: float, last_rate: np.ndarray, last_h: float
     ``h^2 / 2 |theta''|`` with ``theta''`` from the rates of this step and the last,
     ``2 (rate - last_rate) / (h + last_h)`` (Kavetski, Binning & Sloan 2001)."""
     return float(h * h * np.max(np.abs(rate - last_rate)) / (h + last_h))
+
+
+def local_error_tangent(rate: np.ndarray, h: float, last_rate: np.ndarray, last_h: float,
+                        d_rate: np.ndarray | None, d_h: np.ndarray, d_last_rate: np.ndarray | None,
+                        d_last_h: np.ndarray) -> tuple[float, np.ndarray]:
+    """:func:`local_error` and its derivative (at the cell of the largest error) from the
+    derivatives of the rates (cells x parameters; None: no parameters) and of the step lengths."""
+    change = rate - last_rate
+    k = int(np.argmax(np.abs(change)))
+    error = local_error(rate, h, last_rate, last_h)
+    if d_rate is None or d_last_rate is None:
+        return error, np.zeros(d_h.size)
+    d_error = (error * (2.0 * d_h / h - (d_h + d_last_h) / (h + last_h))
+               + h * h * np.sign(change[k]) * (d_rate[k] - d_last_rate[k]) / (h + last_h))
+    return error, d_error
