@@ -10,9 +10,9 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from bedflux.field.sheets import Rejected, Sheet, reject_duplicates, reject_where
+from bedflux.field.sheets import Rejected, Sheet
 from bedflux.field.sites import Sites
-from bedflux.field.temperature import reading_times
+from bedflux.field.temperature import timed_readings
 from bedflux.field.thermal import DEFAULT_ACCURACY
 
 COLUMNS = ["site", "x [m]", "depth [m]", "time [s]", "temperature [degC]", "accuracy [degC]", "sigma [degC]"]
@@ -32,13 +32,7 @@ def reduce_loggers(sheet: Sheet, sites: Sites, rejected: Rejected) -> tuple[pd.D
     origin
         The date-time origin of a ``datetime`` column (its first day's midnight), else None.
     """
-    if sheet.has("time"):
-        missing = ~np.isfinite(sheet.numbers["time"])
-        sheet = reject_where(sheet, missing, "time", "empty cell; 'time' is required (or use a 'datetime' column)",
-                             rejected, "empty")
-    sheet, seconds, origin = reading_times(sheet, rejected)
-    sheet.numbers["time"] = seconds
-    sheet = reject_duplicates(sheet, ("site", "depth", "time"), rejected)
+    sheet, origin = timed_readings(sheet, rejected)
     accuracy = np.where(np.isfinite(sheet.numbers["accuracy"]), sheet.numbers["accuracy"], DEFAULT_ACCURACY)
     x = np.array([sites.x[sites.index(s)] for s in sheet.texts["site"]], dtype=float)
     readings = pd.DataFrame({

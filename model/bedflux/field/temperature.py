@@ -37,7 +37,21 @@ class TemperatureReduction:
     origin: str | None
 
 
-def reading_times(sheet: Sheet, rejected: Rejected) -> tuple[Sheet, np.ndarray, str | None]:
+def timed_readings(sheet: Sheet, rejected: Rejected) -> tuple[Sheet, str | None]:
+    """The readings of a temperature or logger sheet with ``time`` in seconds since the origin,
+    rows without a readable time and repeats of (site, depth, time) rejected and listed; and the
+    date-time origin (None for elapsed times)."""
+    if sheet.has("time"):
+        missing = ~np.isfinite(sheet.numbers["time"])
+        sheet = reject_where(sheet, missing, "time", "empty cell; 'time' is required (or use a 'datetime' column)",
+                             rejected, "empty")
+    sheet, seconds, origin = _reading_times(sheet, rejected)
+    sheet.numbers["time"] = seconds
+    sheet = reject_duplicates(sheet, ("site", "depth", "time"), rejected)
+    return sheet, origin
+
+
+def _reading_times(sheet: Sheet, rejected: Rejected) -> tuple[Sheet, np.ndarray, str | None]:
     """Seconds since the origin: the ``time`` column, or ``datetime`` since the first day's midnight."""
     if not sheet.has("datetime"):
         return sheet, sheet.numbers["time"], None
@@ -107,13 +121,7 @@ def reduce_temperature(sheet: Sheet, sites: Sites, rejected: Rejected, flags: Fl
         site, x, shallow and deep depth, mid_depth, mid_elevation, time, flux, flux_sd, flags,
         then the three methods' fluxes, amplitudes, ratio, lag and implied diffusivity.
     """
-    if sheet.has("time"):
-        missing = ~np.isfinite(sheet.numbers["time"])
-        sheet = reject_where(sheet, missing, "time", "empty cell; 'time' is required (or use a 'datetime' column)",
-                             rejected, "empty")
-    sheet, seconds, origin = reading_times(sheet, rejected)
-    sheet.numbers["time"] = seconds
-    sheet = reject_duplicates(sheet, ("site", "depth", "time"), rejected)
+    sheet, origin = timed_readings(sheet, rejected)
     readings = pd.DataFrame({
         "site": sheet.texts["site"], "depth": sheet.numbers["depth"], "time": sheet.numbers["time"],
         "temperature": sheet.numbers["temperature"], "accuracy": sheet.numbers["accuracy"],
