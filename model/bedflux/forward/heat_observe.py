@@ -173,33 +173,28 @@ def observe_temperatures(section: Section, sol: SteadySolution, weights: sp.csr_
     return readings.values + t_ref, readings.jacobian
 
 
-def _start(model: HeatModel, op: HeatOperator, dresidual, P: int) -> tuple[np.ndarray, np.ndarray]:
+def _start(model: HeatModel, op: HeatOperator, dresidual, P: int, steady: bool = False
+           ) -> tuple[np.ndarray, np.ndarray]:
     """Temperatures and sensitivities at t = 0: ``[heat] initial`` (uniform, no sensitivity) or
-    the steady temperature of the t = 0 forcing."""
+    the steady temperature of the t = 0 forcing (of a steady run's forcing when ``steady``)."""
     n = model.section.n
-    if model.spec.initial is not None:
+    if model.spec.initial is not None and not steady:
         return np.full(n, model.spec.initial - model.t_ref), np.zeros((n, P))
-    sources = model.sources(0.0)
+    sources = model.sources(0.0, steady=steady)
     factor = model.factor(op.A)
     theta = factor.solve(op.rhs(sources))
     return theta, (factor.solve(dresidual(theta, sources)) if P else np.zeros((n, P)))
 
 
-class AlongFlow:
-    """Temperatures and their sensitivities in a run whose flow changes: heat after every flow
-    step, as :func:`bedflux.section.heat_run.heat_along_flow` runs it, carried with the head
-    sensitivities of both ends of each step.
+class HeatCarrier:
+    """Temperatures and their sensitivities carried with a flow run whose states change, a
+    backward-Euler heat step after each flow step; the readings at the loggers are in
+    :attr:`values` (degC) and :attr:`jacobian` (per SI parameter)."""
 
-    Drive it with :meth:`start` (the flow at t = 0) and :meth:`step` (each flow step); the
-    readings are then in :attr:`values` (degC) and :attr:`jacobian` (per SI parameter).
-    """
-
-    def __init__(self, section: Section, weights: sp.csr_matrix, times: np.ndarray,
-                 rules: list[DerivativeRule], values: list[float]):
-        self.model = HeatModel(section)
-        self.rules, self.param_values = rules, values
+    def __init__(self, model: HeatModel, weights: sp.csr_matrix, times: np.ndarray, rules: list[DerivativeRule]):
+        self.model = model
         self.P = len(rules)
-        self.base, self.dstore = thermal_parts(self.model, rules)
+        self.base, self.dstore = thermal_parts(model, rules)
         self.readings = Readings(weights, times, self.P)
         self.theta = self.sigma = None
 
@@ -211,28 +206,55 @@ class AlongFlow:
     def jacobian(self) -> np.ndarray:
         return self.readings.jacobian
 
+    def begin(self, op: HeatOperator, tangent: FlowTangent | None, steady: bool = False) -> None:
+        """The start (t = 0) with the operator of the flow there."""
+        dresidual = ResidualTangent(op, tangent, self.P) if self.P else None
+        self.theta, self.sigma = _start(self.model, op, dresidual, self.P, steady)
+        self.readings.record(0.0, 0.0, self.theta, self.sigma)
+
+    def advance(self, op: HeatOperator, t0: float, t1: float, tangent: FlowTangent | None,
+                dstore: np.ndarray, correction=None) -> None:
+        """One backward-Euler heat step from ``t0`` to ``t1`` with the operator of the step's
+        flows, its tangent and ``d(storage)/dp``; ``correction(theta1)`` is subtracted from the
+        sensitivity's right-hand side (None: nothing)."""
+        model, dt = self.model, t1 - t0
+        factor = model.factor(model.step_matrix(op, dt, 1.0))
+        theta1, _, _ = model.step(op, factor, self.theta, t0, t1, 1.0)
+        if self.P:
+            rhs = (model.storage / dt)[:, None] * self.sigma - dstore * ((theta1 - self.theta) / dt)[:, None]
+            rhs += ResidualTangent(op, tangent, self.P)(theta1, model.sources(t1))
+            if correction is not None:
+                rhs -= correction(theta1)
+            self.sigma = factor.solve(rhs)
+        self.theta = theta1
+        self.readings.record(t0, t1, self.theta, self.sigma)
+
+
+class AlongFlow(HeatCarrier):
+    """Temperatures and their sensitivities in a run whose flow changes: heat after every flow
+    step, as :func:`bedflux.section.heat_run.heat_along_flow` runs it, carried with the head
+    sensitivities of both ends of each step.
+
+    Drive it with :meth:`start` (the flow at t = 0) and :meth:`step` (each flow step).
+    """
+
+    def __init__(self, section: Section, weights: sp.csr_matrix, times: np.ndarray,
+                 rules: list[DerivativeRule], values: list[float]):
+        super().__init__(HeatModel(section), weights, times, rules)
+        self.rules, self.param_values = rules, values
+
     def _tangent(self, states) -> FlowTangent:
         return flow_tangent(self.model, self.base, states, self.rules, self.param_values)
 
     def start(self, u: np.ndarray, terms: list[Term], s: np.ndarray) -> None:
         op = self.model.operator([(1.0, u, terms)], terms, 0.0)
-        self.theta, self.sigma = _start(self.model, op, ResidualTangent(op, self._tangent([(1.0, u, terms, s)]), self.P),
-                                        self.P)
-        self.readings.record(0.0, 0.0, self.theta, self.sigma)
+        self.begin(op, self._tangent([(1.0, u, terms, s)]) if self.P else None)
 
     def step(self, info, s0: np.ndarray, s1: np.ndarray) -> None:
         """One flow step (:class:`bedflux.section.transient.StepInfo`) with the head sensitivities
         at its start ``s0`` and end ``s1``."""
-        model = self.model
         states = [(info.theta, info.u1, info.terms1, s1)]
         if info.theta != 1.0:
             states.append((1.0 - info.theta, info.u0, info.terms0, s0))
-        op = model.operator([st[:3] for st in states], info.terms1, info.t1)
-        factor = model.factor(model.step_matrix(op, info.dt, 1.0))
-        theta1, _, _ = model.step(op, factor, self.theta, info.t0, info.t1, 1.0)
-        if self.P:
-            rhs = (model.storage / info.dt)[:, None] * self.sigma - self.dstore * ((theta1 - self.theta) / info.dt)[:, None]
-            rhs += ResidualTangent(op, self._tangent(states), self.P)(theta1, model.sources(info.t1))
-            self.sigma = factor.solve(rhs)
-        self.theta = theta1
-        self.readings.record(info.t0, info.t1, self.theta, self.sigma)
+        op = self.model.operator([st[:3] for st in states], info.terms1, info.t1)
+        self.advance(op, info.t0, info.t1, self._tangent(states) if self.P else None, self.dstore)

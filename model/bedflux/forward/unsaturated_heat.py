@@ -22,39 +22,26 @@ import numpy as np
 import scipy.sparse as sp
 
 from bedflux.forward.derivatives import DerivativeRule
-from bedflux.forward.heat_observe import Readings, thermal_parts
+from bedflux.forward.heat_observe import HeatCarrier
 from bedflux.forward.unsaturated_sensitivity import flow_derivatives
 from bedflux.scenario.heat import WATER_HEAT_CAPACITY
-from bedflux.section.heat import FlowTangent, HeatGeometry, ResidualTangent
+from bedflux.section.heat import FlowTangent, HeatGeometry
 from bedflux.section.heat_run import HeatModel
 from bedflux.section.richards import Evaluation, RichardsSystem, StepForcing
 
 
-class UnsaturatedHeat:
+class UnsaturatedHeat(HeatCarrier):
     """Heat after every accepted state of a variably saturated run, with its sensitivities.
 
-    Call :meth:`state` for the state at t = 0 and after every accepted step; the readings are then
-    in :attr:`values` (degC) and :attr:`jacobian` (per SI parameter).
+    Call :meth:`state` for the state at t = 0 and after every accepted step.
     """
 
     def __init__(self, system: RichardsSystem, weights: sp.csr_matrix, times: np.ndarray,
                  rules: list[DerivativeRule], derivatives):
-        section = system.section
+        model = HeatModel(system.section)
+        model.with_water_content(system.soil.theta_s)  # before the thermal parts: the grains' share
+        super().__init__(model, weights, times, rules)
         self.system, self.derivatives = system, derivatives
-        self.model = model = HeatModel(section)
-        model.with_water_content(system.soil.theta_s)
-        self.P = len(rules)
-        self.base, self.dstore_thermal = thermal_parts(model, rules)
-        self.readings = Readings(weights, times, self.P)
-        self.theta = self.sigma = None
-
-    @property
-    def values(self) -> np.ndarray:
-        return self.readings.values + self.model.t_ref
-
-    @property
-    def jacobian(self) -> np.ndarray:
-        return self.readings.jacobian
 
     def _tangent(self, ev: Evaluation, forcing: StepForcing, s: np.ndarray, term_flows: list[np.ndarray] | None
                  ) -> FlowTangent:
@@ -71,35 +58,19 @@ class UnsaturatedHeat:
         the step ``G = C1 (T1 - T0)/dt + A1 T1 - b(t1)`` then adds ``-dG/dt0 dt0/dp - dG/dt1 dt1/dp``."""
         model, sys_ = self.model, self.system
         view, terms = sys_.flow_view(ev, forcing)
-        volume = model.section.cell_volume
         model.set_water(ev.props.theta)
         model.geometry = HeatGeometry(view, model.cells)
         op = model.operator([(1.0, sys_.head_u(ev.psi), terms)], terms, t1)
-        P = self.P
-        tangent = self._tangent(ev, forcing, s, term_flows) if P else None
+        tangent = self._tangent(ev, forcing, s, term_flows) if self.P else None
         if t1 == 0.0:
-            if model.spec.initial is not None and not steady:
-                self.theta, self.sigma = np.full(sys_.n, model.spec.initial - model.t_ref), np.zeros((sys_.n, P))
-            else:
-                sources = model.sources(0.0, steady=steady)
-                factor = model.factor(op.A)
-                self.theta = factor.solve(op.rhs(sources))
-                self.sigma = factor.solve(ResidualTangent(op, tangent, P)(self.theta, sources)) if P \
-                    else np.zeros((sys_.n, 0))
-        else:
-            dt = t1 - t0
-            factor = model.factor(model.step_matrix(op, dt, 1.0))
-            theta1, _, _ = model.step(op, factor, self.theta, t0, t1, 1.0)
-            if P:
-                dstore = self.dstore_thermal + WATER_HEAT_CAPACITY * volume[:, None] * (
-                    ev.props.capacity[:, None] * s + self.derivatives.water_content(ev))
-                rhs = (model.storage / dt)[:, None] * self.sigma - dstore * ((theta1 - self.theta) / dt)[:, None]
-                rhs += ResidualTangent(op, tangent, P)(theta1, model.sources(t1))
-                if times is not None:
-                    rhs -= self._time_derivatives(op, theta1, t0, t1, *times)
-                self.sigma = factor.solve(rhs)
-            self.theta = theta1
-        self.readings.record(t0, t1, self.theta, self.sigma)
+            self.begin(op, tangent, steady)
+            return
+        dstore = self.dstore
+        if self.P:
+            dstore = dstore + WATER_HEAT_CAPACITY * model.section.cell_volume[:, None] * (
+                ev.props.capacity[:, None] * s + self.derivatives.water_content(ev))
+        correction = None if times is None else (lambda theta1: self._time_derivatives(op, theta1, t0, t1, *times))
+        self.advance(op, t0, t1, tangent, dstore, correction)
 
     def _time_derivatives(self, op, theta1: np.ndarray, t0: float, t1: float, dt0: np.ndarray,
                           dt1: np.ndarray) -> np.ndarray:
